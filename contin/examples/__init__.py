@@ -1,0 +1,1 @@
+"""Problem files shipped with contin (package data): `contin run --list-examples`."""
