@@ -1,0 +1,90 @@
+"""Shared writers for thermodynamic results: CSV with caution and units header, summaries, atomic writes."""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+import tempfile
+from collections.abc import Mapping, Sequence
+from pathlib import Path
+
+from ._caution import CAUTION, caution_comment
+
+__all__ = ["atomic_write_text", "csv_text", "write_csv", "summary_lines", "format_value"]
+
+
+def atomic_write_text(path: str | Path, text: str) -> Path:
+    """Write ``text`` to ``path`` through a temporary file in the same directory and an atomic rename.
+
+    A reader never sees a half-written file, and an interrupted run leaves the old file in place.
+    """
+    path = Path(path)
+    directory = path.parent if str(path.parent) else Path(".")
+    directory.mkdir(parents=True, exist_ok=True)
+    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
+            stream.write(text)
+        os.replace(temporary, path)
+    except BaseException:
+        if os.path.exists(temporary):
+            os.unlink(temporary)
+        raise
+    return path
+
+
+def format_value(value: object) -> str:
+    """A cell for CSV: floats with 17 significant digits (round-trip exact), other values as text."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float) or hasattr(value, "dtype"):
+        number = float(value)  # type: ignore[arg-type]
+        return repr(number) if math.isfinite(number) else ("nan" if math.isnan(number) else repr(number))
+    return str(value)
+
+
+def csv_text(
+    columns: Sequence[str],
+    rows: Sequence[Sequence[object]],
+    units: Mapping[str, str],
+    *,
+    title: str = "",
+    notes: Sequence[str] = (),
+) -> str:
+    """CSV text: comment lines (title, notes, caution, units), then a header row and the data rows.
+
+    Args:
+        columns: column names.
+        rows: data rows in column order.
+        units: unit of each column (``""`` for dimensionless); shown in a ``# units:`` comment line.
+        title: first comment line (what the file holds).
+        notes: further comment lines (model, fluid, ...).
+    """
+    head = io.StringIO()
+    if title:
+        head.write(f"# {title}\n")
+    for note in notes:
+        head.write(f"# {note}\n")
+    head.write(caution_comment())
+    head.write("# units: " + ", ".join(f"{c} [{units.get(c, '') or '-'}]" for c in columns) + "\n")
+    writer = csv.writer(head, lineterminator="\n")
+    writer.writerow(columns)
+    for row in rows:
+        writer.writerow([format_value(v) for v in row])
+    return head.getvalue()
+
+
+def write_csv(path: str | Path, columns, rows, units, *, title: str = "", notes: Sequence[str] = ()) -> Path:
+    """Write :func:`csv_text` atomically to ``path``; returns the path."""
+    return atomic_write_text(path, csv_text(columns, rows, units, title=title, notes=notes))
+
+
+def summary_lines(title: str, items: Sequence[tuple[str, str]]) -> list[str]:
+    """Lines of a human summary: the title, aligned ``label: value`` pairs, then the caution."""
+    width = max((len(label) for label, _ in items), default=0)
+    lines = [title]
+    lines += [f"  {label.ljust(width)} : {value}" for label, value in items]
+    lines.append(CAUTION)
+    return lines
