@@ -1,0 +1,333 @@
+"""Safe parsing of expression text (an untrusted problem file) into sympy expressions.
+
+The text is read by Python's :mod:`ast` module and every node is checked against an allow-list:
+numbers, declared names, ``+ - * / **``, unary minus and plus, and calls of a fixed set of
+mathematical functions. Nothing is ever evaluated by Python: no ``eval``, ``exec``, ``sympify`` on
+text, no attribute access, no subscripts. The sympy expression is then built node by node.
+
+Work is bounded before sympy sees a number: the input length, the nesting depth, and the size of
+constant powers (``9**9**9**9`` is refused at once instead of being computed).
+"""
+
+from __future__ import annotations
+
+import ast
+import math
+from collections.abc import Mapping
+
+import sympy
+
+from ._errors import InputError
+from ._names import suggest
+
+__all__ = [
+    "FUNCTIONS",
+    "CONSTANTS",
+    "MAX_LENGTH",
+    "MAX_DEPTH",
+    "MAX_POWER_BITS",
+    "MAX_EXPONENT",
+    "parse_expression",
+]
+
+#: Longest expression text accepted, in characters.
+MAX_LENGTH = 200_000
+#: Deepest nesting accepted (parentheses, calls, powers); chains of + - and * / do not count.
+MAX_DEPTH = 100
+#: Largest constant power computed exactly, in bits of the result (about 3000 decimal digits).
+MAX_POWER_BITS = 10_000
+#: Largest integer exponent (numerator of a rational exponent) of a symbolic base.
+MAX_EXPONENT = 10_000
+
+
+def _heaviside(z: sympy.Expr, *_: sympy.Expr) -> sympy.Expr:
+    # Written with sign() so every back end can evaluate and differentiate it the same way.
+    return (1 + sympy.sign(z)) / 2
+
+
+#: Functions a problem file may call: name -> (sympy function, smallest, largest argument count).
+FUNCTIONS: Mapping[str, tuple[object, int, int | None]] = {
+    "exp": (sympy.exp, 1, 1),
+    "log": (sympy.log, 1, 1),
+    "sqrt": (sympy.sqrt, 1, 1),
+    "sin": (sympy.sin, 1, 1),
+    "cos": (sympy.cos, 1, 1),
+    "tan": (sympy.tan, 1, 1),
+    "asin": (sympy.asin, 1, 1),
+    "acos": (sympy.acos, 1, 1),
+    "atan": (sympy.atan, 1, 1),
+    "atan2": (sympy.atan2, 2, 2),
+    "sinh": (sympy.sinh, 1, 1),
+    "cosh": (sympy.cosh, 1, 1),
+    "tanh": (sympy.tanh, 1, 1),
+    "asinh": (sympy.asinh, 1, 1),
+    "acosh": (sympy.acosh, 1, 1),
+    "atanh": (sympy.atanh, 1, 1),
+    "abs": (sympy.Abs, 1, 1),
+    "min": (sympy.Min, 2, None),
+    "max": (sympy.Max, 2, None),
+}
+
+#: Extra functions in the text the compile cache writes itself (sympy's own spellings).
+_CACHE_FUNCTIONS: Mapping[str, tuple[object, int, int | None]] = {
+    "Abs": (sympy.Abs, 1, 1),
+    "Min": (sympy.Min, 2, None),
+    "Max": (sympy.Max, 2, None),
+    "sign": (sympy.sign, 1, 1),
+    "Heaviside": (_heaviside, 1, 2),
+}
+
+#: Named constants; a declared unknown, parameter or constant of the same name takes precedence.
+CONSTANTS: Mapping[str, sympy.Expr] = {"pi": sympy.pi, "E": sympy.E}
+
+_OPERATORS = {
+    ast.Add: "+",
+    ast.Sub: "-",
+    ast.Mult: "*",
+    ast.Div: "/",
+    ast.Pow: "**",
+    ast.FloorDiv: "//",
+    ast.Mod: "%",
+    ast.MatMult: "@",
+    ast.BitAnd: "&",
+    ast.BitOr: "|",
+    ast.BitXor: "^",
+    ast.LShift: "<<",
+    ast.RShift: ">>",
+}
+
+_REFUSED = {
+    ast.Attribute: "attribute access (a.b) is not allowed",
+    ast.Subscript: "subscripts (a[i]) are not allowed",
+    ast.Lambda: "lambda functions are not allowed",
+    ast.ListComp: "comprehensions are not allowed",
+    ast.SetComp: "comprehensions are not allowed",
+    ast.DictComp: "comprehensions are not allowed",
+    ast.GeneratorExp: "generator expressions are not allowed",
+    ast.JoinedStr: "f-strings are not allowed",
+    ast.FormattedValue: "f-strings are not allowed",
+    ast.Compare: "comparisons are not allowed: write the equation as 'left - right'",
+    ast.BoolOp: "'and' / 'or' are not allowed",
+    ast.IfExp: "'if ... else' expressions are not allowed",
+    ast.NamedExpr: "assignment expressions (:=) are not allowed",
+    ast.Starred: "starred arguments are not allowed",
+    ast.List: "lists are not allowed",
+    ast.Tuple: "tuples are not allowed",
+    ast.Set: "sets are not allowed",
+    ast.Dict: "dictionaries are not allowed",
+    ast.Await: "'await' is not allowed",
+    ast.Yield: "'yield' is not allowed",
+    ast.YieldFrom: "'yield' is not allowed",
+    ast.Slice: "slices are not allowed",
+}
+
+
+class _Refused(Exception):
+    """Internal: a refusal at a node; turned into an InputError with the column."""
+
+    def __init__(self, message: str, node: ast.AST | None) -> None:
+        super().__init__(message)
+        self.node = node
+
+
+def parse_expression(
+    text: str,
+    names: Mapping[str, sympy.Expr],
+    *,
+    label: str = "expression",
+    _cache_format: bool = False,
+) -> sympy.Expr:
+    """Parse expression text into a sympy expression, allowing only arithmetic on declared names.
+
+    Args:
+        text: the expression, e.g. ``"u**3 - u + p"``.
+        names: every name the text may use -> the sympy object it stands for (a symbol for an
+            unknown or parameter, a number for a constant).
+        label: where the text comes from, put in front of every message, e.g.
+            ``"reactor.toml: equation 'balance' (line 12)"``.
+
+    Returns:
+        The sympy expression.
+
+    Raises:
+        InputError: ``"<label>, column <c>: <what is wrong>"`` for anything outside the allow-list,
+            an undeclared name (with a "did you mean" suggestion), too long or too deep input, or a
+            constant power too large to compute.
+    """
+    if not isinstance(text, str):
+        raise InputError(f"{label}: expected the expression as text, got {type(text).__name__}")
+    if len(text) > MAX_LENGTH:
+        raise InputError(
+            f"{label}: the expression is {len(text)} characters long; the limit is {MAX_LENGTH}. "
+            "Split it with intermediate unknowns or constants"
+        )
+    if not text.strip():
+        raise InputError(f"{label}: the expression is empty")
+    if "\n" in text.strip() or "\r" in text:
+        # One expression per line keeps columns meaningful; TOML multi-line strings are refused.
+        raise InputError(f"{label}: the expression spans several lines; write it on one line")
+    try:
+        tree = ast.parse(text.strip(), mode="eval")
+    except SyntaxError as error:
+        column = error.offset or 1
+        reason = error.msg
+        if "too many nested" in reason or "too complex" in reason:
+            reason = f"the expression is nested too deeply (limit {MAX_DEPTH} levels)"
+        raise InputError(f"{label}, column {column}: cannot read the expression: {reason}") from None
+    except (RecursionError, MemoryError):
+        raise InputError(
+            f"{label}: the expression is nested too deeply, or is too long a chain of terms, to read "
+            f"(limits: {MAX_DEPTH} levels, about 2000 terms in one sum); split it with intermediate unknowns"
+        ) from None
+    except ValueError as error:  # e.g. a literal with too many digits, a null character
+        raise InputError(f"{label}: cannot read the expression: {error}") from None
+    builder = _Builder(text.strip(), names, _cache_format)
+    try:
+        result = builder.build(tree.body, 0)
+    except _Refused as refusal:
+        column = builder.column(refusal.node)
+        where = f"{label}, column {column}" if column is not None else label
+        raise InputError(f"{where}: {refusal}") from None
+    except RecursionError:
+        raise InputError(f"{label}: the expression is nested too deeply (limit {MAX_DEPTH} levels)") from None
+    if result.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo):
+        raise InputError(f"{label}: the expression is infinite or undefined (a division by zero?)")
+    return result
+
+
+class _Builder:
+    """Walks an allow-listed ast and builds the sympy expression."""
+
+    def __init__(self, text: str, names: Mapping[str, sympy.Expr], cache_format: bool) -> None:
+        self.text = text
+        self.names = names
+        self.functions = {**FUNCTIONS, **_CACHE_FUNCTIONS} if cache_format else FUNCTIONS
+
+    def column(self, node: ast.AST | None) -> int | None:
+        offset = getattr(node, "col_offset", None)
+        if offset is None:
+            return None
+        # ast columns count UTF-8 bytes; report characters, starting at 1.
+        return len(self.text.encode("utf-8")[:offset].decode("utf-8", errors="ignore")) + 1
+
+    def build(self, node: ast.AST, depth: int) -> sympy.Expr:
+        if depth > MAX_DEPTH:
+            raise _Refused(f"the expression is nested too deeply (limit {MAX_DEPTH} levels)", node)
+        if isinstance(node, ast.Constant):
+            return self.number(node)
+        if isinstance(node, ast.Name):
+            return self.name(node)
+        if isinstance(node, ast.UnaryOp):
+            if isinstance(node.op, ast.USub):
+                return -self.build(node.operand, depth + 1)
+            if isinstance(node.op, ast.UAdd):
+                return self.build(node.operand, depth + 1)
+            word = "'not'" if isinstance(node.op, ast.Not) else "'~'"
+            raise _Refused(f"the operator {word} is not allowed; use + - * / **", node)
+        if isinstance(node, ast.BinOp):
+            if isinstance(node.op, (ast.Add, ast.Sub)):
+                return self.chain(node, depth, (ast.Add, ast.Sub))
+            if isinstance(node.op, (ast.Mult, ast.Div)):
+                return self.chain(node, depth, (ast.Mult, ast.Div))
+            if isinstance(node.op, ast.Pow):
+                return self.power(node, depth)
+            symbol = _OPERATORS.get(type(node.op), type(node.op).__name__)
+            raise _Refused(f"the operator '{symbol}' is not allowed; use + - * / **", node)
+        if isinstance(node, ast.Call):
+            return self.call(node, depth)
+        for kind, message in _REFUSED.items():
+            if isinstance(node, kind):
+                raise _Refused(message, node)
+        raise _Refused(f"{type(node).__name__} is not allowed in an expression", node)
+
+    def chain(self, node: ast.BinOp, depth: int, operators: tuple[type, ...]) -> sympy.Expr:
+        # a + b - c + ... is a left-leaning tree as deep as it is long: walk it without recursion
+        # so that long sums (all-pairs mixing rules) do not count as deep nesting.
+        operands: list[tuple[type, ast.AST]] = []
+        current: ast.AST = node
+        while isinstance(current, ast.BinOp) and isinstance(current.op, operators):
+            operands.append((type(current.op), current.right))
+            current = current.left
+        first = self.build(current, depth + 1)
+        terms = [first]
+        if operators[0] is ast.Add:
+            for op, operand in reversed(operands):
+                value = self.build(operand, depth + 1)
+                terms.append(value if op is ast.Add else -value)
+            return sympy.Add(*terms)
+        for op, operand in reversed(operands):
+            value = self.build(operand, depth + 1)
+            if op is ast.Div:
+                if value == 0:
+                    raise _Refused("division by zero", operand)
+                value = sympy.Pow(value, -1)
+            terms.append(value)
+        return sympy.Mul(*terms)
+
+    def power(self, node: ast.BinOp, depth: int) -> sympy.Expr:
+        base = self.build(node.left, depth + 1)
+        exponent = self.build(node.right, depth + 1)
+        if exponent.is_Rational:
+            top = abs(int(exponent.p))
+            if base.is_Rational:
+                size = max(abs(int(base.p)), abs(int(base.q)))
+                bits = top * math.log2(size) if size > 1 else 0.0
+                if bits > MAX_POWER_BITS:
+                    raise _Refused(
+                        f"the constant power is too large to compute (about {bits:.3g} bits; "
+                        f"the limit is {MAX_POWER_BITS})",
+                        node,
+                    )
+            elif top > MAX_EXPONENT:
+                raise _Refused(f"the exponent {exponent} is too large (the limit is {MAX_EXPONENT})", node)
+        elif exponent.is_Number and base.is_Number and abs(float(exponent)) > 1e6:
+            raise _Refused(f"the constant power is too large to compute (exponent {float(exponent):.3g})", node)
+        if base == 0 and exponent.is_number and exponent.is_negative:
+            raise _Refused("division by zero (zero to a negative power)", node)
+        return sympy.Pow(base, exponent)
+
+    def number(self, node: ast.Constant) -> sympy.Expr:
+        value = node.value
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            kind = "text" if isinstance(value, (str, bytes)) else repr(value)
+            raise _Refused(f"{kind} is not a number; only numbers and declared names are allowed", node)
+        if isinstance(value, float):
+            if not math.isfinite(value):
+                raise _Refused("the number is too large (not finite)", node)
+            return sympy.Float(value)
+        return sympy.Integer(value)
+
+    def name(self, node: ast.Name) -> sympy.Expr:
+        if node.id in self.names:
+            return self.names[node.id]
+        if node.id in CONSTANTS:
+            return CONSTANTS[node.id]
+        if node.id in self.functions:
+            raise _Refused(f"{node.id!r} is a function: call it, e.g. {node.id}(x)", node)
+        hint = suggest(node.id, [*self.names, *CONSTANTS])
+        known = ", ".join(sorted(self.names)) or "none"
+        raise _Refused(f"name {node.id!r} is not declared (declared names: {known}){hint}", node)
+
+    def call(self, node: ast.Call, depth: int) -> sympy.Expr:
+        if not isinstance(node.func, ast.Name):
+            if isinstance(node.func, ast.Attribute):
+                raise _Refused("attribute access (a.b) is not allowed", node.func)
+            raise _Refused("only calls of allowed functions by name are allowed, e.g. exp(x)", node)
+        name = node.func.id
+        if name not in self.functions:
+            hint = suggest(name, self.functions)
+            allowed = ", ".join(sorted(FUNCTIONS))
+            raise _Refused(f"function {name!r} is not allowed (allowed: {allowed}){hint}", node.func)
+        if node.keywords:
+            raise _Refused(f"{name}() takes no keyword arguments", node.keywords[0].value)
+        function, smallest, largest = self.functions[name]
+        count = len(node.args)
+        if count < smallest or (largest is not None and count > largest):
+            wanted = f"{smallest}" if largest == smallest else f"at least {smallest}"
+            if largest is not None and largest != smallest:
+                wanted = f"{smallest} to {largest}"
+            raise _Refused(f"{name}() takes {wanted} argument{'s' if wanted != '1' else ''}, got {count}", node)
+        arguments = [self.build(argument, depth + 1) for argument in node.args]
+        if name == "log" and arguments[0] == 0:
+            raise _Refused("log(0) is undefined", node)
+        return function(*arguments)
