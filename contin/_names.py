@@ -17,6 +17,9 @@ def suggest(word: str, choices: Iterable[str]) -> str:
     if not close:
         lowered = {c.lower(): c for c in options}
         close = [lowered[c] for c in difflib.get_close_matches(word.lower(), sorted(lowered), n=1, cutoff=0.6)]
+    if not close:
+        # Short names defeat similarity ratios: offer a name one substitution away ('q' for 'p').
+        close = [c for c in options if len(c) == len(word) and sum(a != b for a, b in zip(c, word)) == 1][:1]
     return f"; did you mean {close[0]!r}?" if close else ""
 
 

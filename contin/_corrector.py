@@ -1,0 +1,106 @@
+"""Newton's method on the bordered (augmented) system: the corrector of each continuation step."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ._extended import Extended
+from ._tangent import Bordered, SingularMatrix
+
+__all__ = ["Correction", "correct"]
+
+
+@dataclass(frozen=True)
+class Correction:
+    """Outcome of one corrector call.
+
+    Attributes:
+        converged: whether the residual and the last Newton step met the tolerance.
+        x: last iterate (the corrected point when converged).
+        residual: G(x).
+        jacobian: dG/dx at x (evaluated there, so the tangent at x is exact).
+        iterations: Newton iterations done.
+        residual_norm: largest absolute residual at x.
+        reason: why it failed ("" when converged).
+    """
+
+    converged: bool
+    x: np.ndarray
+    residual: np.ndarray
+    jacobian: np.ndarray | None
+    iterations: int
+    residual_norm: float
+    reason: str = ""
+
+
+def correct(
+    extended: Extended,
+    guess: np.ndarray,
+    row: np.ndarray,
+    target: float,
+    *,
+    tolerance: float,
+    max_iterations: int,
+    jacobian: np.ndarray | None = None,
+    residual: np.ndarray | None = None,
+    max_distance: float = np.inf,
+    guard_divergence: bool = True,
+) -> Correction:
+    """Solve G(x) = 0, row . x = target by Newton's method from ``guess``.
+
+    With ``row`` the tangent and ``target = row . predictor`` this is Keller's pseudo-arclength
+    corrector (Keller, Numerical solution of bifurcation and nonlinear eigenvalue problems, 1977);
+    with ``row`` a unit vector it fixes one coordinate (natural or local parametrisation).
+
+    Args:
+        extended: the system in coordinates x.
+        guess: starting point (the predictor).
+        row: the constraint row, shape (n + 1,).
+        target: the constraint's right-hand side.
+        tolerance: converged when max |G| <= tolerance and the last step is small.
+        max_iterations: iterations before giving up.
+        jacobian: dG/dx to use for the first iteration (e.g. from the previous point), or None.
+        residual: G(guess) if already known.
+        max_distance: give up if an iterate moves farther than this from ``guess`` (branch jumping).
+        guard_divergence: give up when a Newton step is more than twice the previous one (after the
+            second iteration); plain grid stepping turns this off to behave as the textbook method.
+    """
+    x = np.array(guess, dtype=float)
+    if jacobian is None:
+        residual, jacobian = extended.linearise(x)
+    elif residual is None:
+        residual = extended.residual(x)
+    norm = float(np.max(np.abs(residual))) if residual.size else 0.0
+    if not np.isfinite(norm):
+        return Correction(False, x, residual, jacobian, 0, norm, "non-finite residual at the predicted point")
+    scale = 1.0 + float(np.max(np.abs(x)))
+    step_tolerance = max(np.sqrt(tolerance), 1e-8) * scale
+    last_step = np.inf
+    for iteration in range(1, max_iterations + 1):
+        try:
+            bordered = Bordered(jacobian, row)
+        except SingularMatrix:
+            return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
+        rhs = np.empty(row.size)
+        rhs[:-1] = -residual
+        rhs[-1] = target - row @ x
+        dx = bordered.solve(rhs)
+        step = float(np.max(np.abs(dx)))
+        extended.counters.newton_iterations += 1
+        if not np.isfinite(step):
+            return Correction(False, x, residual, jacobian, iteration, norm, "non-finite Newton step")
+        if guard_divergence and iteration > 2 and step > 2.0 * last_step:
+            return Correction(False, x, residual, jacobian, iteration, norm, "Newton diverged")
+        x = x + dx
+        residual, jacobian = extended.linearise(x)
+        norm = float(np.max(np.abs(residual))) if residual.size else 0.0
+        if not np.isfinite(norm) or not np.all(np.isfinite(jacobian)):
+            return Correction(False, x, residual, jacobian, iteration, norm, "non-finite residual or Jacobian")
+        if np.linalg.norm(x - guess) > max_distance:
+            return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
+        if norm <= tolerance and step <= step_tolerance:
+            return Correction(True, x, residual, jacobian, iteration, norm)
+        last_step = step
+    return Correction(False, x, residual, jacobian, max_iterations, norm, f"no convergence (in {max_iterations} Newton iterations)")

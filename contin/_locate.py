@@ -1,0 +1,171 @@
+"""Locating a special point between two accepted points of a branch to a tolerance."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ._corrector import Correction, correct
+from ._extended import Extended
+from ._tangent import Bordered, SingularMatrix, tangent
+
+__all__ = ["Located", "locate_zero", "locate_level"]
+
+
+@dataclass(frozen=True)
+class Located:
+    """A point on the branch where a test function vanishes.
+
+    Attributes:
+        fraction: position between the two bracketing points, 0 (first) to 1 (second), along the chord.
+        x: the point (coordinates), converged to the Newton tolerance.
+        tangent: unit tangent there.
+        residual_norm: largest residual there.
+        iterations: Newton iterations of the last correction.
+        located_to: distance along the branch to which the position is known.
+        value: the test function's value there.
+    """
+
+    fraction: float
+    x: np.ndarray
+    tangent: np.ndarray
+    residual_norm: float
+    iterations: int
+    located_to: float
+    value: float
+    info: dict = field(default_factory=dict)
+
+
+def _point_at(extended: Extended, xa: np.ndarray, chord: np.ndarray, fraction: float, options) -> Correction:
+    unit = chord / np.linalg.norm(chord)
+    guess = xa + fraction * chord
+    return correct(
+        extended,
+        guess,
+        unit,
+        float(unit @ guess),
+        tolerance=options.tolerance,
+        max_iterations=2 * options.max_iterations,
+        max_distance=np.linalg.norm(chord),
+    )
+
+
+def _tangent_at(correction: Correction, row: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    try:
+        return tangent(Bordered(correction.jacobian, row), reference)
+    except SingularMatrix:
+        return reference.copy()
+
+
+def locate_zero(
+    extended: Extended,
+    a: tuple[np.ndarray, np.ndarray, float],
+    b: tuple[np.ndarray, np.ndarray, float],
+    test: Callable[[np.ndarray, np.ndarray], float],
+    options,
+) -> Located | None:
+    """Zero of ``test(x, tangent)`` between accepted points ``a`` and ``b`` by the Illinois method.
+
+    Each trial position along the chord from ``a`` to ``b`` is corrected back onto the branch (Newton
+    on the hyperplane orthogonal to the chord), so every iterate is a genuine solution point; the
+    Illinois variant of regula falsi (Dowell & Jarratt, BIT 11, 1971) keeps the bracket shrinking from
+    both sides.
+
+    Args:
+        extended: the system.
+        a, b: (x, tangent, test value) at the two bracketing points; the values differ in sign.
+        test: the test function of a point and its tangent.
+        options: the trace options (tolerances).
+
+    Returns:
+        The located point, or None if a correction failed (the caller then reports the crossing at
+        the nearer bracketing point).
+    """
+    xa, ta, fa = a
+    xb, tb, fb = b
+    chord = xb - xa
+    length = float(np.linalg.norm(chord))
+    if length == 0.0:
+        return None
+    unit = chord / length
+    low, high = 0.0, 1.0
+    f_low, f_high = fa, fb
+    side = 0
+    previous = -1.0
+    best: Located | None = None
+    for _ in range(100):
+        if f_high != f_low:
+            trial = (low * f_high - high * f_low) / (f_high - f_low)
+        else:
+            trial = 0.5 * (low + high)
+        if not low < trial < high:
+            trial = 0.5 * (low + high)
+        correction = _point_at(extended, xa, chord, trial, options)
+        if not correction.converged:
+            return best
+        t = _tangent_at(correction, unit, ta)
+        value = float(test(correction.x, t))
+        width = (high - low) * length
+        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations, width, value)
+        if value == 0.0:
+            break
+        if (value < 0.0) == (f_low < 0.0):
+            low, f_low = trial, value
+            if side == -1:
+                f_high *= 0.5
+            side = -1
+        else:
+            high, f_high = trial, value
+            if side == 1:
+                f_low *= 0.5
+            side = 1
+        width = (high - low) * length
+        moved = abs(trial - previous) * length
+        previous = trial
+        if width <= options.location_tolerance or moved <= options.location_tolerance:
+            break
+    if best is None:
+        return None
+    located_to = min((high - low) * length, moved)
+    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to, best.value)
+
+
+def locate_level(
+    extended: Extended,
+    a: tuple[np.ndarray, np.ndarray],
+    b: tuple[np.ndarray, np.ndarray],
+    coordinate: int,
+    level: float,
+    options,
+) -> Located | None:
+    """The point between ``a`` and ``b`` where coordinate ``coordinate`` equals ``level`` exactly.
+
+    Newton on G(x) = 0, x[coordinate] = level from the linear interpolate; if that lands outside the
+    bracket (the coordinate turns between ``a`` and ``b``), fall back to :func:`locate_zero`.
+    """
+    xa, ta = a
+    xb, tb = b
+    span = xb[coordinate] - xa[coordinate]
+    fraction = 0.0 if span == 0.0 else (level - xa[coordinate]) / span
+    row = np.zeros(xa.size)
+    row[coordinate] = 1.0
+    guess = xa + fraction * (xb - xa)
+    length = float(np.linalg.norm(xb - xa))
+    correction = correct(extended, guess, row, level, tolerance=options.tolerance,
+                         max_iterations=2 * options.max_iterations, max_distance=length)
+    if correction.converged:
+        offset = correction.x - xa
+        along = float(offset @ (xb - xa)) / max(length**2, 1e-300)
+        if -1e-9 <= along <= 1 + 1e-9:
+            t = _tangent_at(correction, row, ta)
+            return Located(min(max(along, 0.0), 1.0), correction.x, t, correction.residual_norm,
+                           correction.iterations, 0.0, 0.0)
+    return locate_zero(
+        extended,
+        (xa, ta, xa[coordinate] - level),
+        (xb, tb, xb[coordinate] - level),
+        lambda x, t: x[coordinate] - level,
+        options,
+    )

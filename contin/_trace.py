@@ -1,0 +1,525 @@
+"""The driver: trace one branch of F(u, p) = 0 by pseudo-arclength continuation."""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Callable, Mapping, Sequence
+
+import numpy as np
+
+from ._branch import Branch, SpecialPoint
+from ._corrector import correct
+from ._errors import InputError, TraceError
+from ._events import Event, crossed
+from ._extended import CallbackFailure, Counters, Extended
+from ._locate import Located, locate_level, locate_zero
+from ._names import suggest
+from ._options import TraceOptions
+from ._status import Status
+from ._stepsize import StepController
+from ._system import System
+from ._tangent import Bordered, SingularMatrix, tangent
+
+__all__ = ["trace", "start_vector"]
+
+
+def start_vector(system: System, start) -> np.ndarray:
+    """Start values of the unknowns from a mapping, a sequence, or the system's defaults."""
+    if start is None:
+        if system.start is None:
+            raise InputError("start is missing: give start values of the unknowns (the system has no defaults)")
+        values = np.array(system.start, dtype=float)
+    elif isinstance(start, Mapping):
+        unknown = [name for name in start if name not in system.unknowns]
+        if unknown:
+            raise InputError(
+                f"start names {unknown[0]!r}, which is not an unknown{suggest(unknown[0], system.unknowns)}"
+            )
+        if system.start is None:
+            missing = [name for name in system.unknowns if name not in start]
+            if missing:
+                raise InputError(f"start gives no value for unknown {missing[0]!r} (and the system has no default)")
+            values = np.zeros(system.size)
+        else:
+            values = np.array(system.start, dtype=float)
+        for name, value in start.items():
+            values[system.unknowns.index(name)] = float(value)
+    else:
+        values = np.asarray(start, dtype=float).reshape(-1)
+        if values.size != system.size:
+            raise InputError(f"start has {values.size} values but the system has {system.size} unknowns")
+    bad = [name for name, v in zip(system.unknowns, values) if not math.isfinite(v)]
+    if bad:
+        raise InputError(f"start value of {bad[0]!r} is not finite ({values[system.unknowns.index(bad[0])]})")
+    return values
+
+
+def _coordinate(name: str, columns: Sequence[str], argument: str) -> int:
+    if name not in columns:
+        raise InputError(
+            f"{argument} names {name!r}, which is not an unknown or the free parameter "
+            f"(coordinates: {', '.join(columns)}){suggest(name, columns)}"
+        )
+    return list(columns).index(name)
+
+
+def _check_bounds(bounds, system: System, columns, parameters: np.ndarray) -> list[tuple[int, float, float]]:
+    checked = []
+    for name, pair in sorted((bounds or {}).items()):
+        try:
+            low, high = (float(v) for v in pair)
+        except (TypeError, ValueError):
+            raise InputError(f"bounds for {name!r} must be a pair (low, high), got {pair!r}") from None
+        if not (low < high):
+            raise InputError(f"bounds for {name!r}: lower {low} must be below upper {high}")
+        if name not in columns and name in system.parameters:
+            value = parameters[system.parameters.index(name)]
+            if not low <= value <= high:
+                raise InputError(f"parameter {name!r} is fixed at {value}, outside its bounds [{low}, {high}]")
+            continue
+        checked.append((_coordinate(name, columns, "bounds"), low, high))
+    return checked
+
+
+def _check_at(at, columns) -> list[tuple[int, np.ndarray]]:
+    checked = []
+    for name, values in sorted((at or {}).items()):
+        array = np.atleast_1d(np.asarray(values, dtype=float))
+        if not np.all(np.isfinite(array)):
+            raise InputError(f"at values for {name!r} must be finite numbers")
+        checked.append((_coordinate(name, columns, "at"), np.unique(array)))
+    return checked
+
+
+def trace(
+    system: System,
+    start=None,
+    *,
+    free: str,
+    parameters: Mapping[str, float] | None = None,
+    direction: int = 1,
+    step: float = 0.01,
+    min_step: float = 1e-8,
+    max_step: float = 0.5,
+    max_points: int = 2000,
+    tolerance: float = 1e-10,
+    max_iterations: int = 8,
+    bounds: Mapping[str, Sequence[float]] | None = None,
+    events: Sequence[Event] = (),
+    at: Mapping[str, Sequence[float]] | None = None,
+    folds: Sequence[str] = (),
+    corrector: str = "arclength",
+    options: TraceOptions | None = None,
+    on_point: Callable[[int, np.ndarray], None] | None = None,
+    throw: bool = False,
+) -> Branch:
+    """Trace the branch of F(u, p) = 0 through ``start`` by pseudo-arclength continuation.
+
+    The unknowns u and the free parameter ``free`` together form the coordinates x; each step
+    predicts along the unit tangent, corrects by Newton's method on the bordered system (Keller's
+    pseudo-arclength condition, or Rheinboldt's local parametrisation with ``corrector="local"``), and
+    re-uses the Jacobian at the corrected point for its tangent. Turning points (folds) of the free
+    parameter, and of every coordinate in ``folds``, are detected by a sign change of the tangent's
+    component and located by the Illinois method on that component; user events and requested
+    coordinate values (``at``) are located the same way, requested values exactly.
+
+    References: H. B. Keller, Numerical solution of bifurcation and nonlinear eigenvalue problems, in
+    Applications of Bifurcation Theory, Academic Press, 1977; W. C. Rheinboldt, Numerical Analysis of
+    Parametrized Nonlinear Equations, Wiley, 1986.
+
+    Args:
+        system: the residual system.
+        start: start values of the unknowns (mapping name -> value, or array); the system's by default.
+        free: name of the parameter that varies along the branch.
+        parameters: values overriding the system's parameter values (the free one's is the start).
+        direction, step, min_step, max_step, max_points, tolerance, max_iterations, corrector: see
+            :class:`TraceOptions`; or pass ``options`` instead (not both).
+        bounds: coordinate name -> (low, high); the trace stops on the boundary when it leaves.
+        events: zero crossings of user functions to locate; terminal ones stop the trace.
+        at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
+        folds: further coordinates whose turning points are located (the free parameter's always are).
+        on_point: called as ``on_point(index, x)`` after each accepted point (e.g. for progress).
+        throw: raise :class:`TraceError` (with the partial branch) instead of returning an unsuccessful one.
+
+    Returns:
+        The :class:`Branch`; an exception inside a user callback, or KeyboardInterrupt, returns what was
+        traced so far with status ``interrupted`` and the exception as ``cause``.
+
+    Raises:
+        InputError: bad input (sizes, names, non-finite start, bounds, options, a singular start).
+        TraceError: only with ``throw=True``, when the trace does not succeed.
+    """
+    began = time.perf_counter()
+    if not isinstance(system, System):
+        raise InputError(f"system must be a contin System, got {type(system).__name__}")
+    keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
+                    max_iterations=max_iterations, direction=direction, corrector=corrector)
+    if options is None:
+        options = TraceOptions(**keywords)
+    elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):
+        raise InputError("give either options=TraceOptions(...) or the step/tolerance keywords, not both")
+    free_index = system.index_of_parameter(free)
+    parameter_values = system.parameter_vector(parameters)
+    u0 = start_vector(system, start)
+    if not math.isfinite(parameter_values[free_index]):
+        raise InputError(f"the free parameter {free!r} has no finite start value")
+    columns = tuple(system.unknowns) + (free,)
+    bound_list = _check_bounds(bounds, system, columns, parameter_values)
+    at_list = _check_at(at, columns)
+    fold_list = [len(columns) - 1] + [
+        i for i in (_coordinate(name, columns, "folds") for name in folds) if i != len(columns) - 1
+    ]
+    for event in events:
+        if not isinstance(event, Event):
+            raise InputError(f"events must be contin.Event objects, got {type(event).__name__}")
+    names = [event.name for event in events]
+    if len(set(names)) != len(names):
+        raise InputError("two events share one name; give each event its own name")
+
+    counters = Counters()
+    extended = Extended(system, parameter_values, free_index, counters)
+    x0 = np.append(u0, parameter_values[free_index])
+    for index, low, high in bound_list:
+        if not low <= x0[index] <= high:
+            raise InputError(f"the start point has {columns[index]} = {x0[index]}, outside its bounds [{low}, {high}]")
+    run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
+    run.stats_setup = time.perf_counter() - began + float(getattr(system, "setup_seconds", 0.0) or 0.0)
+    traced = time.perf_counter()
+    try:
+        run.start(x0)
+        if run.status is None:
+            run.loop()
+    except CallbackFailure as failure:
+        run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: {failure}", failure.__cause__)
+    except KeyboardInterrupt as interrupt:
+        run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: keyboard interrupt", interrupt)
+    branch = run.branch(time.perf_counter() - traced, counters, free, parameter_values)
+    if throw and not branch.success:
+        raise TraceError(branch.message, branch) from branch.cause
+    return branch
+
+
+class _Run:
+    """The mutable state of one trace; private to :func:`trace`."""
+
+    def __init__(self, system, extended, columns, options, bounds, at, folds, events, on_point) -> None:
+        self.system = system
+        self.extended = extended
+        self.columns = columns
+        self.options = options
+        self.bounds = bounds
+        self.at = at
+        self.folds = folds
+        self.events = events
+        self.on_point = on_point
+        self.controller = StepController(options.min_step, options.max_step, options.max_turn)
+        self.rows: list[np.ndarray] = []
+        self.tangents: list[np.ndarray] = []
+        self.steps: list[float] = []
+        self.iterations: list[int] = []
+        self.residuals: list[float] = []
+        self.special: list[SpecialPoint] = []
+        self.at_points: list[SpecialPoint] = []
+        self.status: Status | None = None
+        self.message = ""
+        self.cause: BaseException | None = None
+        self.stats_setup = 0.0
+        self.jacobian: np.ndarray | None = None
+        self.event_values: list[float] = []
+
+    # -- bookkeeping -----------------------------------------------------------------------------
+    def finish(self, status: Status, message: str, cause: BaseException | None = None) -> None:
+        if self.status is None:
+            self.status, self.message, self.cause = status, message, cause
+
+    def describe(self, x: np.ndarray) -> str:
+        return ", ".join(f"{name} = {value:.6g}" for name, value in zip(self.columns, x))
+
+    def append(self, x: np.ndarray, t: np.ndarray, iterations: int, residual_norm: float) -> int:
+        step = float(np.linalg.norm(x - self.rows[-1])) if self.rows else 0.0
+        self.rows.append(x)
+        self.tangents.append(t)
+        self.steps.append(step)
+        self.iterations.append(iterations)
+        self.residuals.append(residual_norm)
+        return len(self.rows) - 1
+
+    def special_point(self, kind: str, name: str, index: int, located: Located, info: dict | None = None) -> SpecialPoint:
+        return SpecialPoint(
+            kind=kind,
+            name=name,
+            index=index,
+            values={c: float(v) for c, v in zip(self.columns, located.x)},
+            point=located.x.copy(),
+            tangent=located.tangent.copy(),
+            residual_norm=float(located.residual_norm),
+            newton_iterations=int(located.iterations),
+            located_to=float(located.located_to),
+            info=info or {},
+        )
+
+    def event_value(self, event: Event, x: np.ndarray) -> float:
+        u, p = self.extended.split(x)
+        try:
+            return float(event.function(u, p))
+        except Exception as error:  # noqa: BLE001
+            raise CallbackFailure(f"event {event.name!r} raised {type(error).__name__}: {error}") from error
+
+    # -- the three phases ------------------------------------------------------------------------
+    def start(self, x0: np.ndarray) -> None:
+        """Correct the start point at the fixed free parameter and orient the first tangent."""
+        n = self.extended.n
+        row = np.zeros(n + 1)
+        row[n] = 1.0
+        residual, jacobian = self._checked_linearisation(x0)
+        try:
+            Bordered(jacobian, row)
+        except SingularMatrix:
+            raise InputError(
+                "the Jacobian dF/du is singular at the start point ("
+                f"{self.describe(x0)}): start away from a fold or branch point, or check that every "
+                "unknown enters the equations"
+            ) from None
+        correction = correct(self.extended, x0, row, float(x0[n]), tolerance=self.options.tolerance,
+                             max_iterations=4 * self.options.max_iterations, jacobian=jacobian, residual=residual)
+        if not correction.converged:
+            self.append(correction.x, np.zeros(n + 1), correction.iterations, correction.residual_norm)
+            self.finish(
+                Status.START_NOT_CONVERGED,
+                f"{Status.START_NOT_CONVERGED.message}: largest residual {correction.residual_norm:.3g} after "
+                f"{correction.iterations} iterations ({correction.reason}); give a better start guess",
+            )
+            return
+        try:
+            bordered = Bordered(correction.jacobian, row)
+        except SingularMatrix:
+            raise InputError(
+                f"the Jacobian dF/du is singular at the corrected start point ({self.describe(correction.x)})"
+            ) from None
+        reference = row * self.options.direction
+        t = tangent(bordered, reference)
+        if t[n] == 0.0:
+            t = reference.copy()
+        self.jacobian = correction.jacobian
+        self.event_values = [self.event_value(event, correction.x) for event in self.events]
+        index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
+        for coordinate, values in self.at:
+            for value in values[values == correction.x[coordinate]]:
+                located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0, 0.0)
+                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+        if self.on_point is not None:
+            self._notify(index, correction.x)
+
+    def _checked_linearisation(self, x0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The first evaluation, checked for the sizes the system promises."""
+        n = self.extended.n
+        plural = "" if n == 1 else "s"
+        u, p = self.extended.split(x0)
+        try:
+            size = np.asarray(self.system.residual(u, p), dtype=float).size
+        except Exception as error:  # noqa: BLE001
+            raise CallbackFailure(f"the residual raised {type(error).__name__}: {error}") from error
+        if size != n:
+            raise InputError(f"the residual returned {size} values but the system has {n} unknown{plural}; "
+                             "give one equation per unknown")
+        try:
+            return self.extended.linearise(x0)
+        except ValueError as error:
+            if isinstance(error.__cause__, ValueError) and "reshape" in str(error.__cause__):
+                raise InputError(f"the Jacobian does not have the shape ({n}, {n}): {error.__cause__}") from None
+            raise
+
+    def _notify(self, index: int, x: np.ndarray) -> None:
+        try:
+            self.on_point(index, x.copy())
+        except KeyboardInterrupt:
+            raise
+        except Exception as error:  # noqa: BLE001
+            raise CallbackFailure(f"on_point raised {type(error).__name__}: {error}") from error
+
+    def loop(self) -> None:
+        """Predict, correct, accept or retry, look for special points; until a stop condition."""
+        options = self.options
+        n = self.extended.n
+        x, t = self.rows[-1], self.tangents[-1]
+        x_start, t_start = x.copy(), t.copy()
+        h = options.step
+        farthest = 0.0
+        last_reason = ""
+        while self.status is None:
+            if len(self.rows) >= options.max_points:
+                self.finish(Status.MAX_POINTS, f"{Status.MAX_POINTS.message} ({options.max_points}) at {self.describe(x)}")
+                return
+            predicted = x + h * t
+            if options.corrector == "local":
+                j = int(np.argmax(np.abs(t)))
+                row = np.zeros(n + 1)
+                row[j] = 1.0
+                target = float(predicted[j])
+            else:
+                row, target = t, float(t @ predicted)
+            correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
+                                 max_iterations=options.max_iterations, jacobian=self.jacobian,
+                                 max_distance=max(h, 1e-12) * 2.0)
+            accepted = False
+            if correction.converged:
+                try:
+                    t_new = tangent(Bordered(correction.jacobian, row), t)
+                    turn = math.acos(min(1.0, max(-1.0, float(t_new @ t))))
+                    if self.controller.accepts(turn):
+                        accepted = True
+                    else:
+                        last_reason = f"large turn (the tangent turned by {turn:.3g} rad, more than max_turn)"
+                except SingularMatrix:
+                    last_reason = "singular bordered Jacobian (at the corrected point)"
+            else:
+                last_reason = correction.reason
+            if not accepted:
+                self.extended.counters.reject(last_reason.split(" (")[0])
+                shorter = self.controller.after_failure(h)
+                if shorter is None:
+                    self.finish(
+                        Status.STEP_TOO_SMALL,
+                        f"{Status.STEP_TOO_SMALL.message} ({options.min_step:g}) after the point "
+                        f"{self.describe(x)}: {last_reason}",
+                    )
+                    return
+                h = shorter
+                continue
+            self.extended.counters.accepted_steps += 1
+            x_new = correction.x
+            self.jacobian = correction.jacobian
+            stop = self._special_points((x, t), (x_new, t_new), correction)
+            if stop:
+                return
+            farthest = max(farthest, float(np.linalg.norm(x_new - x_start)))
+            if self._closed(x, x_new, t_new, x_start, t_start, h, farthest):
+                return
+            x, t = x_new, t_new
+            h = self.controller.after_success(h, correction.iterations, turn)
+
+    # -- special points between two accepted points ---------------------------------------------
+    def _special_points(self, a, b, correction) -> bool:
+        """Locate what lies between accepted points a and b, append them and b; True if the trace stops."""
+        (xa, ta), (xb, tb) = a, b
+        found: list[tuple[float, str, object, Located]] = []  # (fraction, kind, payload, located)
+        options = self.options
+        for coordinate in self.folds:
+            if crossed(ta[coordinate], tb[coordinate]):
+                located = locate_zero(self.extended, (xa, ta, ta[coordinate]), (xb, tb, tb[coordinate]),
+                                      lambda x, t, c=coordinate: t[c], options)
+                if located is not None:
+                    found.append((located.fraction, "fold", coordinate, located))
+        new_values = []
+        for k, event in enumerate(self.events):
+            before, after = self.event_values[k], self.event_value(event, xb)
+            new_values.append(after)
+            if crossed(before, after, event.direction):
+                located = locate_zero(self.extended, (xa, ta, before), (xb, tb, after),
+                                      lambda x, t, e=event: self.event_value(e, x), options)
+                if located is not None:
+                    found.append((located.fraction, "event", event, located))
+        self.event_values = new_values
+        for coordinate, values in self.at:
+            low, high = sorted((xa[coordinate], xb[coordinate]))
+            inside = values[(values > low) & (values <= high)] if xb[coordinate] >= xa[coordinate] else values[(values >= low) & (values < high)]
+            for value in inside:
+                located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, float(value), options)
+                if located is not None:
+                    found.append((located.fraction, "at", (coordinate, float(value)), located))
+        for coordinate, low, high in self.bounds:
+            for level in (low, high):
+                if (xa[coordinate] - level) * (xb[coordinate] - level) < 0 or (
+                    xb[coordinate] == level and xa[coordinate] != level
+                ):
+                    located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, level, options)
+                    if located is not None:
+                        found.append((located.fraction, "bound", (coordinate, level), located))
+        found.sort(key=lambda item: item[0])
+        for fraction, kind, payload, located in found:
+            if kind == "at":
+                coordinate, value = payload
+                index = len(self.rows) - 1
+                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+                continue
+            index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
+            if kind == "fold":
+                name = self.columns[payload]
+                self.special.append(self.special_point("fold", f"fold in {name}", index, located, {"coordinate": name}))
+            elif kind == "event":
+                event = payload
+                self.special.append(self.special_point(event.kind, event.name, index, located, {"terminal": event.terminal}))
+                if event.terminal:
+                    self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at {self.describe(located.x)}")
+                    return True
+            else:
+                coordinate, level = payload
+                name = self.columns[coordinate]
+                self.special.append(self.special_point("bound", f"{name} = {level:g}", index, located, {"coordinate": name}))
+                self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {level:g} at {self.describe(located.x)}")
+                return True
+        index = self.append(xb, tb, correction.iterations, correction.residual_norm)
+        if self.on_point is not None:
+            self._notify(index, xb)
+        return False
+
+    def _closed(self, xa, xb, tb, x_start, t_start, h, farthest) -> bool:
+        """Whether the step from xa to xb passed the start point again, heading the same way."""
+        chord = xb - xa
+        length2 = float(chord @ chord)
+        if length2 == 0.0 or farthest < 4.0 * h or float(tb @ t_start) < 0.9:
+            return False
+        along = float((x_start - xa) @ chord) / length2
+        if not 0.0 <= along <= 1.0:
+            return False
+        gap = float(np.linalg.norm(xa + along * chord - x_start))
+        if gap > max(1e3 * self.options.tolerance, 0.05 * math.sqrt(length2)):
+            return False
+        # End the loop exactly on the start point, which is a converged solution already.
+        self.rows[-1] = x_start.copy()
+        self.tangents[-1] = t_start.copy()
+        self.residuals[-1] = self.residuals[0]
+        self.steps[-1] = float(np.linalg.norm(x_start - self.rows[-2])) if len(self.rows) > 1 else 0.0
+        located = Located(1.0, x_start, t_start, self.residuals[0], self.iterations[0], gap, 0.0)
+        self.special.append(self.special_point("closed_loop", "back at the start", len(self.rows) - 1, located))
+        self.finish(Status.CLOSED_LOOP, f"{Status.CLOSED_LOOP.message} after {len(self.rows)} points")
+        return True
+
+    def branch(self, seconds: float, counters: Counters, free: str, parameter_values: np.ndarray) -> Branch:
+        if self.status is None:
+            self.finish(Status.INTERRUPTED, Status.INTERRUPTED.message)
+        width = len(self.columns)
+        empty = np.empty((0, width))
+        stats = {
+            "setup_seconds": self.stats_setup,
+            "trace_seconds": seconds,
+            "newton_iterations": counters.newton_iterations,
+            "jacobian_evaluations": counters.jacobian_evaluations,
+            "residual_evaluations": counters.residual_evaluations,
+            "accepted_steps": counters.accepted_steps,
+            "rejected_steps": counters.rejected_steps,
+            "rejections": dict(sorted(counters.rejections.items())),
+            "points": len(self.rows),
+        }
+        structure = getattr(self.system, "structure_summary", None)
+        if callable(structure):
+            summary = structure()
+            if summary is not None:
+                stats["structure"] = summary
+        return Branch(
+            columns=self.columns,
+            points=np.array(self.rows) if self.rows else empty,
+            tangents=np.array(self.tangents) if self.tangents else empty,
+            steps=np.array(self.steps),
+            newton_iterations=np.array(self.iterations, dtype=int),
+            residual_norms=np.array(self.residuals),
+            special_points=tuple(self.special),
+            at=tuple(self.at_points),
+            status=self.status,
+            message=self.message,
+            stats=stats,
+            free=free,
+            parameters={name: float(v) for name, v in zip(self.system.parameters, parameter_values)},
+            cause=self.cause,
+        )
