@@ -350,11 +350,6 @@ class SymbolicSystem(System):
 
         symbols = {name: sympy.Symbol(name, real=True) for name in (*unknown_names, *parameters)}
         constant_values = {name: sympy.Float(values[name]) for name in constants}
-        table: dict[str, sympy.Expr] = {**symbols, **constant_values}
-        expressions: dict[str, sympy.Expr] = {}
-        for name in equation_names:
-            expressions[name] = _as_expression(equations[name], table, name)
-
         self.unknowns = unknown_names
         self.parameters = tuple(parameters)
         self.parameter_values = np.array([values[name] for name in self.parameters], dtype=float)
@@ -363,16 +358,19 @@ class SymbolicSystem(System):
         self.kind = kind
         self.constants = {name: values[name] for name in constants}
         self.symbols = symbols
-        self.expressions = expressions
-        self._names = table
-
-        incidence = {
-            name: {s.name for s in expr.free_symbols if s.name in groups["unknowns"]} for name, expr in expressions.items()
-        }
-        self.structure: Structure = analyse_structure(equation_names, unknown_names, incidence)
+        self._names: dict[str, sympy.Expr] = {**symbols, **constant_values}
+        self._sources = {name: equations[name] for name in equation_names}
+        self._expressions: dict[str, sympy.Expr] | None = None
         self._cache = default_cache() if cache is None or cache is True else (cache or None)
         self._compile()
         self.setup_seconds = time.perf_counter() - began
+
+    @property
+    def expressions(self) -> dict[str, sympy.Expr]:
+        """Equation name -> sympy expression (parsed on first use when the compile cache had the system)."""
+        if self._expressions is None:
+            self._expressions = {name: _as_expression(self._sources[name], self._names, name) for name in self.equations}
+        return self._expressions
 
     @classmethod
     def from_sympy(
@@ -418,35 +416,54 @@ class SymbolicSystem(System):
     def _variables(self) -> list[sympy.Symbol]:
         return [sympy.Symbol(f"_x{k}", real=True) for k in range(len(self.unknowns) + len(self.parameters))]
 
+    def _key(self) -> str:
+        parts = [self.backend, " ".join(self.unknowns), " ".join(self.parameters)]
+        parts.append(" ".join(f"{name}={value!r}" for name, value in self.constants.items()))
+        for name in self.equations:
+            source = self._sources[name]
+            parts.append(f"{name}\0text\0{source}" if isinstance(source, str) else f"{name}\0sympy\0{_text(source)}")
+        return cache_key(*parts)
+
     def _compile(self) -> None:
+        """Compiled functions from the cache (memory, then disk), else differentiate and compile.
+
+        A text equation is only parsed when the system is built: a cache entry exists only for text
+        that was parsed, checked and found structurally sound before.
+        """
         variables = self._variables()
-        rename = {self.symbols[name]: v for name, v in zip((*self.unknowns, *self.parameters), variables)}
-        residuals = [self.expressions[name].xreplace(rename) for name in self.equations]
         n, m = len(self.unknowns), len(self.parameters)
-        key = cache_key(self.backend, f"{n} {m}", "\n".join(_text(r) for r in residuals))
-        self.cache_key = key
+        key = self.cache_key = self._key()
         cache = self._cache
-        found = cache.recall(key) if cache is not None else None
-        source = "memory"
-        if found is None:
-            kind = "pickle" if self.backend == "symengine" else "text"
-            payload = cache.read(key, kind) if cache is not None else None
-            found = None
+        kind = "pickle" if self.backend == "symengine" else "text"
+        found, source = (cache.recall(key) if cache is not None else None), "memory"
+        if found is None and cache is not None:
+            payload = cache.read(key, kind)
             if payload is not None:
                 try:
-                    found = _load(kind, payload, variables)
-                    source = "disk"
+                    found, source = _load(kind, payload, variables), "disk"
                 except Exception:  # verified but unreadable (e.g. a library changed behind a version): rebuild
                     cache.discard(key)
-                    found = None
-            if found is None:
-                functions, entries, kind, payload = _build(residuals, variables, n, self.backend)
-                found = (functions, entries)
-                source = "built"
-                if cache is not None and payload is not None:
-                    cache.write(key, kind, payload)
-            if cache is not None:
-                cache.remember(key, found)
+        if found is None:
+            expressions = self.expressions
+            unknown_set = set(self.unknowns)
+            incidence = {
+                name: {s.name for s in expr.free_symbols if s.name in unknown_set} for name, expr in expressions.items()
+            }
+            self.structure = analyse_structure(self.equations, self.unknowns, incidence, warn=True)
+            rename = {self.symbols[name]: v for name, v in zip((*self.unknowns, *self.parameters), variables)}
+            residuals = [expressions[name].xreplace(rename) for name in self.equations]
+            functions, entries, kind, payload = _build(residuals, variables, n, self.backend)
+            found, source = (functions, entries), "built"
+            if cache is not None and payload is not None:
+                cache.write(key, kind, payload)
+        else:
+            incidence = {name: set() for name in self.equations}
+            for i, j in found[1]:
+                if j < n:
+                    incidence[self.equations[i]].add(self.unknowns[j])
+            self.structure = analyse_structure(self.equations, self.unknowns, incidence, warn=True)
+        if cache is not None:
+            cache.remember(key, found)
         self._functions, entries = found
         self._layout = _Layout(n, m, entries)
         self.cache_source = source
@@ -505,7 +522,7 @@ class SymbolicSystem(System):
     def __getstate__(self) -> dict:
         # Compiled functions are rebuilt (from the cache) in the receiving process.
         state = self.__dict__.copy()
-        for name in ("_functions", "_layout", "_cache"):
+        for name in ("_functions", "_layout", "_cache", "structure"):
             state.pop(name, None)
         state["_use_cache"] = self._cache is not None
         return state
