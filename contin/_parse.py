@@ -304,7 +304,7 @@ class _Builder:
             return CONSTANTS[node.id]
         if node.id in self.functions:
             raise _Refused(f"{node.id!r} is a function: call it, e.g. {node.id}(x)", node)
-        hint = suggest(node.id, [*self.names, *CONSTANTS])
+        hint = suggest(node.id, self.names) or suggest(node.id, CONSTANTS)
         known = ", ".join(sorted(self.names)) or "none"
         raise _Refused(f"name {node.id!r} is not declared (declared names: {known}){hint}", node)
 

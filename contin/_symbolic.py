@@ -287,6 +287,8 @@ class SymbolicSystem(System):
         backend: ``"auto"``, ``"symengine"`` or ``"sympy"`` (see module docs).
         cache: the :class:`~contin._cache.CompileCache` to use (default: the process-wide one), or
             False for none.
+        labels: optional equation name -> where it comes from, put in front of parse messages
+            (e.g. ``"reactor.toml: equation 'heat' (line 12)"``).
 
     Raises:
         InputError: bad names, a text expression outside the allow-list (with the equation name and
@@ -309,6 +311,7 @@ class SymbolicSystem(System):
         kind: str = "algebraic",
         backend: str = "auto",
         cache: CompileCache | bool | None = None,
+        labels: Mapping[str, str] | None = None,
     ) -> None:
         began = time.perf_counter()
         if not isinstance(equations, Mapping):
@@ -360,6 +363,7 @@ class SymbolicSystem(System):
         self.symbols = symbols
         self._names: dict[str, sympy.Expr] = {**symbols, **constant_values}
         self._sources = {name: equations[name] for name in equation_names}
+        self._labels = {name: (labels or {}).get(name, f"equation {name!r}") for name in equation_names}
         self._expressions: dict[str, sympy.Expr] | None = None
         self._cache = default_cache() if cache is None or cache is True else (cache or None)
         self._compile()
@@ -369,7 +373,9 @@ class SymbolicSystem(System):
     def expressions(self) -> dict[str, sympy.Expr]:
         """Equation name -> sympy expression (parsed on first use when the compile cache had the system)."""
         if self._expressions is None:
-            self._expressions = {name: _as_expression(self._sources[name], self._names, name) for name in self.equations}
+            self._expressions = {
+                name: _as_expression(self._sources[name], self._names, name, self._labels[name]) for name in self.equations
+            }
         return self._expressions
 
     @classmethod
@@ -543,10 +549,10 @@ def _finite(value: object, argument: str) -> float:
     return result
 
 
-def _as_expression(value: object, table: Mapping[str, sympy.Expr], equation: str) -> sympy.Expr:
+def _as_expression(value: object, table: Mapping[str, sympy.Expr], equation: str, label: str | None = None) -> sympy.Expr:
     """Equation text or sympy expression -> sympy expression in the system's symbols."""
     if isinstance(value, str):
-        return parse_expression(value, table, label=f"equation {equation!r}")
+        return parse_expression(value, table, label=label or f"equation {equation!r}")
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         value = sympy.Float(value)
     if not isinstance(value, sympy.Basic) or not isinstance(value, sympy.Expr):

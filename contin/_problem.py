@@ -1,0 +1,333 @@
+"""Problem files: a system, its start point and how to trace it, in TOML.
+
+The format (public; keep it stable)::
+
+    kind = "algebraic"            # or "ode": equations are right-hand sides du/dt = f(u, p)
+    [unknowns]                    # name = start value
+    u = 0.0
+    [parameters]                  # name = value; the free one varies
+    p = -1.0
+    [constants]                   # optional: name = value, substituted before differentiation
+    [equations]                   # name = "expression" meaning expression = 0
+    balance = "u**3 - u + p"
+    [trace]
+    free = "p"
+    direction = 1                 # initial direction of the free parameter: 1 or -1
+    bounds = { p = [-2.0, 2.0] }  # stop on leaving; any unknown or the free parameter
+    max_points = 2000
+    step = 0.01
+    min_step = 1e-8
+    max_step = 0.5
+    tolerance = 1e-10
+    at = { p = [0.1, 0.2] }       # optional: output exactly at these values of a coordinate
+    [[events]]                    # optional, repeatable
+    name = "u_zero"
+    expression = "u"
+    terminal = false
+    direction = 0                 # 0 any crossing, 1 increasing, -1 decreasing
+
+A problem file is untrusted input: expressions go through the allow-list parser of
+:mod:`contin._parse`, and every mistake is reported with the file, the key and its line.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+from ._errors import InputError
+from ._names import suggest
+from ._symbolic import SymbolicSystem, compile_expression
+
+__all__ = ["Problem", "load_problem", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS"]
+
+TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
+TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
+EVENT_KEYS = ("name", "expression", "terminal", "direction")
+_REQUIRED = ("unknowns", "parameters", "equations", "trace")
+
+
+@dataclass(frozen=True)
+class Problem:
+    """A loaded problem file, ready to trace.
+
+    Attributes:
+        path: the file it came from.
+        system: the :class:`~contin.SymbolicSystem`.
+        start: unknown name -> start value.
+        options: keyword arguments for :func:`contin.trace` from ``[trace]`` (read-only mapping).
+        events: the :class:`~contin.Event` objects of ``[[events]]``.
+    """
+
+    path: Path
+    system: SymbolicSystem
+    start: Mapping[str, float]
+    options: Mapping[str, Any]
+    events: tuple = field(default=())
+
+    @property
+    def name(self) -> str:
+        """The file name without its suffix (used to name output files)."""
+        return self.path.stem
+
+
+class _Lines:
+    """Finds the line of a table or key in TOML text (tomllib gives values, not positions)."""
+
+    _HEADER = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?")
+
+    def __init__(self, text: str) -> None:
+        self.lines = text.splitlines()
+
+    def _tables(self):
+        table, count = None, {}
+        for number, line in enumerate(self.lines, start=1):
+            match = self._HEADER.match(line)
+            if match:
+                table = match.group(2).strip().strip('"')
+                count[table] = count.get(table, 0) + 1
+                yield number, line, table, count[table], True
+            else:
+                yield number, line, table, count.get(table, 0), False
+
+    def table(self, name: str, occurrence: int = 1) -> int | None:
+        for number, _, table, seen, header in self._tables():
+            if header and table == name and seen == occurrence:
+                return number
+        return None
+
+    def key(self, table: str | None, key: str, occurrence: int = 1) -> int | None:
+        pattern = re.compile(r"^\s*(?:\"" + re.escape(key) + r"\"|'" + re.escape(key) + r"'|" + re.escape(key) + r")\s*=")
+        for number, line, current, seen, header in self._tables():
+            if header:
+                continue
+            if current == table and (table is None or seen == occurrence) and pattern.match(line):
+                return number
+        return None
+
+
+def load_problem(path: str | Path, *, backend: str = "auto") -> Problem:
+    """Read and check a problem file; build its system.
+
+    Args:
+        path: the TOML file.
+        backend: symbolic back end for the system (see :class:`~contin.SymbolicSystem`).
+
+    Returns:
+        The :class:`Problem`.
+
+    Raises:
+        InputError: the file cannot be read or is not TOML; an unknown key (with the nearest valid
+            key); a missing section; a free parameter not declared; unequal numbers of equations
+            and unknowns; a value of the wrong type; an expression the safe parser refuses. Each
+            message names the file, the key and its line.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such problem file") from None
+    except (OSError, UnicodeDecodeError) as error:
+        raise InputError(f"{path}: cannot read the problem file: {error}") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise InputError(f"{path}: not valid TOML: {error}") from None
+    return _Reader(path, text, data, backend).problem()
+
+
+class _Reader:
+    def __init__(self, path: Path, text: str, data: dict, backend: str) -> None:
+        self.path, self.data, self.backend = path, data, backend
+        self.lines = _Lines(text)
+
+    # -- messages -------------------------------------------------------------------------------
+    def where(self, table: str | None, key: str | None = None, occurrence: int = 1) -> str:
+        line = self.lines.key(table, key, occurrence) if key is not None else None
+        if line is None and table is not None:
+            line = self.lines.table(table, occurrence)
+        return f"{self.path}, line {line}" if line is not None else str(self.path)
+
+    def fail(self, table: str | None, key: str | None, message: str, occurrence: int = 1) -> InputError:
+        return InputError(f"{self.where(table, key, occurrence)}: {message}")
+
+    def check_keys(self, table: str | None, found: Mapping, allowed: tuple[str, ...], occurrence: int = 1) -> None:
+        for key in found:
+            if key not in allowed:
+                place = f"[{table}]" if table else "the top level"
+                if table == "events":
+                    place = f"[[events]] number {occurrence}"
+                raise self.fail(
+                    table, key,
+                    f"unknown key {key!r} in {place} (allowed: {', '.join(allowed)}){suggest(key, allowed)}",
+                    occurrence,
+                )
+
+    def section(self, name: str, required: bool = True) -> dict:
+        if name not in self.data:
+            if not required:
+                return {}
+            raise InputError(f"{self.path}: missing section [{name}]; a problem file needs {', '.join(f'[{s}]' for s in _REQUIRED)}")
+        value = self.data[name]
+        if not isinstance(value, dict):
+            raise self.fail(None, name, f"{name} must be a table ([{name}] with name = value lines), not {type(value).__name__}")
+        return value
+
+    def number(self, table: str, key: str, value: object, what: str) -> float:
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.fail(table, key, f"{table}.{key} = {value!r} is not a number; give the {what} as a number, e.g. {key} = 0.5")
+        if not math.isfinite(value):
+            raise self.fail(table, key, f"{table}.{key} = {value} is not finite; give a finite {what}")
+        return float(value)
+
+    # -- sections -------------------------------------------------------------------------------
+    def problem(self) -> Problem:
+        self.check_keys(None, self.data, TOP_KEYS)
+        kind = self.data.get("kind", "algebraic")
+        if kind not in ("algebraic", "ode"):
+            raise self.fail(None, "kind", f"kind = {kind!r} is not known; use \"algebraic\" or \"ode\"{suggest(str(kind), ('algebraic', 'ode'))}")
+        unknowns = self.values("unknowns", "start value")
+        parameters = self.values("parameters", "parameter value")
+        constants = self.values("constants", "constant value", required=False)
+        equations = self.section("equations")
+        for name, value in equations.items():
+            if not isinstance(value, str):
+                raise self.fail("equations", name, f"equations.{name} must be the expression as text in quotes, e.g. {name} = \"u**2 - p\"")
+        if len(equations) != len(unknowns):
+            raise self.fail(
+                "equations", None,
+                f"[equations] has {len(equations)} equations but [unknowns] has {len(unknowns)} unknowns; "
+                "a problem needs exactly one equation per unknown",
+            )
+        labels = {name: f"{self.where('equations', name)}: equation {name!r}" for name in equations}
+        system = self.build(equations, unknowns, parameters, constants, kind, labels)
+        options = self.trace_options(system)
+        events = self.events(system)
+        return Problem(self.path, system, MappingProxyType(dict(unknowns)), MappingProxyType(options), events)
+
+    def values(self, name: str, what: str, required: bool = True) -> dict[str, float]:
+        table = self.section(name, required)
+        if required and not table:
+            raise self.fail(name, None, f"[{name}] is empty; declare at least one name = value")
+        return {key: self.number(name, key, value, what) for key, value in table.items()}
+
+    def build(self, equations, unknowns, parameters, constants, kind, labels) -> SymbolicSystem:
+        try:
+            return SymbolicSystem(equations, unknowns, parameters, constants, kind=kind, backend=self.backend, labels=labels)
+        except InputError as error:
+            message = str(error)
+            if message.startswith(str(self.path)):
+                raise
+            raise InputError(f"{self.path}: {message}") from None
+
+    def trace_options(self, system: SymbolicSystem) -> dict[str, Any]:
+        table = self.section("trace")
+        self.check_keys("trace", table, TRACE_KEYS)
+        if "free" not in table:
+            raise self.fail("trace", None, "[trace] needs free = \"name\": the parameter that varies along the branch")
+        free = table["free"]
+        if not isinstance(free, str) or free not in system.parameters:
+            hint = suggest(str(free), system.parameters)
+            raise self.fail(
+                "trace", "free",
+                f"free = {free!r} is not a declared parameter (parameters: {', '.join(system.parameters)}){hint}",
+            )
+        options: dict[str, Any] = {"free": free}
+        coordinates = (*system.unknowns, free)
+        if "direction" in table:
+            direction = table["direction"]
+            if isinstance(direction, bool) or direction not in (1, -1):
+                raise self.fail("trace", "direction", f"direction = {direction!r}; use 1 (free parameter increasing) or -1")
+            options["direction"] = int(direction)
+        if "max_points" in table:
+            count = table["max_points"]
+            if isinstance(count, bool) or not isinstance(count, int) or count < 2:
+                raise self.fail("trace", "max_points", f"max_points = {count!r}; give a whole number of at least 2")
+            options["max_points"] = count
+        for key in ("step", "min_step", "max_step", "tolerance"):
+            if key in table:
+                value = self.number("trace", key, table[key], key.replace("_", " "))
+                if value <= 0:
+                    raise self.fail("trace", key, f"{key} = {value!r} must be positive")
+                options[key] = value
+        for key in ("bounds", "at"):
+            if key in table:
+                options[key] = self.coordinate_table(key, table[key], coordinates, system)
+        return options
+
+    def coordinate_table(self, key: str, value: object, coordinates: tuple[str, ...], system: SymbolicSystem) -> dict:
+        example = "{ p = [-2.0, 2.0] }" if key == "bounds" else "{ p = [0.1, 0.2] }"
+        if not isinstance(value, dict):
+            raise self.fail("trace", key, f"{key} must be an inline table such as {key} = {example}")
+        result = {}
+        for name, entry in value.items():
+            if name not in coordinates:
+                other = " (a fixed parameter: only the free one moves)" if name in system.parameters else ""
+                raise self.fail(
+                    "trace", key,
+                    f"{key} names {name!r}{other}, which is not a coordinate of the branch (coordinates: "
+                    f"{', '.join(coordinates)}){suggest(name, coordinates)}",
+                )
+            if key == "at" and isinstance(entry, (int, float)) and not isinstance(entry, bool):
+                entry = [entry]
+            if not isinstance(entry, list) or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in entry):
+                raise self.fail("trace", key, f"{key}.{name} = {entry!r}; give a list of numbers, e.g. {key} = {example}")
+            if key == "bounds":
+                if len(entry) != 2 or not entry[0] < entry[1]:
+                    raise self.fail("trace", key, f"bounds.{name} = {entry!r}; give [low, high] with low < high")
+                result[name] = (float(entry[0]), float(entry[1]))
+            else:
+                result[name] = [float(v) for v in entry]
+        return result
+
+    def events(self, system: SymbolicSystem) -> tuple:
+        from ._events import Event
+
+        entries = self.data.get("events", [])
+        if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+            raise self.fail(None, "events", "events must be written as [[events]] tables (name, expression, terminal, direction)")
+        events = []
+        seen: set[str] = set()
+        for number, entry in enumerate(entries, start=1):
+            self.check_keys("events", entry, EVENT_KEYS, number)
+            for key in ("name", "expression"):
+                if not isinstance(entry.get(key), str) or not entry.get(key):
+                    raise self.fail("events", None, f"[[events]] number {number} needs {key} = \"...\" (text)", number)
+            name = entry["name"]
+            if name in seen:
+                raise self.fail("events", "name", f"two events are called {name!r}; give each a different name", number)
+            seen.add(name)
+            terminal = entry.get("terminal", False)
+            if not isinstance(terminal, bool):
+                raise self.fail("events", "terminal", f"terminal = {terminal!r}; use true or false", number)
+            direction = entry.get("direction", 0)
+            if isinstance(direction, bool) or direction not in (-1, 0, 1):
+                raise self.fail("events", "direction", f"direction = {direction!r}; use 0 (any crossing), 1 or -1", number)
+            label = f"{self.where('events', 'expression', number)}: event {name!r}"
+            function = compile_expression(system, entry["expression"], label=label)
+            events.append(Event(name, function, direction=int(direction), terminal=terminal))
+        return tuple(events)
+
+
+def run_problem(problem: Problem, **overrides: Any):
+    """Trace a loaded problem with :func:`contin.trace`; ``overrides`` replace ``[trace]`` options.
+
+    Returns:
+        The :class:`~contin.Branch`.
+
+    Raises:
+        InputError: an option the engine refuses (e.g. min_step above max_step), prefixed with the file.
+    """
+    from ._trace import trace
+
+    options = {**problem.options, **overrides}
+    try:
+        return trace(problem.system, dict(problem.start), events=list(problem.events), **options)
+    except InputError as error:
+        raise InputError(f"{problem.path}: [trace]: {error}") from None
