@@ -1,0 +1,7 @@
+"""`python -m contin`: the same as the `contin` command."""
+
+import sys
+
+from ._cli import main
+
+sys.exit(main())
