@@ -171,8 +171,12 @@ def _write_outputs(folder: Path, name: str, csv_text: str, json_text: str) -> No
                 os.unlink(temporary)
 
 
-def _format_values(values: dict) -> str:
-    return ", ".join(f"{key} = {value:.10g}" for key, value in values.items())
+def _format_values(values: dict, limit: int = 6) -> str:
+    items = list(values.items())
+    if len(items) > limit:  # long systems: the first unknowns and the free parameter (last column)
+        shown = [f"{key} = {value:.10g}" for key, value in items[: limit - 2]]
+        return ", ".join([*shown, "...", f"{items[-1][0]} = {items[-1][1]:.10g}"])
+    return ", ".join(f"{key} = {value:.10g}" for key, value in items)
 
 
 def summary(branch, name: str) -> str:
