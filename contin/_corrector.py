@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg.lapack import dgetrf, dgetrs
 
 from ._extended import Extended
-from ._tangent import Bordered, SingularMatrix
 
 __all__ = ["Correction", "correct"]
 
@@ -72,34 +73,44 @@ def correct(
         residual, jacobian = extended.linearise(x)
     elif residual is None:
         residual = extended.residual(x)
-    norm = float(np.max(np.abs(residual))) if residual.size else 0.0
-    if not np.isfinite(norm):
+    norm = float(abs(residual).max()) if residual.size else 0.0
+    if not math.isfinite(norm):
         return Correction(False, x, residual, jacobian, 0, norm, "non-finite residual at the predicted point")
-    scale = 1.0 + float(np.max(np.abs(x)))
-    step_tolerance = max(np.sqrt(tolerance), 1e-8) * scale
-    last_step = np.inf
+    scale = 1.0 + float(abs(x).max())
+    step_tolerance = max(math.sqrt(tolerance), 1e-8) * scale
+    size = row.size
+    matrix = np.empty((size, size))
+    rhs = np.empty(size)
+    last_step = math.inf
+    counters = extended.counters
     for iteration in range(1, max_iterations + 1):
-        try:
-            bordered = Bordered(jacobian, row)
-        except SingularMatrix:
+        # Factorise [dG/dx; row] in place with LAPACK (the scipy.linalg wrappers cost more than the
+        # factorisation itself at these sizes).
+        matrix[:-1] = jacobian
+        matrix[-1] = row
+        lu, piv, info = dgetrf(matrix, overwrite_a=True)
+        pivots = abs(lu.diagonal())
+        if info != 0 or not pivots.min() > 1e-13 * max(1.0, float(pivots.max())):
             return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
-        rhs = np.empty(row.size)
         rhs[:-1] = -residual
         rhs[-1] = target - row @ x
-        dx = bordered.solve(rhs)
-        step = float(np.max(np.abs(dx)))
-        extended.counters.newton_iterations += 1
-        if not np.isfinite(step):
+        dx, _ = dgetrs(lu, piv, rhs)
+        step = float(abs(dx).max())
+        counters.newton_iterations += 1
+        if not math.isfinite(step):
             return Correction(False, x, residual, jacobian, iteration, norm, "non-finite Newton step")
         if guard_divergence and iteration > 2 and step > 2.0 * last_step:
             return Correction(False, x, residual, jacobian, iteration, norm, "Newton diverged")
         x = x + dx
         residual, jacobian = extended.linearise(x)
-        norm = float(np.max(np.abs(residual))) if residual.size else 0.0
-        if not np.isfinite(norm) or not np.all(np.isfinite(jacobian)):
+        norm = float(abs(residual).max()) if residual.size else 0.0
+        # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).
+        if not math.isfinite(norm) or not math.isfinite(float(jacobian.sum())):
             return Correction(False, x, residual, jacobian, iteration, norm, "non-finite residual or Jacobian")
-        if np.linalg.norm(x - guess) > max_distance:
-            return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
+        if max_distance < math.inf:
+            moved = x - guess
+            if math.sqrt(moved @ moved) > max_distance:
+                return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
         if norm <= tolerance and step <= step_tolerance:
             return Correction(True, x, residual, jacobian, iteration, norm)
         last_step = step

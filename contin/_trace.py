@@ -351,8 +351,16 @@ class _Run:
             if len(self.rows) >= options.max_points:
                 self.finish(Status.MAX_POINTS, f"{Status.MAX_POINTS.message} ({options.max_points}) at {self.describe(x)}")
                 return
-            predicted = x + h * t
-            if options.corrector == "local":
+            aim = self._next_requested_value(x, t, h)
+            step_now = h if aim is None else aim[0]
+            predicted = x + step_now * t
+            if aim is not None:
+                # Land exactly on a requested value: fix that coordinate in the corrector, so the
+                # point costs one ordinary step and needs no separate location.
+                row = np.zeros(n + 1)
+                row[aim[1]] = 1.0
+                target = aim[2]
+            elif options.corrector == "local":
                 j = int(np.argmax(np.abs(t)))
                 row = np.zeros(n + 1)
                 row[j] = 1.0
@@ -361,7 +369,7 @@ class _Run:
                 row, target = t, float(t @ predicted)
             correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
                                  max_iterations=options.max_iterations, jacobian=self.jacobian,
-                                 max_distance=max(h, 1e-12) * 2.0)
+                                 max_distance=max(step_now, 1e-12) * 2.0)
             accepted = False
             if correction.converged:
                 try:
@@ -399,6 +407,32 @@ class _Run:
             x, t = x_new, t_new
             h = self.controller.after_success(h, correction.iterations, turn)
 
+    def _next_requested_value(self, x: np.ndarray, t: np.ndarray, h: float) -> tuple[float, int, float] | None:
+        """(step, coordinate, value) of the nearest requested value the next step would pass, if the
+        branch crosses that coordinate steeply enough to aim at it; else None."""
+        best = None
+        largest = float(abs(t).max())
+        for coordinate, values in self.at:
+            rate = t[coordinate]
+            if abs(rate) < 0.01 * largest:
+                continue  # nearly turning in this coordinate: locate afterwards instead
+            here = float(x[coordinate])
+            there = here + h * rate
+            slack = 1e-12 * (1.0 + abs(here))
+            if rate > 0:  # values are sorted: the first one beyond here
+                k = int(np.searchsorted(values, here + slack, side="right"))
+                if k == values.size or values[k] > there:
+                    continue
+            else:
+                k = int(np.searchsorted(values, here - slack, side="left")) - 1
+                if k < 0 or values[k] < there:
+                    continue
+            value = values[k]
+            step = (float(value) - here) / rate
+            if step >= self.options.min_step and (best is None or step < best[0]):
+                best = (step, coordinate, float(value))
+        return best
+
     # -- special points between two accepted points ---------------------------------------------
     def _special_points(self, a, b, correction) -> bool:
         """Locate what lies between accepted points a and b, append them and b; True if the trace stops."""
@@ -421,10 +455,14 @@ class _Run:
                 if located is not None:
                     found.append((located.fraction, "event", event, located))
         self.event_values = new_values
+        at_b = []
         for coordinate, values in self.at:
             low, high = sorted((xa[coordinate], xb[coordinate]))
             inside = values[(values > low) & (values <= high)] if xb[coordinate] >= xa[coordinate] else values[(values >= low) & (values < high)]
             for value in inside:
+                if abs(xb[coordinate] - value) <= 1e-12 * (1.0 + abs(value)):
+                    at_b.append((coordinate, float(value)))  # the step landed on it
+                    continue
                 located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, float(value), options)
                 if located is not None:
                     found.append((located.fraction, "at", (coordinate, float(value)), located))
@@ -460,6 +498,9 @@ class _Run:
                 self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {level:g} at {self.describe(located.x)}")
                 return True
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
+        for coordinate, value in at_b:
+            located = Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0)
+            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
