@@ -1,0 +1,616 @@
+"""Mixture phase envelopes: one continuation run from a low-pressure dew point to the bubble point.
+
+The feed z is one phase, the incipient phase w = K z the other (vapour fraction 0 of the incipient
+phase; Michelsen, Calculation of phase envelopes and critical points for multicomponent mixtures,
+Fluid Phase Equilibria 4 (1980) 1). Unknowns are ln K_i, ln T and the logarithms of the two phases'
+volumes; the free parameter is ln P. The equations are
+
+    ln K_i + [F_i(w, V_w) - ln V_w] - [F_i(z, V_z) - ln V_z] = 0     (equal fugacities, T-V form)
+    P(T, V_z, z) / P - 1 = 0,   P(T, V_w, w) / P - 1 = 0,   sum_i w_i - 1 = 0
+
+with F_i = dF/dn_i of the residual Helmholtz energy. Carrying the volumes as unknowns removes all
+root selection, so the branch passes smoothly from the dew side (feed vapour, incipient liquid)
+through the critical point to the bubble side (feed liquid). The trace uses Rheinboldt's local
+parametrisation, which near the critical point fixes an ln K at a non-zero value and so excludes
+the trivial solution K = 1; the critical point itself is then pinned down by extrapolating the
+branch, parametrised by the key ln K, to ln K = 0 from well-conditioned points on both sides.
+
+A constant vapour fraction beta generalises the same system (x = z / (1 + beta (K - 1)),
+y = K x); beta = 0 is the envelope and 0 < beta < 1 gives the quality lines inside it.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from collections.abc import Sequence
+
+import numpy as np
+from scipy.optimize import brentq
+
+import contin
+from contin import InputError
+
+from ._caution import CAUTION
+from ._mixture import Mixture
+
+__all__ = ["EnvelopeSystem", "Envelope", "QualityLine", "trace_envelope", "dew_point", "ENVELOPE_UNITS"]
+
+#: Units of the envelope columns (files and JSON are in SI units).
+ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": ""}
+
+# Tolerance on the residual (relative pressure, ln fugacity): far below any use of the numbers.
+_TOLERANCE = 1e-10
+# |ln K_key| at which the trace hands over to the controlled step across the critical point, and the
+# levels of ln K_key of that step (see _bridge).
+_NEAR_CRITICAL = 0.1
+_BRIDGE = (0.02, 0.04, 0.06, 0.1)
+# A point whose ln K are all below this in size sits on the trivial solution K = 1.
+_TRIVIAL = 1e-7
+
+
+class EnvelopeSystem(contin.CallableSystem):
+    """Two-phase equilibrium at fixed vapour fraction as a contin system with an analytic Jacobian.
+
+    Unknowns ``lnK_<name>`` (K = incipient over feed for ``beta = 0``; vapour over liquid for a
+    quality line), ``lnT``, ``lnV_feed``, ``lnV_incipient`` (for ``beta > 0``: liquid and vapour); free
+    parameter ``lnP``.
+
+    Args:
+        mixture: the :class:`~contin_thermo._mixture.Mixture`.
+        z: feed mole fractions, array (N,), positive, summing to 1.
+        beta: vapour fraction of the lines (0 for the envelope).
+    """
+
+    def __init__(self, mixture: Mixture, z: np.ndarray, beta: float = 0.0) -> None:
+        self.mixture = mixture
+        self.z = np.array(z, dtype=float)
+        self.beta = float(beta)
+        n = mixture.size
+        unknowns = [f"lnK_{name}" for name in mixture.names] + ["lnT", "lnV_feed", "lnV_incipient"]
+        equations = [f"fugacity_{name}" for name in mixture.names] + ["pressure_feed", "pressure_incipient", "sum"]
+        super().__init__(self._residual_only, unknowns, {"lnP": math.log(1e5)},
+                         jacobian=self._jacobian_only, equations=equations)
+        self.n = n
+        self.evaluations = 0
+
+    def compositions(self, lnK: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(x, y) for these ln K: x = z / (1 + beta (K - 1)), y = K x."""
+        K = np.exp(lnK)
+        x = self.z / (1.0 + self.beta * (K - 1.0)) if self.beta else self.z
+        return x, K * x
+
+    def evaluate(self, u: np.ndarray, lnP: float, with_jacobian: bool = True):
+        """(F, dF/du, dF/dlnP); NaN residuals where the volumes fall below the co-volumes."""
+        n = self.n
+        lnK = u[:n]
+        T, Vx, Vy = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2])
+        P = math.exp(lnP)
+        x, y = self.compositions(lnK)
+        try:
+            attraction = self.mixture.attraction(T)
+            sx = self.mixture.state(T, Vx, x, attraction)
+            sy = self.mixture.state(T, Vy, y, attraction)
+        except (ValueError, OverflowError, FloatingPointError):
+            nan = np.full(n + 3, np.nan)
+            return nan, np.full((n + 3, n + 3), np.nan), nan
+        r = np.empty(n + 3)
+        r[:n] = lnK - u[n + 2] + sy.F_n + u[n + 1] - sx.F_n
+        r[n] = sx.P / P - 1.0
+        r[n + 1] = sy.P / P - 1.0
+        r[n + 2] = y.sum() - x.sum()
+        if not with_jacobian:
+            return r, None, None
+        self.evaluations += 1
+        if self.beta:
+            K = np.exp(lnK)
+            denominator = 1.0 + self.beta * (K - 1.0)
+            cx = -self.beta * K * x / denominator
+            cy = y - self.beta * K * y / denominator
+        else:
+            cx = np.zeros(n)
+            cy = y
+        J = np.zeros((n + 3, n + 3))
+        J[:n, :n] = np.eye(n) + sy.F_nn * cy[None, :] - sx.F_nn * cx[None, :]
+        J[:n, n] = T * (sy.F_nT - sx.F_nT)
+        J[:n, n + 1] = 1.0 - Vx * sx.F_nV
+        J[:n, n + 2] = -1.0 + Vy * sy.F_nV
+        J[n, :n] = sx.P_n * cx / P
+        J[n, n] = T * sx.P_T / P
+        J[n, n + 1] = Vx * sx.P_V / P
+        J[n + 1, :n] = sy.P_n * cy / P
+        J[n + 1, n] = T * sy.P_T / P
+        J[n + 1, n + 2] = Vy * sy.P_V / P
+        J[n + 2, :n] = cy - cx
+        dp = np.zeros(n + 3)
+        dp[n] = -sx.P / P
+        dp[n + 1] = -sy.P / P
+        return r, J, dp
+
+    # contin's System interface ------------------------------------------------------------------
+    def _residual_only(self, u, p):
+        return self.evaluate(np.asarray(u, dtype=float), float(p[0]), with_jacobian=False)[0]
+
+    def _jacobian_only(self, u, p):
+        return self.evaluate(np.asarray(u, dtype=float), float(p[0]))[1]
+
+    def linearise(self, u, p, free):
+        r, J, dp = self.evaluate(np.asarray(u, dtype=float), float(p[0]))
+        return r, J, dp
+
+    def parameter_jacobian(self, u, p):
+        return self.evaluate(np.asarray(u, dtype=float), float(p[0]))[2][:, None]
+
+
+# -- Newton on the extended coordinates x = (u, ln P) with one coordinate fixed ------------------
+def _newton(system: EnvelopeSystem, x: np.ndarray, fixed: int, value: float, *, iterations: int = 60,
+            tolerance: float = _TOLERANCE) -> tuple[np.ndarray, float, bool]:
+    """Solve F(x) = 0 with x[fixed] = value by damped Newton; returns (x, residual norm, converged)."""
+    x = np.array(x, dtype=float)
+    x[fixed] = value
+    m = x.size
+    norm = math.inf
+    for _ in range(iterations):
+        r, J, dp = system.evaluate(x[:-1], x[-1])
+        norm = float(np.max(np.abs(r)))
+        if not math.isfinite(norm):
+            return x, norm, False
+        full = np.column_stack([J, dp])
+        matrix = np.delete(full, fixed, axis=1)
+        try:
+            step = np.linalg.solve(matrix, -r)
+        except np.linalg.LinAlgError:
+            return x, norm, False
+        dx = np.insert(step, fixed, 0.0)
+        # Damping: the unknowns are logarithms, so a step above ~1 in any of them is not to be trusted.
+        largest = float(np.max(np.abs(dx)))
+        if largest > 1.0:
+            dx *= 1.0 / largest
+        x_new = x + dx
+        r_new = system.evaluate(x_new[:-1], x_new[-1], with_jacobian=False)[0]
+        shrink = 0
+        while not np.all(np.isfinite(r_new)) and shrink < 30:
+            dx *= 0.5
+            x_new = x + dx
+            r_new = system.evaluate(x_new[:-1], x_new[-1], with_jacobian=False)[0]
+            shrink += 1
+        x = x_new
+        norm = float(np.max(np.abs(r_new)))
+        if norm <= tolerance and largest <= 1e-8:
+            return x, norm, True
+    return x, norm, norm <= tolerance
+
+
+def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.0) -> np.ndarray:
+    """Start coordinates (u, ln P) of the envelope (beta = 1: dew point) or a quality line at ``pressure``.
+
+    Wilson's K-values give the temperature where the Rachford-Rice condition holds at vapour
+    fraction ``beta`` (for the dew point: sum z_i / K_i = 1); Newton on the full system then refines
+    it. For the envelope (``beta = 1``) the unknowns describe the incipient liquid over the vapour
+    feed, so ln K = -ln K_Wilson.
+
+    Raises:
+        InputError: no temperature between 20 K and 5000 K satisfies the Wilson condition, or Newton
+            does not converge (name the pressure, suggest another ``--from-pressure``).
+    """
+    z = np.asarray(z, dtype=float)
+
+    def condition(lnT: float) -> float:
+        K = mixture.wilson(math.exp(lnT), pressure)
+        if beta >= 1.0:
+            return math.log(float(np.sum(z / K)))
+        return float(np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0))))
+
+    grid = np.linspace(math.log(20.0), math.log(5000.0), 200)
+    values = [condition(g) for g in grid]
+    lnT = None
+    for k in range(len(grid) - 1):
+        if np.sign(values[k]) != np.sign(values[k + 1]):
+            lnT = brentq(condition, grid[k], grid[k + 1], xtol=1e-12)
+            break
+    if lnT is None:
+        raise InputError(f"--from-pressure {pressure:g} Pa: Wilson's K-values give no dew point; try a lower pressure")
+    T = math.exp(lnT)
+    K = mixture.wilson(T, pressure)
+    if beta >= 1.0:
+        system = EnvelopeSystem(mixture, z, 0.0)
+        lnK = -np.log(K)
+        feed, incipient = z, z / K
+        v_feed = mixture.volume(T, pressure, feed, "vapour")
+        v_incipient = mixture.volume(T, pressure, incipient, "liquid") * float(incipient.sum())
+    else:
+        system = EnvelopeSystem(mixture, z, beta)
+        lnK = np.log(K)
+        x = z / (1.0 + beta * (K - 1.0))
+        y = K * x
+        v_feed = mixture.volume(T, pressure, x, "liquid") * float(x.sum())
+        v_incipient = mixture.volume(T, pressure, y, "vapour") * float(y.sum())
+    x0 = np.concatenate([lnK, [lnT, math.log(v_feed), math.log(v_incipient), math.log(pressure)]])
+    x, norm, ok = _newton(system, x0, x0.size - 1, math.log(pressure))
+    if not ok or float(np.max(np.abs(x[: mixture.size]))) < 1e-4:
+        raise InputError(
+            f"--from-pressure {pressure:g} Pa: no two-phase point found from Wilson's K-values "
+            f"(residual {norm:.2g}); try another pressure"
+        )
+    return x
+
+
+# -- results ---------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class QualityLine:
+    """A line of constant vapour fraction inside the envelope, from low pressure to the critical point.
+
+    Attributes:
+        beta: vapour fraction; T, P: arrays (K, Pa); status, message: how the trace ended.
+    """
+
+    beta: float
+    T: np.ndarray
+    P: np.ndarray
+    status: str
+    message: str
+
+
+@dataclass(frozen=True)
+class Envelope:
+    """A traced phase envelope with its special points.
+
+    Attributes:
+        mixture: the mixture; z: feed composition.
+        columns: ``T, P, side, v_feed, v_incipient, stable, K_<component>...``.
+        rows: list of rows in column order (``side`` is ``"dew"`` or ``"bubble"``; ``stable`` a bool or
+            None when not checked).
+        special_points: list of dicts with ``kind`` (``critical``, ``cricondenbar``,
+            ``cricondentherm``), ``index``, ``values`` (``T``, ``P``), ``located_to`` and more.
+        status, message, success: how the run ended.
+        stats: timings and counts (the fixed keys of the JSON layout and more).
+        residual_norms: largest residual at each row.
+        quality_lines: lines of constant vapour fraction, if asked for.
+        branch: the engine's :class:`contin.Branch`.
+    """
+
+    mixture: Mixture
+    z: np.ndarray
+    columns: tuple[str, ...]
+    rows: list
+    special_points: list
+    status: str
+    message: str
+    success: bool
+    stats: dict
+    residual_norms: np.ndarray
+    quality_lines: tuple = ()
+    branch: object = None
+    notes: tuple = ()
+
+    def column(self, name: str) -> np.ndarray:
+        """One column as an array (``side`` as strings)."""
+        k = self.columns.index(name)
+        values = [row[k] for row in self.rows]
+        return np.array(values, dtype=object if name in ("side", "stable") else float)
+
+    def special(self, kind: str) -> dict | None:
+        """The special point of ``kind``, or None."""
+        return next((sp for sp in self.special_points if sp["kind"] == kind), None)
+
+    def metastable_stretches(self) -> list[tuple[int, int]]:
+        """Index ranges (first, last) of consecutive rows flagged not stable."""
+        k = self.columns.index("stable")
+        stretches, begin = [], None
+        for i, row in enumerate(self.rows):
+            if row[k] is False and begin is None:
+                begin = i
+            if row[k] is not False and begin is not None:
+                stretches.append((begin, i - 1))
+                begin = None
+        if begin is not None:
+            stretches.append((begin, len(self.rows) - 1))
+        return stretches
+
+    def to_dict(self) -> dict:
+        """The JSON layout of DESIGN.md (``contin.json_document``), with the caution and the model."""
+        extra = {
+            "caution": CAUTION,
+            "model": f"{self.mixture.family.label}, one-fluid mixing with kij",
+            "components": list(self.mixture.names),
+            "feed": [float(v) for v in self.z],
+        }
+        if self.quality_lines:
+            extra["quality_lines"] = [
+                {"vapour_fraction": q.beta, "T": q.T.tolist(), "P": q.P.tolist(), "status": q.status}
+                for q in self.quality_lines
+            ]
+        return contin.json_document(self.status, self.message, self.columns, self.rows, self.special_points,
+                                    [], self.stats, **extra)
+
+    def to_csv(self, path) -> object:
+        """Write the rows as CSV with the caution, units and model in the header; returns the path."""
+        from ._report import write_csv
+
+        units = dict(ENVELOPE_UNITS)
+        units.update({c: "" for c in self.columns if c.startswith("K_")})
+        feed = ", ".join(f"{n}={v:.6g}" for n, v in zip(self.mixture.names, self.z))
+        notes = [f"model: {self.mixture.family.label}; feed: {feed}"]
+        for sp in self.special_points:
+            notes.append(f"{sp['kind']}: T = {sp['values']['T']!r} K, P = {sp['values']['P']!r} Pa")
+        return write_csv(path, self.columns, self.rows, units, title="phase envelope", notes=notes)
+
+    def summary(self) -> list[str]:
+        """Human summary lines: special points, extent, metastable stretches, then the caution."""
+        from ._report import summary_lines
+
+        items = [("model", self.mixture.family.label), ("status", self.message), ("points", str(len(self.rows)))]
+        for kind in ("cricondentherm", "critical", "cricondenbar"):
+            sp = self.special(kind)
+            text = "not found" if sp is None else f"T = {sp['values']['T']:.6f} K, P = {sp['values']['P']:.6e} Pa"
+            items.append((kind, text))
+        stretches = self.metastable_stretches()
+        k = self.columns.index("stable")
+        if any(row[k] is None for row in self.rows):
+            items.append(("stability", "not checked"))
+        elif not stretches:
+            items.append(("stability", "every traced point passed the tangent-plane test"))
+        for first, last in stretches:
+            a, b = self.rows[first], self.rows[last]
+            items.append(("metastable", f"{a[2]} side from T = {a[0]:.2f} K, P = {a[1]:.4g} Pa to "
+                                        f"T = {b[0]:.2f} K, P = {b[1]:.4g} Pa (another phase split is more stable)"))
+        for note in self.notes:
+            items.append(("note", note))
+        return summary_lines("phase envelope", items)
+
+
+def _key_component(x0: np.ndarray, n: int) -> int:
+    # The component whose ln K is largest in size at the start: an outer (lightest or heaviest)
+    # component, whose K crosses 1 only at the critical point. Intermediate ones may cross elsewhere.
+    return int(np.argmax(np.abs(x0[:n])))
+
+
+def _tangent(system: EnvelopeSystem, x: np.ndarray) -> np.ndarray:
+    """Unit tangent of the branch at x: the null vector of [dF/du, dF/dlnP]."""
+    r, J, dp = system.evaluate(x[:-1], x[-1])
+    return np.linalg.svd(np.column_stack([J, dp]))[2][-1]
+
+
+def _bridge(system: EnvelopeSystem, xa: np.ndarray, ta: np.ndarray, key: int):
+    """Step across the critical point at fixed values of ln K_key, and pin the critical point down.
+
+    Near the critical point the two-phase equations are intrinsically ill-conditioned (the smallest
+    singular value of the Jacobian falls like (ln K)^2, as the position along the spinodal is fixed
+    only by the cubic-order balance of the Heidemann-Khalil criterion). So the passage is a controlled
+    step: points at ln K_key = s c for c in _BRIDGE (each a Newton solve with ln K_key fixed, which
+    excludes the trivial solution K = 1, converged to round-off), first on the near side and then on the
+    far side. The critical point is the degree-5 polynomial through the six points nearest to it,
+    evaluated at ln K_key = 0.
+
+    Returns:
+        (bridge points (M, n + 1), critical x, error estimate) or None if a Newton solve failed.
+    """
+    sign = 1.0 if xa[key] > 0 else -1.0
+    levels = [sign * c for c in _BRIDGE[::-1][1:]] + [-sign * c for c in _BRIDGE]
+    points = [np.array(xa, dtype=float)]
+    slope = ta / ta[key]
+    for level in levels:
+        if len(points) >= 3:
+            nodes = np.array([p[key] for p in points[-3:]])
+            stack = np.array(points[-3:])
+            guess = np.array([np.polyval(np.polyfit(nodes, stack[:, j], 2), level) for j in range(stack.shape[1])])
+        else:
+            guess = points[-1] + (level - points[-1][key]) * slope
+        x, norm, ok = _newton(system, guess, key, level, iterations=40, tolerance=1e-13)
+        if not ok:
+            return None
+        points.append(x)
+    points = np.array(points)
+    near = points[np.argsort(np.abs(points[:, key]))[:6]]
+    nodes = near[:, key]
+    x_c = np.array([np.polyval(np.polyfit(nodes, near[:, j], 5), 0.0) for j in range(near.shape[1])])
+    x_low = np.array([np.polyval(np.polyfit(nodes[:4], near[:4, j], 3), 0.0) for j in range(near.shape[1])])
+    n = system.n
+    error = float(np.max(np.abs(x_c[[n, -1]] - x_low[[n, -1]])))
+    x_c[:n] = 0.0
+    return points[1:], x_c, error
+
+
+def _fold_value(sp) -> tuple[float, float]:
+    return math.exp(sp.values["lnT"]), math.exp(sp.values["lnP"])
+
+
+def _run(system, x, direction, lnP0, max_points, events, folds=("lnT",)):
+    return contin.trace(
+        system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=0.05,
+        max_step=0.6, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
+        bounds={"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))},
+        events=events, folds=folds, corrector="local",
+    )
+
+
+def trace_envelope(
+    mixture: Mixture,
+    z: Sequence[float],
+    *,
+    from_pressure: float = 1e5,
+    quality: Sequence[float] = (),
+    check_stability: bool = True,
+    max_points: int = 2000,
+) -> Envelope:
+    """Trace the phase envelope of feed ``z`` from the dew point at ``from_pressure`` to the bubble point.
+
+    The engine traces the dew side (Rheinboldt's local parametrisation) until the key ln K falls to
+    0.1 in size; a controlled step at fixed ln K_key values crosses the critical point (and pins it
+    down); the engine then carries on, in the same direction along the same branch, to the bubble
+    point at ``from_pressure``. Cricondentherm and cricondenbar are the engine's located folds of
+    ln T and ln P with the largest T and P.
+
+    Args:
+        mixture: the mixture (components, cubic family, kij).
+        z: feed mole fractions (N,), positive, summing to 1 within 1e-6.
+        from_pressure: pressure (Pa) of the low-pressure dew point where the trace starts and of the
+            bubble point where it ends.
+        quality: vapour fractions (strictly between 0 and 1) of lines of constant quality to add.
+        check_stability: run Michelsen's tangent-plane test at every point (``stable`` column).
+        max_points: most points on each traced piece.
+
+    Returns:
+        An :class:`Envelope`.
+
+    Raises:
+        InputError: bad composition, pressure or quality values; no dew point at ``from_pressure``.
+
+    Reference: Michelsen, Fluid Phase Equilibria 4 (1980) 1 (formulation); Wilson (1969) K-values.
+    """
+    began = time.perf_counter()
+    z = _check_feed(mixture, z)
+    if isinstance(from_pressure, bool) or not (isinstance(from_pressure, (int, float)) and math.isfinite(from_pressure) and from_pressure > 0):
+        raise InputError(f"--from-pressure {from_pressure!r} must be a positive pressure in Pa")
+    betas = _check_quality(quality)
+    n = mixture.size
+    system = EnvelopeSystem(mixture, z, 0.0)
+    x0 = dew_point(mixture, z, float(from_pressure))
+    key = _key_component(x0, n)
+    lnP0 = math.log(from_pressure)
+    near = contin.Event("near critical point", lambda u, p, k=key: abs(float(u[k])) - _NEAR_CRITICAL,
+                        direction=-1, terminal=True, kind="near_critical")
+    setup = time.perf_counter() - began
+    first = _run(system, x0, 1, lnP0, max_points, [near])
+    pieces = [first]
+    rows_x = [first.points]
+    norms = [np.asarray(first.residual_norms)]
+    specials_raw = [(sp, 0) for sp in first.special_points if sp.kind == "fold"]
+    notes = []
+    critical = None
+    status, message, success = first.status.label, first.message, first.status.success
+    stats = {k: v for k, v in first.stats.items() if isinstance(v, (int, float))}
+    if first.status == contin.Status.TERMINAL_EVENT:
+        bridge = _bridge(system, first.points[-1], first.tangents[-1], key)
+        if bridge is None:
+            status, success = "critical_not_passed", False
+            message = "stopped: the controlled step across the critical point did not converge"
+        else:
+            bridge_points, x_c, error = bridge
+            offset = sum(len(r) for r in rows_x)
+            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first.points[-1][key])))
+            critical = (offset + before - 1, x_c, error)
+            rows_x.append(bridge_points)
+            norms.append(np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0])))
+                                   for p in bridge_points]))
+            x_b = bridge_points[-1]
+            t_b = _tangent(system, x_b)
+            if np.sign(t_b[key]) != np.sign(x_b[key]):
+                t_b = -t_b
+            offset = sum(len(r) for r in rows_x)
+            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points, [])
+            pieces.append(second)
+            # The second piece starts on the last bridge point: drop the duplicate.
+            rows_x.append(second.points[1:])
+            norms.append(np.asarray(second.residual_norms)[1:])
+            specials_raw += [(sp, offset - 1) for sp in second.special_points if sp.kind == "fold"]
+            status, message, success = second.status.label, second.message, second.status.success
+            for k, v in second.stats.items():
+                if isinstance(v, (int, float)):
+                    stats[k] = stats.get(k, 0) + v
+    traced = time.perf_counter()
+    points = np.vstack(rows_x)
+    residual_norms = np.concatenate(norms)
+    lnK, T, P = points[:, :n], np.exp(points[:, n]), np.exp(points[:, -1])
+    v_feed = np.exp(points[:, n + 1])
+    y = np.exp(lnK) * z
+    v_incipient = np.exp(points[:, n + 2]) / y.sum(axis=1)
+    side = np.where(v_feed > v_incipient, "dew", "bubble")
+
+    specials = []
+    if critical is not None:
+        index, x_c, error = critical
+        specials.append(_special("critical", index, math.exp(x_c[n]), math.exp(x_c[-1]), error,
+                                 {"v": float(math.exp(x_c[n + 1])), "key_component": mixture.names[key],
+                                  "note": "index is the last row before the critical point"}))
+    elif success:
+        notes.append("no critical point was passed on this branch")
+    folds_T = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnT"]
+    folds_P = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnP"]
+    if folds_T:
+        sp, o = max(folds_T, key=lambda item: item[0].values["lnT"])
+        slope = sp.tangent[n] / sp.tangent[-1] * math.exp(sp.values["lnT"] - sp.values["lnP"])
+        specials.append(_special("cricondentherm", sp.index + o, *_fold_value(sp), float(sp.located_to),
+                                 {"dT_dP": float(slope)}))
+    if folds_P:
+        sp, o = max(folds_P, key=lambda item: item[0].values["lnP"])
+        slope = sp.tangent[-1] / sp.tangent[n] * math.exp(sp.values["lnP"] - sp.values["lnT"])
+        specials.append(_special("cricondenbar", sp.index + o, *_fold_value(sp), float(sp.located_to),
+                                 {"dP_dT": float(slope)}))
+    specials.sort(key=lambda s: s["index"])
+
+    # Guard: no point may sit on the trivial solution K = 1 (the critical point itself is not a row).
+    trivial = [i for i in range(len(points)) if np.max(np.abs(lnK[i])) < _TRIVIAL]
+    if trivial:
+        status, success = "trivial_solution", False
+        message = (f"stopped: {len(trivial)} point(s) collapsed onto the trivial solution K = 1 "
+                   f"(first at T = {T[trivial[0]]:.3f} K)")
+
+    stable = [None] * len(points)
+    stability_seconds = 0.0
+    if check_stability:
+        from ._stability import check_points
+
+        began_stability = time.perf_counter()
+        stable = check_points(mixture, z, T, P, y)
+        stability_seconds = time.perf_counter() - began_stability
+
+    rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), stable[i],
+             *[float(v) for v in np.exp(lnK[i])]] for i in range(len(points))]
+    columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
+    lines = tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points) for beta in betas)
+
+    stats["setup_seconds"] = setup + float(first.stats.get("setup_seconds", 0.0))
+    stats["trace_seconds"] = traced - began - setup
+    stats["stability_seconds"] = stability_seconds
+    stats["points"] = len(points)
+    stats["jacobian_evaluations"] = system.evaluations
+    stats["jacobian_evaluations_per_point"] = system.evaluations / max(1, len(points) - 1)
+    return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
+                    residual_norms, lines, tuple(pieces), tuple(notes))
+
+
+def _special(kind: str, index: int, T: float, P: float, located: float, info: dict) -> dict:
+    return {"kind": kind, "name": kind, "index": int(index), "values": {"T": float(T), "P": float(P)},
+            "located_to": float(located), "info": info}
+
+
+def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float, max_points: int) -> QualityLine:
+    n = mixture.size
+    system = EnvelopeSystem(mixture, z, beta)
+    try:
+        x0 = dew_point(mixture, z, pressure, beta)
+    except InputError as error:
+        return QualityLine(beta, np.array([]), np.array([]), "start_not_converged", str(error))
+    key = _key_component(x0, n)
+    lnP0 = math.log(pressure)
+    branch = contin.trace(
+        system, x0[:-1], free="lnP", parameters={"lnP": lnP0}, direction=1, step=0.05, max_step=0.6,
+        min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE, bounds={"lnP": (lnP0, math.log(1e10))},
+        events=[contin.Event("critical point", lambda u, p, k=key: float(u[k]), terminal=True, kind="critical")],
+        corrector="local",
+    )
+    pts = branch.points
+    return QualityLine(beta, np.exp(pts[:, n]), np.exp(pts[:, -1]), branch.status.label, branch.message)
+
+
+def _check_feed(mixture: Mixture, z) -> np.ndarray:
+    z = np.asarray(z, dtype=float).reshape(-1)
+    if z.size != mixture.size:
+        raise InputError(f"the feed has {z.size} mole fractions for {mixture.size} components")
+    if not np.all(np.isfinite(z)) or np.any(z <= 0):
+        raise InputError("every mole fraction of the feed must be positive; drop absent components")
+    if abs(z.sum() - 1.0) > 1e-6:
+        raise InputError(f"the mole fractions sum to {z.sum():.8g}, not 1; fix them or pass --normalise")
+    return z / z.sum()
+
+
+def _check_quality(quality) -> tuple[float, ...]:
+    values = []
+    for q in quality:
+        q = float(q)
+        if not 0.0 < q < 1.0:
+            raise InputError(f"--quality {q:g} must lie strictly between 0 and 1 (a vapour fraction)")
+        values.append(q)
+    return tuple(sorted(set(values)))
