@@ -1,0 +1,147 @@
+"""Temperatures and pressures with units on input; SI or engineering units on output.
+
+Input accepts a bare number (SI: K, Pa) or a number followed by a unit: ``K``, ``degC``, ``bar``,
+``MPa``, ``kPa``, ``Pa``, ``psia``, ``atm``. Files and JSON are always SI; the printed summary and
+CSV may use engineering units (degC, bar).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from contin import InputError
+from contin._names import suggest
+
+__all__ = [
+    "PRESSURE_UNITS",
+    "TEMPERATURE_UNITS",
+    "UNIT_SYSTEMS",
+    "OutputUnits",
+    "parse_pressure",
+    "parse_quantity",
+    "parse_temperature",
+    "parse_list",
+    "output_units",
+]
+
+# 1 atm = 101325 Pa (exact, definition); 1 psi = 0.45359237 kg x 9.80665 m/s^2 / (0.0254 m)^2 (exact).
+PSI = 0.45359237 * 9.80665 / 0.0254**2
+CELSIUS_OFFSET = 273.15  # 0 degC = 273.15 K (exact)
+
+TEMPERATURE_UNITS: dict[str, tuple[Callable[[float], float], Callable[[float], float]]] = {
+    "K": (lambda v: v, lambda k: k),
+    "degC": (lambda v: v + CELSIUS_OFFSET, lambda k: k - CELSIUS_OFFSET),
+}
+PRESSURE_UNITS: dict[str, float] = {
+    "Pa": 1.0,
+    "kPa": 1e3,
+    "MPa": 1e6,
+    "bar": 1e5,
+    "atm": 101325.0,
+    "psia": PSI,
+}
+_KINDS = {"temperature": TEMPERATURE_UNITS, "pressure": PRESSURE_UNITS}
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]*)\s*$")
+
+
+def _unit_kind(unit: str) -> str | None:
+    for kind, table in _KINDS.items():
+        if unit in table:
+            return kind
+    return None
+
+
+def parse_quantity(text: str | float, kind: str, argument: str) -> float:
+    """A temperature (K) or pressure (Pa) from ``text``: a bare SI number or a number with a unit.
+
+    Args:
+        text: e.g. ``"300"``, ``"26.85 degC"``, ``"50 bar"``, ``"14.7psia"``, or a number.
+        kind: ``"temperature"`` or ``"pressure"``.
+        argument: the option or key being read, named in error messages.
+
+    Raises:
+        InputError: not a number, an unknown unit (with the nearest valid one), a unit of the other
+            kind ("a pressure given in K"), or a temperature at or below absolute zero.
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        value, unit = float(text), ""
+    else:
+        match = _NUMBER.match(str(text))
+        if not match:
+            raise InputError(
+                f"{argument}: {text!r} is not a number with an optional unit "
+                f"(e.g. {'300 K or 26.85 degC' if kind == 'temperature' else '50 bar or 5 MPa'})"
+            )
+        value, unit = float(match.group(1)), match.group(2)
+    table = _KINDS[kind]
+    if unit and unit not in table:
+        other = _unit_kind(unit)
+        if other is not None:
+            raise InputError(f"{argument}: {text!r} is a {other}, but a {kind} is needed here "
+                             f"(units: {', '.join(table)})")
+        lowered = {u.lower(): u for u in table}
+        if unit.lower() in lowered:
+            hint = f"; did you mean {lowered[unit.lower()]!r}?"
+        else:
+            hint = suggest(unit, table)
+        raise InputError(f"{argument}: unknown {kind} unit {unit!r} in {text!r} (units: {', '.join(table)}){hint}")
+    if not math.isfinite(value):
+        raise InputError(f"{argument}: {text!r} is not a finite number")
+    if kind == "temperature":
+        kelvin = TEMPERATURE_UNITS[unit or "K"][0](value)
+        if kelvin <= 0.0:
+            raise InputError(f"{argument}: {text!r} is at or below absolute zero")
+        return kelvin
+    pascal = value * PRESSURE_UNITS[unit or "Pa"]
+    if pascal <= 0.0:
+        raise InputError(f"{argument}: {text!r} must be a positive pressure")
+    return pascal
+
+
+def parse_temperature(text: str | float, argument: str = "temperature") -> float:
+    """A temperature in K from a bare number (K) or a number with a unit (K, degC)."""
+    return parse_quantity(text, "temperature", argument)
+
+
+def parse_pressure(text: str | float, argument: str = "pressure") -> float:
+    """A pressure in Pa from a bare number (Pa) or a number with a unit (Pa, kPa, MPa, bar, atm, psia)."""
+    return parse_quantity(text, "pressure", argument)
+
+
+def parse_list(text: str, kind: str, argument: str) -> list[float]:
+    """A comma-separated list of temperatures or pressures, each with an optional unit."""
+    parts = [part for part in str(text).split(",") if part.strip()]
+    if not parts:
+        raise InputError(f"{argument}: give at least one value (comma-separated)")
+    return [parse_quantity(part, kind, argument) for part in parts]
+
+
+@dataclass(frozen=True)
+class OutputUnits:
+    """How temperatures, pressures and the rest are shown in summaries and CSV files."""
+
+    name: str
+    temperature: str
+    pressure: str
+
+    def temperature_from_si(self, kelvin: float) -> float:
+        return TEMPERATURE_UNITS[self.temperature][1](kelvin)
+
+    def pressure_from_si(self, pascal: float) -> float:
+        return pascal / PRESSURE_UNITS[self.pressure]
+
+
+UNIT_SYSTEMS = {
+    "si": OutputUnits("si", "K", "Pa"),
+    "engineering": OutputUnits("engineering", "degC", "bar"),
+}
+
+
+def output_units(name: str, argument: str = "--units") -> OutputUnits:
+    """The output unit system ``si`` or ``engineering``."""
+    if name not in UNIT_SYSTEMS:
+        raise InputError(f"{argument}: unknown unit system {name!r} (use si or engineering){suggest(name, UNIT_SYSTEMS)}")
+    return UNIT_SYSTEMS[name]
