@@ -42,10 +42,12 @@ ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipi
 
 # Tolerance on the residual (relative pressure, ln fugacity): far below any use of the numbers.
 _TOLERANCE = 1e-10
+# First step of each traced piece (in the log coordinates).
+_STEP = 0.2
 # |ln K_key| at which the trace hands over to the controlled step across the critical point, and the
 # levels of ln K_key of that step (see _bridge).
 _NEAR_CRITICAL = 0.1
-_BRIDGE = (0.02, 0.04, 0.06, 0.1)
+_BRIDGE = (0.005, 0.01, 0.015, 0.03, 0.06, 0.1)
 # A point whose ln K are all below this in size sits on the trivial solution K = 1.
 _TRIVIAL = 1e-7
 
@@ -372,6 +374,38 @@ def _tangent(system: EnvelopeSystem, x: np.ndarray) -> np.ndarray:
     return np.linalg.svd(np.column_stack([J, dp]))[2][-1]
 
 
+def _bridge_folds(system: EnvelopeSystem, points: np.ndarray, key: int) -> list[tuple[int, int, np.ndarray]]:
+    """Turning points of ln T and ln P between consecutive bridge points, by Brent's method on ln K_key.
+
+    Along the bridge the branch is parametrised by c = ln K_key; a fold of coordinate j is a zero of
+    dx_j/dc, computed from the tangent of a Newton-converged point at each trial c.
+
+    Returns:
+        list of (coordinate, index of the bridge point before it, the located point).
+    """
+    n = system.n
+    found = []
+
+    def slope(c, j, guess):
+        x, _, ok = _newton(system, guess, key, c, iterations=40, tolerance=1e-13)
+        t = _tangent(system, x)
+        return t[j] / t[key], x
+
+    tangents = [_tangent(system, p) for p in points]
+    for j in (n, n + 3):
+        for k in range(len(points) - 1):
+            a = tangents[k][j] / tangents[k][key]
+            b = tangents[k + 1][j] / tangents[k + 1][key]
+            if a * b < 0:
+                ca, cb = points[k][key], points[k + 1][key]
+                guess = points[k]
+                c = brentq(lambda c: slope(c, j, guess + (c - ca) / (cb - ca) * (points[k + 1] - guess))[0],
+                           ca, cb, xtol=1e-14)
+                x = slope(c, j, guess + (c - ca) / (cb - ca) * (points[k + 1] - guess))[1]
+                found.append((j, k, x))
+    return found
+
+
 def _bridge(system: EnvelopeSystem, xa: np.ndarray, ta: np.ndarray, key: int):
     """Step across the critical point at fixed values of ln K_key, and pin the critical point down.
 
@@ -418,7 +452,7 @@ def _fold_value(sp) -> tuple[float, float]:
 
 def _run(system, x, direction, lnP0, max_points, events, folds=("lnT",)):
     return contin.trace(
-        system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=0.05,
+        system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=_STEP,
         max_step=0.6, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
         bounds={"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))},
         events=events, folds=folds, corrector="local",
@@ -479,6 +513,7 @@ def trace_envelope(
     specials_raw = [(sp, 0) for sp in first.special_points if sp.kind == "fold"]
     notes = []
     critical = None
+    bridge_folds = []
     status, message, success = first.status.label, first.message, first.status.success
     stats = {k: v for k, v in first.stats.items() if isinstance(v, (int, float))}
     if first.status == contin.Status.TERMINAL_EVENT:
@@ -489,6 +524,9 @@ def trace_envelope(
         else:
             bridge_points, x_c, error = bridge
             offset = sum(len(r) for r in rows_x)
+            chain = np.vstack([first.points[-1:], bridge_points])
+            for j, k, x in _bridge_folds(system, chain, key):
+                bridge_folds.append((j, offset + k - 1, x))
             before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first.points[-1][key])))
             critical = (offset + before - 1, x_c, error)
             rows_x.append(bridge_points)
@@ -528,6 +566,12 @@ def trace_envelope(
         notes.append("no critical point was passed on this branch")
     folds_T = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnT"]
     folds_P = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnP"]
+    for j, index, x in bridge_folds:
+        name = "lnT" if j == n else "lnP"
+        t = _tangent(system, x)
+        located = contin.SpecialPoint("fold", f"fold in {name}", index - 0, {"lnT": float(x[n]), "lnP": float(x[-1])},
+                                      x, t, 0.0, 0, 1e-14, {"coordinate": name})
+        (folds_T if j == n else folds_P).append((located, 0))
     if folds_T:
         sp, o = max(folds_T, key=lambda item: item[0].values["lnT"])
         slope = sp.tangent[n] / sp.tangent[-1] * math.exp(sp.values["lnT"] - sp.values["lnP"])
