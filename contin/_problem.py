@@ -150,6 +150,8 @@ class _Reader:
     # -- messages -------------------------------------------------------------------------------
     def where(self, table: str | None, key: str | None = None, occurrence: int = 1) -> str:
         line = self.lines.key(table, key, occurrence) if key is not None else None
+        if line is None and table is None and key is not None:
+            line = self.lines.table(key)  # a top-level key written as a [table]
         if line is None and table is not None:
             line = self.lines.table(table, occurrence)
         return f"{self.path}, line {line}" if line is not None else str(self.path)
