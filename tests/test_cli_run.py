@@ -1,0 +1,181 @@
+"""`contin run`: summary, --json (the DESIGN.md object), --out files, examples, errors and plug-ins."""
+
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+import textwrap
+
+import pytest
+
+import contin._cli as cli
+from contin._cli import main
+
+PROBLEM = textwrap.dedent(
+    """\
+    [unknowns]
+    u = -1.5
+    [parameters]
+    p = 1.875
+    [equations]
+    balance = "u**3 - u + p"
+    [trace]
+    free = "p"
+    direction = -1
+    bounds = { p = [-2.0, 2.0] }
+    at = { p = [0.1] }
+    """
+)
+FOLD = 2 / (3 * math.sqrt(3))  # folds of u^3 - u + p at p = -+2/(3 sqrt 3) (exact)
+
+
+@pytest.fixture(autouse=True)
+def private_cache(tmp_path, monkeypatch):
+    monkeypatch.setenv("CONTIN_CACHE_DIR", str(tmp_path / "cache"))
+
+
+@pytest.fixture
+def problem(tmp_path):
+    path = tmp_path / "cubic.toml"
+    path.write_text(PROBLEM)
+    return path
+
+
+def test_summary_names_status_points_and_special_points(problem, capsys):
+    assert main(["run", str(problem)]) == 0
+    out = capsys.readouterr().out
+    assert "status: bound_reached (success)" in out
+    assert "points: " in out and "special points:" in out
+    assert out.count("fold in p") == 2
+    assert f"p = {-FOLD:.10g}" in out and f"p = {FOLD:.10g}" in out
+
+
+def test_json_is_the_design_object(problem, capsys):
+    assert main(["run", str(problem), "--json"]) == 0
+    document = json.loads(capsys.readouterr().out)
+    assert {"status", "message", "columns", "points", "special_points", "at", "stats"} <= set(document)
+    assert document["status"] == "bound_reached" and document["columns"] == ["u", "p"]
+    assert {"setup_seconds", "trace_seconds", "newton_iterations", "jacobian_evaluations"} <= set(document["stats"])
+    folds = sorted(sp["values"]["p"] for sp in document["special_points"] if sp["kind"] == "fold")
+    assert folds == pytest.approx([-FOLD, FOLD], abs=1e-9)
+    for sp in document["special_points"]:
+        assert document["points"][sp["index"]] == pytest.approx([sp["values"]["u"], sp["values"]["p"]], abs=1e-12)
+    # The cubic has three real roots at p = 0.1 (exact), each reported.
+    assert [round(row[1], 12) for row in document["at"]] == [0.1, 0.1, 0.1]  # rows in column order
+
+
+def test_out_writes_csv_and_json(problem, tmp_path, capsys):
+    folder = tmp_path / "results"
+    assert main(["run", str(problem), "--out", str(folder), "--json"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    assert sorted(p.name for p in folder.iterdir()) == ["cubic.csv", "cubic.json"]
+    written = json.loads((folder / "cubic.json").read_text())
+    assert written["points"] == printed["points"] and written["columns"] == ["u", "p"]
+    rows = [line for line in (folder / "cubic.csv").read_text().splitlines() if line and not line.startswith("#")]
+    assert rows[0].replace(" ", "") == "u,p" and len(rows) == len(printed["points"]) + 1
+
+
+def test_out_leaves_nothing_on_error(tmp_path, capsys):
+    bad = tmp_path / "bad.toml"
+    bad.write_text(PROBLEM.replace('free = "p"', 'free = "q"'))
+    folder = tmp_path / "results"
+    assert main(["run", str(bad), "--out", str(folder)]) == 2
+    assert not folder.exists()
+
+
+def test_out_that_is_a_file(problem, tmp_path, capsys):
+    blocker = tmp_path / "taken"
+    blocker.write_text("x")
+    assert main(["run", str(problem), "--out", str(blocker)]) == 2
+    assert "--out" in capsys.readouterr().err and blocker.read_text() == "x"
+
+
+def test_bad_file_is_one_line_without_traceback(tmp_path, capsys):
+    bad = tmp_path / "bad.toml"
+    bad.write_text(PROBLEM.replace("u**3 - u + p", "u**3 - u + qq"))
+    assert main(["run", str(bad)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert err[-1].startswith("contin: error: ") and "line 6: equation 'balance', column 12" in err[-1]
+    assert "Traceback" not in "\n".join(err)
+
+
+def test_missing_file(tmp_path, capsys):
+    assert main(["run", str(tmp_path / "absent.toml")]) == 2
+    assert "no such problem file" in capsys.readouterr().err
+
+
+def test_failed_trace_exits_with_one(tmp_path, capsys):
+    path = tmp_path / "none.toml"
+    path.write_text(PROBLEM.replace("u**3 - u + p", "exp(u) + p*p + 1"))  # no real solution (exact)
+    assert main(["run", str(path)]) == 1
+    assert "(failure)" in capsys.readouterr().out
+
+
+def test_run_needs_a_source(capsys):
+    assert main(["run"]) == 2
+    assert "needs a problem file, --example NAME or --list-examples" in capsys.readouterr().err
+
+
+def test_problem_and_example_together_are_refused(problem, capsys):
+    assert main(["run", str(problem), "--example", "stirred_tank"]) == 2
+    assert "not allowed with" in capsys.readouterr().err
+
+
+def test_list_examples(capsys):
+    assert main(["run", "--list-examples"]) == 0
+    out = capsys.readouterr().out
+    for name in ("pellet_ignition", "roof_truss", "stirred_tank"):
+        assert name in out
+
+
+def test_misspelt_example(capsys):
+    assert main(["run", "--example", "stirred_tnk"]) == 2
+    assert "did you mean 'stirred_tank'" in capsys.readouterr().err
+
+
+def test_no_command_prints_help(capsys):
+    assert main([]) == 2
+    assert "run" in capsys.readouterr().out
+
+
+class FakeEntry:
+    def __init__(self, name, target):
+        self.name, self.target = name, target
+
+    def load(self):
+        if isinstance(self.target, Exception):
+            raise self.target
+        return self.target
+
+
+def test_broken_plugin_warns_and_run_still_works(problem, monkeypatch, capsys):
+    monkeypatch.setattr(cli.metadata, "entry_points", lambda group: [FakeEntry("broken", ImportError("no module named nowhere"))])
+    assert main(["run", str(problem)]) == 0
+    captured = capsys.readouterr()
+    assert "plug-in 'broken' could not be loaded" in captured.err and "status: bound_reached" in captured.out
+
+
+def test_plugins_add_subcommands_in_name_order(monkeypatch, capsys):
+    order = []
+
+    def register_named(name):
+        def register(subparsers):
+            order.append(name)
+            sub = subparsers.add_parser(name)
+            sub.set_defaults(handler=lambda namespace: print(f"hello from {name}") or 0)
+        return register
+
+    entries = [FakeEntry("zeta", register_named("zeta")), FakeEntry("alpha", register_named("alpha"))]
+    monkeypatch.setattr(cli.metadata, "entry_points", lambda group: entries)
+    assert main(["zeta"]) == 0
+    assert order == ["alpha", "zeta"] and "hello from zeta" in capsys.readouterr().out
+
+
+def test_python_dash_m_contin(tmp_path):
+    result = subprocess.run(
+        [sys.executable, "-m", "contin", "run", "--list-examples"], capture_output=True, text=True, timeout=120,
+        env={"CONTIN_CACHE_DIR": str(tmp_path), "PATH": "", "HOME": str(tmp_path)},
+    )
+    assert result.returncode == 0 and "stirred_tank" in result.stdout
