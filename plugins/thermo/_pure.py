@@ -155,11 +155,16 @@ class PureFluid:
             d3 += -n * (n + 1) * (n + 2) * cj * y ** (-n - 3)
         return d1, d2, d3
 
-    def ln_fugacity_coefficient(self, x: float, theta: float) -> float:
-        """ln phi of the pure fluid at reduced volume ``x`` and reduced temperature ``theta``."""
+    def ln_fugacity_coefficient(self, x: float, theta: float, p: float | None = None) -> float:
+        """ln phi of the pure fluid at reduced volume ``x`` and reduced temperature ``theta``.
+
+        ``p`` is the reduced pressure if known (a liquid's pressure computed from its volume loses
+        digits at low temperature, where it is a small difference of large terms).
+        """
         alpha, _ = self.alpha(theta)
         f = self.family
-        p = float(self.reduced_pressure(x, theta))
+        if p is None:
+            p = float(self.reduced_pressure(x, theta))
         z = p * x / theta
         if f.delta1 == f.delta2:
             attraction = self.k * alpha / theta / (x + f.delta1)
@@ -225,7 +230,7 @@ class PureFluid:
                 if roots.size < 2:
                     break
             x_l, x_v = float(roots[0]), float(roots[-1])
-            g = self.ln_fugacity_coefficient(x_l, theta) - self.ln_fugacity_coefficient(x_v, theta)
+            g = self.ln_fugacity_coefficient(x_l, theta, math.exp(y)) - self.ln_fugacity_coefficient(x_v, theta, math.exp(y))
             if g > 0.0:
                 low = y
             else:
@@ -339,6 +344,8 @@ def _saturation_terms(phases: _Phases, offset: float, order: int) -> tuple[float
     """
     w, q = phases.term(offset)
     t = phases.t
+    if phases.sigma > 0.0 and t >= _SERIES_LIMIT * w * w:
+        return _wide_saturation_terms(phases, offset, order)
     W = phases.e * phases.ch
     s = 1.0 + offset
     w_mu, w_s, t_mu, t_s = phases.w_mu, phases.w_sigma, phases.t_mu, phases.t_sigma
@@ -370,6 +377,57 @@ def _saturation_terms(phases: _Phases, offset: float, order: int) -> tuple[float
         h, hw * w_mu + ht * t_mu, hw * w_s + ht * t_s,
         k, kw * w_mu + kt * t_mu + k_mu, kw * w_s + kt * t_s,
     )
+
+
+def _wide_saturation_terms(phases: _Phases, offset: float, order: int) -> tuple[float, ...]:
+    """:func:`_saturation_terms` for well-separated phases, differentiated through x_l and x_v.
+
+    At low temperature x_l + o = w - d is a small difference of large numbers, so derivatives taken
+    through (w, t) would cancel; here every quantity is written in pl = x_l + o and pv = x_v + o.
+    """
+    e, delta = phases.e, phases.delta
+    yl, yv = e * math.exp(-delta), e * math.exp(delta)  # x_l - 1, x_v - 1
+    s = 1.0 + offset
+    pl, pv = yl + s, yv + s
+    W = 0.5 * (yl + yv)
+    q = pl * pv
+    if order == 1:
+        d1, d1_l, d1_v = -1.0 / q, 1.0 / (pl * q), 1.0 / (pv * q)
+        d = 0.5 * (pv - pl)
+        w = 0.5 * (pv + pl)
+        L = 2.0 * delta if offset == -1.0 else math.log(pv / pl)
+        d2, d3, d4 = d * d, d * d * d, d * d * d * d
+        h = L / (2.0 * d3) - 1.0 / (d2 * w)
+        common = 1.0 / (d3 * w)
+        h_v = 1.0 / (2.0 * pv * d3) - 3.0 * L / (4.0 * d4) + common + 0.5 / (d2 * w * w)
+        h_l = -1.0 / (2.0 * pl * d3) + 3.0 * L / (4.0 * d4) - common + 0.5 / (d2 * w * w)
+        if s != 0.0:
+            extra = s / (q * w * W)
+            h += extra
+            h_l += -extra / pl - 0.5 * extra / w - 0.5 * extra / W
+            h_v += -extra / pv - 0.5 * extra / w - 0.5 * extra / W
+        k, k_l, k_v = s / q, -s / (pl * q), -s / (pv * q)
+    else:
+        q2 = q * q
+        d1 = -(pl + pv) / q2
+        d1_l = -1.0 / q2 + 2.0 * (pl + pv) / (pl * q2)
+        d1_v = -1.0 / q2 + 2.0 * (pl + pv) / (pv * q2)
+        h = 2.0 * s / (q2 * W)
+        h_l = -2.0 * h / pl - 0.5 * h / W
+        h_v = -2.0 * h / pv - 0.5 * h / W
+        big = yl * yv
+        k = (s * s - big) / q2
+        k_l = -yv / q2 - 2.0 * k / pl
+        k_v = -yl / q2 - 2.0 * k / pv
+    half = 0.5 / delta
+
+    def chain(dl: float, dv: float) -> tuple[float, float]:
+        return dl * yl + dv * yv, (dv * yv - dl * yl) * half
+
+    d1_mu, d1_s = chain(d1_l, d1_v)
+    h_mu, h_s = chain(h_l, h_v)
+    k_mu, k_s = chain(k_l, k_v)
+    return d1, d1_mu, d1_s, h, h_mu, h_s, k, k_mu, k_s
 
 
 def _spinodal_terms(phases: _Phases, offset: float, order: int):
