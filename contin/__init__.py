@@ -9,6 +9,9 @@ from ._events import Event
 from ._natural import sweep
 from ._options import TraceOptions
 from ._output import json_document
+from ._plot import plot_branch
+from ._progress import Progress
+from ._record import read_record, restart, run_record, write_record
 from ._status import Status
 from ._system import CallableSystem, System
 from ._trace import trace
@@ -28,6 +31,12 @@ __all__ = [
     "TraceOptions",
     "__version__",
     "json_document",
+    "plot_branch",
+    "Progress",
+    "read_record",
+    "restart",
+    "run_record",
     "sweep",
     "trace",
+    "write_record",
 ]

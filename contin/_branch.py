@@ -148,6 +148,30 @@ class Branch:
             write_text_atomically(path, text)
         return text
 
+    def plot(self, x: str | None = None, y: str | None = None, *, ax=None, **keywords):
+        """Draw ``y`` against ``x`` (default: first unknown against the free parameter) with the
+        special points marked and labelled; returns the matplotlib axes. See :func:`contin.plot_branch`."""
+        from ._plot import plot_branch
+
+        return plot_branch(self, x, y, ax=ax, **keywords)
+
+    def to_dataframe(self):
+        """The points as a pandas DataFrame (pandas is not a dependency: install it to use this)."""
+        try:
+            import pandas
+        except ImportError as error:
+            from ._errors import ContinError
+
+            raise ContinError("to_dataframe needs pandas, which contin does not install: pip install pandas") from error
+        frame = pandas.DataFrame(self.points, columns=list(self.columns))
+        kinds = [""] * len(self.points)
+        for sp in self.special_points:
+            kinds[sp.index] = sp.kind if not kinds[sp.index] else f"{kinds[sp.index]},{sp.kind}"
+        frame["special"] = kinds
+        frame["newton_iterations"] = self.newton_iterations
+        frame["residual_norm"] = self.residual_norms
+        return frame
+
     def __repr__(self) -> str:
         kinds: dict[str, int] = {}
         for sp in self.special_points:

@@ -110,8 +110,9 @@ def trace(
     at: Mapping[str, Sequence[float]] | None = None,
     folds: Sequence[str] = (),
     corrector: str = "arclength",
+    tangent: Sequence[float] | None = None,
     options: TraceOptions | None = None,
-    on_point: Callable[[int, np.ndarray], None] | None = None,
+    on_point: Callable[[int, np.ndarray, Sequence[SpecialPoint]], None] | None = None,
     throw: bool = False,
 ) -> Branch:
     """Trace the branch of F(u, p) = 0 through ``start`` by pseudo-arclength continuation.
@@ -139,7 +140,11 @@ def trace(
         events: zero crossings of user functions to locate; terminal ones stop the trace.
         at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
         folds: further coordinates whose turning points are located (the free parameter's always are).
-        on_point: called as ``on_point(index, x)`` after each accepted point (e.g. for progress).
+        tangent: optional initial direction in coordinates (unknowns then free parameter), e.g. to
+            restart from a saved point or a fold; the start is then corrected on the bordered system, so
+            dF/du may be singular there. ``direction`` = -1 reverses it.
+        on_point: called as ``on_point(index, x, special_points)`` after each accepted point, with the
+            special points found so far (read them, do not change them); e.g. for a progress line.
         throw: raise :class:`TraceError` (with the partial branch) instead of returning an unsuccessful one.
 
     Returns:
@@ -183,7 +188,15 @@ def trace(
     for index, low, high in bound_list:
         if not low <= x0[index] <= high:
             raise InputError(f"the start point has {columns[index]} = {x0[index]}, outside its bounds [{low}, {high}]")
+    initial = None
+    if tangent is not None:
+        initial = np.asarray(tangent, dtype=float).reshape(-1)
+        if initial.size != len(columns) or not np.all(np.isfinite(initial)) or not np.any(initial):
+            raise InputError(f"tangent must be {len(columns)} finite numbers, not all zero (coordinates: "
+                             f"{', '.join(columns)})")
+        initial = options.direction * initial / np.linalg.norm(initial)
     run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
+    run.initial_tangent = initial
     run.stats_setup = time.perf_counter() - began + float(getattr(system, "setup_seconds", 0.0) or 0.0)
     traced = time.perf_counter()
     try:
@@ -227,6 +240,7 @@ class _Run:
         self.stats_setup = 0.0
         self.jacobian: np.ndarray | None = None
         self.event_values: list[float] = []
+        self.initial_tangent: np.ndarray | None = None
 
     # -- bookkeeping -----------------------------------------------------------------------------
     def finish(self, status: Status, message: str, cause: BaseException | None = None) -> None:
@@ -270,18 +284,23 @@ class _Run:
     def start(self, x0: np.ndarray) -> None:
         """Correct the start point at the fixed free parameter and orient the first tangent."""
         n = self.extended.n
-        row = np.zeros(n + 1)
-        row[n] = 1.0
+        if self.initial_tangent is not None:
+            row = self.initial_tangent
+            where = "the bordered Jacobian [dF/dx; tangent]"
+        else:
+            row = np.zeros(n + 1)
+            row[n] = 1.0
+            where = "the Jacobian dF/du"
         residual, jacobian = self._checked_linearisation(x0)
         try:
             Bordered(jacobian, row)
         except SingularMatrix:
             raise InputError(
-                "the Jacobian dF/du is singular at the start point ("
-                f"{self.describe(x0)}): start away from a fold or branch point, or check that every "
-                "unknown enters the equations"
+                f"{where} is singular at the start point ("
+                f"{self.describe(x0)}): start away from a fold or branch point (or give tangent=), or check "
+                "that every unknown enters the equations"
             ) from None
-        correction = correct(self.extended, x0, row, float(x0[n]), tolerance=self.options.tolerance,
+        correction = correct(self.extended, x0, row, float(row @ x0), tolerance=self.options.tolerance,
                              max_iterations=4 * self.options.max_iterations, jacobian=jacobian, residual=residual)
         if not correction.converged:
             self.append(correction.x, np.zeros(n + 1), correction.iterations, correction.residual_norm)
@@ -297,9 +316,9 @@ class _Run:
             raise InputError(
                 f"the Jacobian dF/du is singular at the corrected start point ({self.describe(correction.x)})"
             ) from None
-        reference = row * self.options.direction
+        reference = row if self.initial_tangent is not None else row * self.options.direction
         t = tangent(bordered, reference)
-        if t[n] == 0.0:
+        if self.initial_tangent is None and t[n] == 0.0:
             t = reference.copy()
         self.jacobian = correction.jacobian
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
@@ -332,7 +351,7 @@ class _Run:
 
     def _notify(self, index: int, x: np.ndarray) -> None:
         try:
-            self.on_point(index, x.copy())
+            self.on_point(index, x.copy(), tuple(self.special))
         except KeyboardInterrupt:
             raise
         except Exception as error:  # noqa: BLE001

@@ -172,7 +172,7 @@ def test_exception_in_a_callback_returns_the_partial_branch():
 
 
 def test_keyboard_interrupt_keeps_what_was_traced():
-    def on_point(index, x):
+    def on_point(index, x, special_points):
         if index == 10:
             raise KeyboardInterrupt
 
