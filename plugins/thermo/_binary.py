@@ -1,0 +1,191 @@
+"""Binary Pxy (at a given temperature) and Txy (at a given pressure) diagrams by continuation in x1.
+
+The bubble-point equations of the envelope system (``_envelope.EnvelopeSystem``: liquid feed
+x = (x1, 1 - x1), incipient vapour y = K x, volumes as unknowns) are traced with the liquid mole
+fraction x1 as the free parameter, from the pure second component (x1 = 0) towards the pure first
+one, or until the two-phase region closes at a critical point (the phase volumes meet). An
+azeotrope (x = y with distinct phases) is a zero of ln K_1 and is reported as an ``azeotrope``
+special point.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+import contin
+from contin import InputError
+
+from ._caution import CAUTION
+from ._envelope import EnvelopeSystem, _newton
+from ._mixture import Mixture
+
+__all__ = ["BinaryDiagram", "pxy", "txy"]
+
+# The two-phase region counts as closed (critical point approached) below this |ln(v_vapour/v_liquid)|.
+_CLOSING = 0.01
+
+
+@dataclass(frozen=True)
+class BinaryDiagram:
+    """A traced Pxy or Txy diagram.
+
+    Attributes:
+        kind: ``"pxy"`` or ``"txy"``; mixture: the binary; fixed: the fixed T (K) or P (Pa).
+        columns: ``x1, y1, P`` (or ``T``), ``v_liquid, v_vapour``; rows: values in column order.
+        special_points: dicts with ``kind`` (``azeotrope``, ``critical``), ``index``, ``values``.
+        status, message, success, stats: how the trace ended.
+    """
+
+    kind: str
+    mixture: Mixture
+    fixed: float
+    columns: tuple
+    rows: list
+    special_points: list
+    status: str
+    message: str
+    success: bool
+    stats: dict
+
+    def to_dict(self) -> dict:
+        """The JSON layout of DESIGN.md with the caution and model."""
+        return contin.json_document(self.status, self.message, self.columns, self.rows, self.special_points, [],
+                                    self.stats, caution=CAUTION, model=self.mixture.family.label,
+                                    components=list(self.mixture.names))
+
+    def to_csv(self, path):
+        """Write the rows as CSV with the caution and units header."""
+        from ._report import write_csv
+
+        units = {"x1": "", "y1": "", "P": "Pa", "T": "K", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}
+        fixed = f"T = {self.fixed} K" if self.kind == "pxy" else f"P = {self.fixed} Pa"
+        return write_csv(path, self.columns, self.rows, units, title=f"{self.kind} diagram at {fixed}",
+                         notes=[f"model: {self.mixture.family.label}; components: {', '.join(self.mixture.names)}"])
+
+    def summary(self) -> list[str]:
+        """Human summary lines with the caution."""
+        from ._report import summary_lines
+
+        items = [("model", self.mixture.family.label), ("status", self.message), ("points", str(len(self.rows)))]
+        for sp in self.special_points:
+            items.append((sp["kind"], ", ".join(f"{k} = {v:.6g}" for k, v in sp["values"].items())))
+        return summary_lines(f"{self.kind} diagram", items)
+
+
+class _BinarySystem(contin.CallableSystem):
+    """Bubble points of x = (x1, 1 - x1) at fixed T (unknown ln P) or fixed P (unknown ln T)."""
+
+    def __init__(self, mixture: Mixture, kind: str, fixed: float) -> None:
+        self.mixture, self.diagram, self.fixed = mixture, kind, float(fixed)
+        other = "lnP" if kind == "pxy" else "lnT"
+        super().__init__(self._residual, ["lnK_1", "lnK_2", other, "lnV_liquid", "lnV_vapour"], {"x1": 0.0},
+                         jacobian=self._jacobian)
+
+    def _envelope(self, u, p):
+        x1 = float(p[0])  # a predictor step may pass an end slightly; the bound on x1 then locates it
+        system = EnvelopeSystem(self.mixture, np.array([x1, 1.0 - x1]))
+        if self.diagram == "pxy":
+            v = np.array([u[0], u[1], math.log(self.fixed), u[3], u[4]])
+            return system, v, float(u[2])
+        return system, np.array([u[0], u[1], u[2], u[3], u[4]]), math.log(self.fixed)
+
+    def _residual(self, u, p):
+        system, v, lnP = self._envelope(u, p)
+        return system.evaluate(v, lnP, with_jacobian=False)[0]
+
+    def _jacobian(self, u, p):
+        system, v, lnP = self._envelope(u, p)
+        r, J, dp = system.evaluate(v, lnP)
+        if self.diagram == "pxy":
+            J = J.copy()
+            J[:, 2] = dp
+        return J
+
+
+def _start(mixture: Mixture, kind: str, fixed: float) -> np.ndarray:
+    """Saturation of the pure second component at the fixed T or P, refined by Newton (x1 = 0)."""
+    Tc, Pc, omega = mixture.Tc[1], mixture.Pc[1], mixture.omega[1]
+    if kind == "pxy":
+        T = fixed
+        if T >= Tc:
+            raise InputError(f"--temperature {T:g} K is at or above the critical temperature of "
+                             f"{mixture.names[1]} ({Tc:g} K); give the component that is subcritical second")
+        P = Pc * math.exp(5.373 * (1 + omega) * (1 - Tc / T))
+    else:
+        P = fixed
+        if P >= Pc:
+            raise InputError(f"--pressure {P:g} Pa is at or above the critical pressure of "
+                             f"{mixture.names[1]} ({Pc:g} Pa); give the component that is subcritical second")
+        T = Tc / (1 - math.log(P / Pc) / (5.373 * (1 + omega)))
+    x = np.array([0.0, 1.0])
+    K = mixture.wilson(T, P)
+    K[1] = 1.0
+    v_liquid = mixture.volume(T, P, np.array([1e-12, 1.0]), "liquid")
+    v_vapour = mixture.volume(T, P, np.array([1e-12, 1.0]), "vapour")
+    system = EnvelopeSystem(mixture, x)
+    start = np.array([math.log(K[0]), 0.0, math.log(T), math.log(v_liquid), math.log(v_vapour), math.log(P)])
+    fixed_index = 2 if kind == "pxy" else 5
+    solution, norm, ok = _newton(system, start, fixed_index, start[fixed_index])
+    if not ok or abs(solution[3] - solution[4]) < 1e-3:
+        raise InputError(f"no saturation point of {mixture.names[1]} found at the given "
+                         f"{'temperature' if kind == 'pxy' else 'pressure'}; is it below the critical point?")
+    if kind == "pxy":
+        return np.array([solution[0], solution[1], solution[5], solution[3], solution[4]])
+    return np.array([solution[0], solution[1], solution[2], solution[3], solution[4]])
+
+
+def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
+    if mixture.size != 2:
+        raise InputError(f"--mixture must name exactly two components for {kind}, not {mixture.size}")
+    if isinstance(fixed, bool) or not (isinstance(fixed, (int, float)) and math.isfinite(fixed) and fixed > 0):
+        raise InputError(f"{'--temperature' if kind == 'pxy' else '--pressure'} {fixed!r} must be a positive number")
+    u0 = _start(mixture, kind, float(fixed))
+    system = _BinarySystem(mixture, kind, fixed)
+    events = [
+        contin.Event("azeotrope", lambda u, p: float(u[0]), kind="azeotrope"),
+        contin.Event("critical point", lambda u, p: float(u[4] - u[3]), terminal=True, kind="critical"),
+    ]
+    branch = contin.trace(system, u0, free="x1", parameters={"x1": 0.0}, direction=1, step=0.02, max_step=0.05,
+                          min_step=1e-10, tolerance=1e-10, bounds={"x1": (0.0, 1.0)}, events=events, max_points=600,
+                          corrector="local")
+    pts = branch.points
+    x1 = pts[:, -1]
+    y1 = np.exp(pts[:, 0]) * x1
+    other = np.exp(pts[:, 2])
+    rows = [[float(a), float(b), float(c), float(math.exp(d)), float(math.exp(e))]
+            for a, b, c, d, e in zip(x1, y1, other, pts[:, 3], pts[:, 4])]
+    name = "P" if kind == "pxy" else "T"
+    specials = []
+    for sp in branch.special_points:
+        if sp.kind not in ("azeotrope", "critical"):
+            continue
+        if sp.kind == "azeotrope" and abs(sp.point[4] - sp.point[3]) < 2 * _CLOSING:
+            continue  # K = 1 at the closing critical point is not an azeotrope
+        values = {"x1": float(sp.point[-1]), name: float(math.exp(sp.point[2]))}
+        info = {"note": "where the phase volumes meet"} if sp.kind == "critical" else {}
+        specials.append({"kind": sp.kind, "name": sp.name, "index": sp.index, "values": values,
+                         "located_to": sp.located_to, "info": info})
+    columns = ("x1", "y1", name, "v_liquid", "v_vapour")
+    return BinaryDiagram(kind, mixture, float(fixed), columns, rows, specials, branch.status.label, branch.message,
+                         branch.success, dict(branch.stats))
+
+
+def pxy(mixture: Mixture, temperature: float) -> BinaryDiagram:
+    """Pxy diagram of a binary at ``temperature`` (K): bubble pressure and vapour composition against x1.
+
+    Raises:
+        InputError: not a binary; temperature not positive or above the second component's Tc.
+    """
+    return _diagram(mixture, "pxy", temperature)
+
+
+def txy(mixture: Mixture, pressure: float) -> BinaryDiagram:
+    """Txy diagram of a binary at ``pressure`` (Pa): bubble temperature and vapour composition against x1.
+
+    Raises:
+        InputError: not a binary; pressure not positive or above the second component's Pc.
+    """
+    return _diagram(mixture, "txy", pressure)
