@@ -866,8 +866,14 @@ def saturation_curve(
     return CurveResult(
         "saturation", pure.component, pure.family, SATURATION_COLUMNS, dict(SATURATION_UNITS),
         np.array(points), tuple(special), np.array(at_rows).reshape(-1, len(SATURATION_COLUMNS)),
-        status, branch.message, _stats(branch, setup, extra_iterations),
+        status, _message(branch, critical_row is not None), _stats(branch, setup, extra_iterations),
     )
+
+
+def _message(branch: contin.Branch, landed: bool) -> str:
+    if landed:
+        return "completed: traced up to and onto the critical point"
+    return branch.message
 
 
 def spinodal_curve(
@@ -929,7 +935,7 @@ def spinodal_curve(
     return CurveResult(
         "spinodal", pure.component, pure.family, SPINODAL_COLUMNS, dict(SPINODAL_UNITS),
         np.array(points), tuple(special), np.array(at_rows).reshape(-1, len(SPINODAL_COLUMNS)),
-        status, branch.message, _stats(branch, setup, extra_iterations),
+        status, _message(branch, critical_row is not None), _stats(branch, setup, extra_iterations),
     )
 
 

@@ -1,0 +1,227 @@
+"""The ``contin thermo`` command line: saturation, spinodal, critical and components (pure fluids).
+
+Registered through the entry-point group ``contin.plugins``; the mixture commands (envelope, pxy,
+txy, and ``critical --mixture``) come from ``contin_thermo._cli_mixture`` when it is present.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import json
+import sys
+import warnings
+
+from contin import InputError
+
+from ._caution import CAUTION
+from ._components import all_components, custom_component, load_components, lookup
+from ._eos import FAMILIES, family
+from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
+
+__all__ = ["register", "run_pure"]
+
+
+def _mixture_module():
+    try:
+        return importlib.import_module("contin_thermo._cli_mixture")
+    except ImportError:
+        return None
+
+
+def _add_fluid_options(parser: argparse.ArgumentParser, *, eos_required: bool = True) -> None:
+    parser.add_argument("--fluid", metavar="NAME", help="a fluid of the component table (name or alias, e.g. propane, CO2, nC4)")
+    parser.add_argument("--tc", metavar="K", help="critical temperature of your own fluid (with --pc and --omega)")
+    parser.add_argument("--pc", metavar="PA", help="critical pressure of your own fluid, Pa (or with a unit: 46bar)")
+    parser.add_argument("--omega", metavar="W", help="acentric factor of your own fluid")
+    parser.add_argument("--name", default="custom fluid", help="name of your own fluid (default: 'custom fluid')")
+    parser.add_argument("--components-file", metavar="FILE",
+                        help="extra components from a CSV (name,Tc,Pc,omega) or TOML ([[component]]) file")
+    parser.add_argument("--eos", required=eos_required, metavar="|".join(FAMILIES),
+                        help="cubic equation of state: vdw, rk, srk or pr")
+    parser.add_argument("--json", action="store_true", help="print one JSON object (SI units) instead of a summary")
+    parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (SI units, caution in the header)")
+    parser.add_argument("--plot", metavar="FILE", help="draw P-T and T-rho diagrams into FILE (PNG, PDF, SVG)")
+
+
+def _add_range_options(parser: argparse.ArgumentParser, *, pressures: bool = True) -> None:
+    parser.add_argument("--from-temperature", metavar="K", help="lowest temperature (default 0.4 Tc)")
+    parser.add_argument("--at-temperatures", metavar="T1,T2,...", help="also give rows exactly at these temperatures")
+    if pressures:
+        parser.add_argument("--at-pressures", metavar="P1,P2,...",
+                            help="also give rows exactly at these pressures (e.g. 101325 for the normal boiling point)")
+
+
+def register(subparsers) -> None:
+    """Add ``contin thermo`` and its subcommands to the ``contin`` argument parser."""
+    thermo = subparsers.add_parser(
+        "thermo", help="cubic equations of state: saturation curves, spinodals, critical points",
+        description="Thermodynamics of cubic equations of state. " + CAUTION,
+    )
+    commands = thermo.add_subparsers(dest="thermo_command", metavar="SUBCOMMAND")
+    saturation = commands.add_parser(
+        "saturation", help="vapour-liquid coexistence curve up to the critical point",
+        description="Trace Psat(T), saturated volumes and densities and the enthalpy of vaporisation "
+                    "from a low temperature to the critical point. " + CAUTION,
+    )
+    _add_fluid_options(saturation)
+    _add_range_options(saturation)
+    saturation.set_defaults(handler=run_pure, curve="saturation")
+    spinodal = commands.add_parser(
+        "spinodal", help="liquid and vapour spinodals up to the critical point",
+        description="Trace the limits of mechanical stability (dP/dv = 0) to the critical point. " + CAUTION,
+    )
+    _add_fluid_options(spinodal)
+    _add_range_options(spinodal, pressures=False)
+    spinodal.set_defaults(handler=run_pure, curve="spinodal")
+    critical = commands.add_parser(
+        "critical", help="critical point of a fluid (or of a mixture with --mixture)",
+        description="Solve dP/dv = d2P/dv2 = 0 for a pure fluid; with --mixture, a mixture critical point. "
+                    + CAUTION,
+    )
+    _add_fluid_options(critical)
+    critical.add_argument("--mixture", metavar="NAME=X,...", help="mixture composition (mixture critical point)")
+    critical.add_argument("--kij", metavar="A-B=K,...", help="binary interaction parameters (with --mixture)")
+    critical.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
+                          help="an extra component for --mixture (repeatable)")
+    critical.set_defaults(handler=_run_critical, curve="critical")
+    components = commands.add_parser("components", help="list the component table",
+                                     description="List the shipped components with their constants and sources.")
+    components.add_argument("--json", action="store_true", help="print the table as JSON")
+    components.set_defaults(handler=_run_components)
+    thermo.set_defaults(handler=lambda args: _no_subcommand(thermo))
+    module = _mixture_module()
+    if module is not None and hasattr(module, "register"):
+        module.register(commands)
+
+
+def _no_subcommand(parser) -> int:
+    parser.print_help(sys.stdout)
+    return 2
+
+
+def _values(text, kind: str, argument: str) -> list[float]:
+    if text is None:
+        return []
+    from ._units import parse_list
+
+    return parse_list(text, kind, argument)
+
+
+def _single(text, kind: str, argument: str):
+    if text is None:
+        return None
+    from ._units import parse_quantity
+
+    return parse_quantity(text, kind, argument)
+
+
+def _fluid(args) -> PureFluid:
+    extra = load_components(args.components_file) if args.components_file else ()
+    own = [name for name in ("tc", "pc", "omega") if getattr(args, name) is not None]
+    if args.fluid is not None and own:
+        raise InputError(
+            f"--fluid and --{own[0]} cannot be combined: name a fluid from the table with --fluid, or give "
+            "your own with --tc, --pc and --omega"
+        )
+    if args.fluid is not None:
+        component = lookup(args.fluid, extra=extra, argument="--fluid")
+    elif own:
+        missing = [f"--{name}" for name in ("tc", "pc", "omega") if getattr(args, name) is None]
+        if missing:
+            raise InputError(f"your own fluid needs --tc, --pc and --omega; missing {', '.join(missing)}")
+        try:
+            omega = float(args.omega)
+        except ValueError:
+            raise InputError(f"--omega {args.omega!r} is not a number") from None
+        component = custom_component(
+            args.name, _single(args.tc, "temperature", "--tc"), _single(args.pc, "pressure", "--pc"), omega,
+            argument="--tc/--pc/--omega",
+        )
+    else:
+        raise InputError("name the fluid with --fluid NAME (see `contin thermo components`) or give --tc, --pc and --omega")
+    return PureFluid(component, family(args.eos, "--eos"))
+
+
+def _format_row(columns, row) -> str:
+    return ", ".join(f"{c} = {v:.8g}" for c, v in zip(columns, row))
+
+
+def _summary(result: CurveResult) -> str:
+    c, f = result.component, result.family
+    lines = [
+        f"{result.kind} of {c.name} with {f.label} (Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g})",
+        f"  status   : {result.status} - {result.message}",
+        f"  points   : {len(result.points)} (Newton iterations {result.stats.get('newton_iterations')}, "
+        f"trace {1e3 * float(result.stats.get('trace_seconds', 0.0)):.1f} ms)",
+    ]
+    if len(result.points):
+        lines.append(f"  first    : {_format_row(result.columns, result.points[0])}")
+    for point in result.special_points:
+        values = ", ".join(f"{k} = {v:.10g}" for k, v in point["values"].items())
+        lines.append(f"  {point['kind']:<9}: {values}")
+    for row in result.at:
+        lines.append(f"  at       : {_format_row(result.columns, row)}")
+    lines.append("  units    : " + ", ".join(f"{col} [{result.units[col] or '-'}]" for col in result.columns))
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def _emit(result: CurveResult, args) -> int:
+    if args.csv:
+        result.to_csv(args.csv)
+    if args.plot:
+        from ._plot_pure import plot_pure
+
+        plot_pure(result, args.plot)
+    if args.json:
+        print(json.dumps(result.to_dict()))
+    else:
+        print(_summary(result))
+    return 0 if result.success else 1
+
+
+def run_pure(args) -> int:
+    """Handler of ``contin thermo saturation|spinodal|critical`` for one fluid; returns the exit status."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        fluid = _fluid(args)
+    for warning in caught:
+        print(f"contin: warning: {warning.message}", file=sys.stderr)
+    if args.curve == "critical":
+        return _emit(critical_point(fluid), args)
+    start = _single(args.from_temperature, "temperature", "--from-temperature")
+    temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
+    if args.curve == "spinodal":
+        return _emit(spinodal_curve(fluid, from_temperature=start, at_temperatures=temperatures), args)
+    pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+    return _emit(saturation_curve(fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures), args)
+
+
+def _run_critical(args) -> int:
+    if args.mixture is not None:
+        module = _mixture_module()
+        if module is None or not hasattr(module, "run_critical"):
+            raise InputError("--mixture needs the mixture commands, which are not installed in this version")
+        return int(module.run_critical(args) or 0)
+    if args.kij is not None or args.component:
+        raise InputError("--kij and --component apply to mixtures only; add --mixture, or drop them")
+    if args.eos is None:
+        raise InputError("--eos is required: choose vdw, rk, srk or pr")
+    return run_pure(args)
+
+
+def _run_components(args) -> int:
+    table = all_components()
+    if args.json:
+        print(json.dumps({"components": [
+            {"name": c.name, "Tc": c.Tc, "Pc": c.Pc, "omega": c.omega, "aliases": list(c.aliases), "source": c.source}
+            for c in table]}))
+        return 0
+    width = max(len(c.name) for c in table)
+    print(f"{'name'.ljust(width)}  {'Tc / K':>8}  {'Pc / Pa':>10}  {'omega':>7}  aliases")
+    for c in table:
+        print(f"{c.name.ljust(width)}  {c.Tc:8.2f}  {c.Pc:10.4g}  {c.omega:7.3f}  {', '.join(c.aliases)}")
+    sources = sorted({c.source for c in table})
+    print("sources: " + "; ".join(sources))
+    return 0

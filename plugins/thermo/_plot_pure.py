@@ -1,0 +1,71 @@
+"""Diagrams of pure-fluid results: P-T and T-rho (saturation), P-v (spinodal), critical point marked."""
+
+from __future__ import annotations
+
+import textwrap
+from pathlib import Path
+
+from ._caution import CAUTION
+
+__all__ = ["plot_pure"]
+
+
+def plot_pure(result, path: str | Path) -> Path:
+    """Draw ``result`` (a saturation, spinodal or critical :class:`CurveResult`) into ``path``.
+
+    Saturation: vapour pressure against temperature, and temperature against the two saturated
+    densities. Spinodal: both spinodal pressures against temperature, and temperature against the two
+    spinodal volumes. The critical point is marked on each panel; the caption gives fluid, model and
+    the caution.
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    path = Path(path)
+    figure, (left, right) = plt.subplots(1, 2, figsize=(11, 5.2))
+    critical = next((p["values"] for p in result.special_points if p["kind"] == "critical"), None)
+    col = result.column
+    if result.kind == "saturation":
+        left.plot(col("T"), col("P") / 1e5, "-", color="tab:blue", label="vapour pressure")
+        right.plot(col("rho_liquid"), col("T"), "-", color="tab:blue", label="saturated liquid")
+        right.plot(col("rho_vapour"), col("T"), "-", color="tab:red", label="saturated vapour")
+        left.set_ylabel("pressure P / bar")
+        right.set_xlabel("molar density rho / (mol/m³)")
+        right.set_xscale("log")
+        if len(result.at):
+            left.plot(result.at[:, 0], result.at[:, 1] / 1e5, "o", color="tab:green", ms=5, label="requested rows")
+        if critical:
+            right.plot([1.0 / critical["v"]], [critical["T"]], "k*", ms=12, label="critical point")
+    elif result.kind == "spinodal":
+        left.plot(col("T"), col("P_liquid_spinodal") / 1e5, "-", color="tab:blue", label="liquid spinodal")
+        left.plot(col("T"), col("P_vapour_spinodal") / 1e5, "-", color="tab:red", label="vapour spinodal")
+        right.plot(col("v_liquid_spinodal"), col("T"), "-", color="tab:blue", label="liquid spinodal")
+        right.plot(col("v_vapour_spinodal"), col("T"), "-", color="tab:red", label="vapour spinodal")
+        left.set_ylabel("pressure P / bar")
+        right.set_xlabel("molar volume v / (m³/mol)")
+        right.set_xscale("log")
+        if critical:
+            right.plot([critical["v"]], [critical["T"]], "k*", ms=12, label="critical point")
+    else:
+        left.plot(col("T"), col("P") / 1e5, "k*", ms=12)
+        right.plot(col("rho"), col("T"), "k*", ms=12)
+        left.set_ylabel("pressure P / bar")
+        right.set_xlabel("molar density rho / (mol/m³)")
+    if critical:
+        left.plot([critical["T"]], [critical["P"] / 1e5], "k*", ms=12, label="critical point")
+    left.set_xlabel("temperature T / K")
+    right.set_ylabel("temperature T / K")
+    for axes in (left, right):
+        axes.grid(True, alpha=0.3)
+        if axes.get_legend_handles_labels()[0]:
+            axes.legend(loc="best", fontsize=9)
+    c = result.component
+    figure.suptitle(f"{result.kind} of {c.name}, {result.family.label} equation of state")
+    caption = (f"Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g} ({c.source}). " + CAUTION)
+    figure.text(0.5, 0.01, "\n".join(textwrap.wrap(caption, 150)), ha="center", va="bottom", fontsize=7.5)
+    figure.tight_layout(rect=(0, 0.08, 1, 0.95))
+    figure.savefig(path, dpi=110)
+    plt.close(figure)
+    return path
