@@ -118,6 +118,15 @@ def _smooth(expr: sympy.Expr) -> sympy.Expr:
     return expr
 
 
+def _to_symengine(expr: sympy.Basic):
+    """Convert a sympy object (never text: text only ever goes through the safe parser) to symengine."""
+    import symengine
+
+    if not isinstance(expr, sympy.Basic):
+        raise TypeError(f"expected a sympy expression, got {type(expr).__name__}")
+    return symengine.sympify(expr)
+
+
 class _Layout:
     """Where each output of the compiled function goes: residual, then dF/du and dF/dp nonzeros."""
 
@@ -146,8 +155,8 @@ def _derivatives(
     if backend == "symengine":
         import symengine
 
-        converted = [symengine.sympify(expr) for expr in residuals]  # sympy objects, never text
-        engine_variables = [symengine.sympify(v) for v in variables]
+        converted = [_to_symengine(expr) for expr in residuals]  # sympy objects, never text
+        engine_variables = [_to_symengine(v) for v in variables]
     else:
         converted = list(residuals)
     u_part: list[tuple[tuple[int, int], Any]] = []
@@ -162,7 +171,7 @@ def _derivatives(
                 # symengine cannot differentiate abs/min/max: sympy does, then it is converted.
                 derivative = _smooth(sympy.diff(expr, variables[j]))
                 if backend == "symengine":
-                    derivative = symengine.sympify(derivative)
+                    derivative = _to_symengine(derivative)
             if derivative == 0:
                 continue
             (u_part if j < n else p_part).append(((i, j), derivative))
@@ -217,7 +226,7 @@ def _build(residuals, variables, n, backend):
     if backend == "symengine":
         import symengine
 
-        engine_variables = [symengine.sympify(v) for v in variables]
+        engine_variables = [_to_symengine(v) for v in variables]
         residual_function = symengine.Lambdify(engine_variables, converted, backend="llvm", cse=True, real=True)
         full_function = symengine.Lambdify(
             engine_variables, [*converted, *derivatives], backend="llvm", cse=True, real=True
@@ -551,25 +560,26 @@ def _finite(value: object, argument: str) -> float:
 
 def _as_expression(value: object, table: Mapping[str, sympy.Expr], equation: str, label: str | None = None) -> sympy.Expr:
     """Equation text or sympy expression -> sympy expression in the system's symbols."""
+    where = label or f"equation {equation!r}"
     if isinstance(value, str):
-        return parse_expression(value, table, label=label or f"equation {equation!r}")
+        return parse_expression(value, table, label=where)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         value = sympy.Float(value)
     if not isinstance(value, sympy.Basic) or not isinstance(value, sympy.Expr):
-        raise InputError(f"equation {equation!r} is {type(value).__name__}; give text or a sympy expression")
+        raise InputError(f"{where} is {type(value).__name__}; give text or a sympy expression")
     replace = {}
     for symbol in sorted(value.free_symbols, key=lambda s: s.name):
         if symbol.name not in table:
             hint = suggest(symbol.name, table)
-            raise InputError(f"equation {equation!r} uses symbol {symbol.name!r}, which is not declared{hint}")
+            raise InputError(f"{where} uses symbol {symbol.name!r}, which is not declared{hint}")
         replace[symbol] = table[symbol.name]
     result = value.xreplace(replace)
     if result.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo):
-        raise InputError(f"equation {equation!r} is infinite or undefined (a division by zero?)")
+        raise InputError(f"{where} is infinite or undefined (a division by zero?)")
     unsupported = sorted({type(f).__name__ for f in result.atoms(sympy.Function) if not _supported(f)})
     if unsupported:
         raise InputError(
-            f"equation {equation!r} uses {', '.join(unsupported)}, which contin cannot compile; allowed "
+            f"{where} uses {', '.join(unsupported)}, which contin cannot compile; allowed "
             f"functions: {', '.join(sorted(FUNCTIONS))}"
         )
     return result
@@ -595,16 +605,14 @@ def compile_expression(system: SymbolicSystem, expression: str | sympy.Expr, *, 
     """
     if not isinstance(system, SymbolicSystem):
         raise InputError("compile_expression needs a SymbolicSystem (its names give the expression meaning)")
-    expr = _as_expression(expression, system._names, "?") if not isinstance(expression, str) else parse_expression(
-        expression, system._names, label=label
-    )
+    expr = _as_expression(expression, system._names, label, label)
     variables = system._variables()
     rename = {system.symbols[name]: v for name, v in zip((*system.unknowns, *system.parameters), variables)}
     expr = _smooth(expr.xreplace(rename))
     if system.backend == "symengine":
         import symengine
 
-        function = symengine.Lambdify([symengine.sympify(v) for v in variables], [symengine.sympify(expr)], backend="llvm", real=True)
+        function = symengine.Lambdify([_to_symengine(v) for v in variables], [_to_symengine(expr)], backend="llvm", real=True)
 
         def evaluate(u: np.ndarray, p: np.ndarray) -> float:
             return float(np.asarray(function(system._inputs(u, p))).reshape(-1)[0])

@@ -8,6 +8,8 @@ import subprocess
 
 import pytest
 import sympy
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from contin._errors import InputError
 from contin._parse import MAX_LENGTH, parse_expression
@@ -194,3 +196,16 @@ def test_undeclared_name_gets_a_suggestion():
 def test_unknown_function_gets_a_suggestion():
     with pytest.raises(InputError, match="did you mean 'exp'"):
         parse("expp(u)")
+
+
+@settings(derandomize=True, max_examples=60, deadline=None)
+@given(
+    st.floats(-1e6, 1e6, allow_nan=False), st.floats(-1e6, 1e6, allow_nan=False),
+    st.integers(-12, 12), st.floats(0.1, 10.0),
+)
+def test_numbers_round_trip_exactly(a, b, power, value):
+    """For all coefficients, the parsed expression evaluates as the same arithmetic done in Python."""
+    expression = parse(f"{a!r}*u**{power} + {b!r}*p - (u - {b!r})/2")
+    got = float(expression.subs({u: value, p: 3.0}))
+    want = a * value**power + b * 3.0 - (value - b) / 2
+    assert got == pytest.approx(want, rel=1e-12, abs=1e-12 * (abs(a) + abs(b) + 1))

@@ -5,6 +5,8 @@ from __future__ import annotations
 import warnings
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from contin._errors import InputError
 from contin._structure import StructureWarning, analyse_structure
@@ -73,3 +75,27 @@ def test_summary_is_reported_by_symbolic_system():
         "equations": 2, "unknowns": 2, "jacobian_nonzeros": 3, "jacobian_density": 0.75, "blocks": 2,
         "largest_block": 1, "block_sizes": [1, 1], "independent_subsystems": 1,
     }
+
+
+@settings(derandomize=True, max_examples=50, deadline=None)
+@given(st.integers(1, 12).flatmap(lambda n: st.tuples(
+    st.just(n), st.permutations(range(n)), st.lists(st.tuples(st.integers(0, n - 1), st.integers(0, n - 1)), max_size=3 * n))))
+def test_any_system_with_a_perfect_matching_is_accepted_and_blocked(case):
+    """For all incidences containing a permutation: a valid matching, and blocks partitioning the system."""
+    n, permutation, extra = case
+    equations, unknowns = [f"e{i}" for i in range(n)], [f"x{j}" for j in range(n)]
+    incidence = {e: {unknowns[permutation[i]]} for i, e in enumerate(equations)}
+    for i, j in extra:
+        incidence[equations[i]].add(unknowns[j])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", StructureWarning)
+        structure = analyse_structure(equations, unknowns, incidence)
+    assert sorted(structure.matching) == sorted(equations)
+    assert sorted(structure.matching.values()) == sorted(unknowns)
+    assert all(v in incidence[e] for e, v in structure.matching.items())
+    assert sorted(e for block, _ in structure.blocks for e in block) == sorted(equations)
+    # Block lower-triangular order: an equation uses only unknowns of its own block or earlier blocks.
+    solved: set[str] = set()
+    for block_equations, block_unknowns in structure.blocks:
+        solved |= set(block_unknowns)
+        assert all(incidence[e] <= solved for e in block_equations)
