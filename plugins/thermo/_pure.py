@@ -725,6 +725,16 @@ def _stats(branch: contin.Branch, extra_seconds: float, extra_iterations: int) -
     return stats
 
 
+def _snap(row: list[float], requested: dict[int, list[float]]) -> list[float]:
+    """Show a requested value exactly where the located row differs from it only by rounding
+    (the engine locates T/Tc and ln P; converting back costs an ulp or two)."""
+    for column, values in requested.items():
+        for value in values:
+            if abs(row[column] - value) <= 1e-13 * abs(value):
+                row[column] = value
+    return row
+
+
 def _saturation_row(fluid: PureFluid, x: np.ndarray) -> list[float]:
     """Output row from engine coordinates (mu, sigma, pi, theta)."""
     mu, sigma, pi, theta = (float(v) for v in x)
@@ -857,7 +867,7 @@ def saturation_curve(
                 "values": {"T": critical_row[0], "P": critical_row[1], "v": critical_row[2]},
                 "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
             })
-    at_rows = [_saturation_row(pure, sp.point) for sp in branch.at]
+    at_rows = [_snap(_saturation_row(pure, sp.point), {0: temperatures, 1: pressures}) for sp in branch.at]
     if critical_row is not None:
         at_rows += [critical_row for T in temperatures if T >= pure.component.Tc]
         at_rows += [critical_row for P in pressures if P >= Pc]
@@ -927,7 +937,7 @@ def spinodal_curve(
                 "values": {"T": critical_row[0], "P": critical_row[2], "v": critical_row[1]},
                 "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
             })
-    at_rows = [_spinodal_row(pure, sp.point) for sp in branch.at]
+    at_rows = [_snap(_spinodal_row(pure, sp.point), {0: temperatures}) for sp in branch.at]
     if critical_row is not None:
         at_rows += [critical_row for T in temperatures if T >= pure.component.Tc]
     at_rows.sort(key=lambda row: row[0])
