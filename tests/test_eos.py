@@ -132,3 +132,18 @@ def test_unknown_family_is_refused_with_a_suggestion():
 def test_family_names_are_case_insensitive():
     assert family("PR") is family("pr")
     assert family(" Srk ").label == "Soave-Redlich-Kwong"
+
+
+@pytest.mark.parametrize("name", sorted(FAMILIES))
+def test_scalar_alpha_of_the_pure_fluid_matches_the_family(name):
+    # The hot-path scalar copy in contin_thermo._pure must be the family's alpha (common practice).
+    from contin_thermo._components import custom_component
+    from contin_thermo._pure import PureFluid
+
+    f = family(name)
+    fluid = PureFluid(custom_component("x", 350.0, 4e6, 0.6), f)
+    for theta in (0.3, 0.9, 1.0, 1.7):
+        alpha, dalpha, _ = f.alpha(theta * 350.0, 350.0, 0.6)
+        got = fluid.alpha(theta)
+        assert got[0] == pytest.approx(float(alpha), rel=1e-14)
+        assert got[1] == pytest.approx(float(dalpha) * 350.0, rel=1e-13, abs=1e-15)

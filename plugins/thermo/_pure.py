@@ -93,6 +93,7 @@ class PureFluid:
         family: the cubic equation of state.
         b: co-volume, m^3/mol.
         k: Omega_a / Omega_b.
+        m: slope of the Soave-type alpha function (0 for the other forms).
         terms: partial-fraction terms of the pressure, ``(offset, order, is_repulsive, beta)``:
             p = sum_j c_j (x + offset_j)^-order_j with c_j = theta (repulsive) or beta_j k alpha(theta).
     """
@@ -101,12 +102,14 @@ class PureFluid:
     family: CubicFamily
     b: float = field(init=False)
     k: float = field(init=False)
+    m: float = field(init=False)
     terms: tuple[tuple[float, int, bool, float], ...] = field(init=False)
 
     def __post_init__(self) -> None:
         f = self.family
         object.__setattr__(self, "b", f.omega_b * GAS_CONSTANT * self.component.Tc / self.component.Pc)
         object.__setattr__(self, "k", f.omega_a / f.omega_b)
+        object.__setattr__(self, "m", float(f.m(self.component.omega)))
         if f.delta1 == f.delta2:
             attractive = ((f.delta1, 2, False, -1.0),)
         else:
@@ -120,10 +123,16 @@ class PureFluid:
         return GAS_CONSTANT * self.component.Tc / self.b
 
     def alpha(self, theta: float) -> tuple[float, float]:
-        """alpha and d alpha/d theta at reduced temperature ``theta``."""
-        Tc = self.component.Tc
-        a, da, _ = self.family.alpha(theta * Tc, Tc, self.component.omega)
-        return float(a), float(da) * Tc
+        """alpha and d alpha/d theta at reduced temperature ``theta`` (the family's alpha, in scalars:
+        this sits in the hot path, where numpy's per-call overhead would dominate)."""
+        form = self.family.alpha_form
+        if form == "constant":
+            return 1.0, 0.0
+        root = math.sqrt(theta)
+        if form == "inverse_root":
+            return 1.0 / root, -0.5 / (root * theta)
+        g = 1.0 + self.m * (1.0 - root)
+        return g * g, -self.m * g / root
 
     def coefficients(self, theta: float) -> tuple[list[float], list[float]]:
         """Term coefficients c_j(theta) and their theta-derivatives."""
