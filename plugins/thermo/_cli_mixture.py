@@ -1,0 +1,235 @@
+"""Command line of the mixture tools: ``contin thermo envelope|pxy|txy`` and ``critical --mixture``."""
+
+from __future__ import annotations
+
+import json
+import sys
+
+import numpy as np
+
+from contin import InputError
+
+__all__ = ["register", "run_critical", "parse_mixture", "parse_kij", "build_mixture"]
+
+
+def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bool = True):
+    """Components and mole fractions from ``"methane=0.80,ethane=0.20"`` (or ``"A,B"`` without fractions).
+
+    Raises:
+        InputError: unknown component (with a suggestion), duplicates, a single component, fractions
+            negative, zero, all zero or not summing to 1 within 1e-6 (unless ``normalise``).
+    """
+    from ._components import lookup
+
+    parts = [p.strip() for p in str(text).split(",") if p.strip()]
+    if not parts:
+        raise InputError("--mixture is empty: give e.g. 'methane=0.8,ethane=0.2'")
+    components, values = [], []
+    for part in parts:
+        if fractions:
+            if "=" not in part:
+                raise InputError(f"--mixture entry {part!r} needs a mole fraction: NAME=FRACTION")
+            name, value = part.rsplit("=", 1)
+            try:
+                number = float(value)
+            except ValueError:
+                raise InputError(f"--mixture entry {part!r}: {value.strip()!r} is not a number") from None
+            values.append(number)
+        else:
+            name = part.split("=", 1)[0]
+        components.append(lookup(name.strip(), extra, argument="--mixture"))
+    names = [c.name for c in components]
+    for name in names:
+        if names.count(name) > 1:
+            raise InputError(f"--mixture names {name!r} twice (perhaps under an alias); give each component once")
+    if len(components) == 1:
+        raise InputError(f"--mixture holds only {names[0]!r}: for one fluid use 'contin thermo saturation --fluid {names[0]}'")
+    if not fractions:
+        return components, None
+    z = np.array(values)
+    if not np.all(np.isfinite(z)) or np.any(z < 0):
+        bad = names[int(np.flatnonzero(~(np.isfinite(z) & (z >= 0)))[0])]
+        raise InputError(f"--mixture: the mole fraction of {bad!r} is negative; mole fractions must be positive")
+    if not np.any(z > 0):
+        raise InputError("--mixture: every mole fraction is zero; give positive mole fractions")
+    if np.any(z == 0):
+        bad = names[int(np.flatnonzero(z == 0)[0])]
+        raise InputError(f"--mixture: the mole fraction of {bad!r} is zero; leave absent components out")
+    if abs(z.sum() - 1.0) > 1e-6:
+        if not normalise:
+            raise InputError(f"--mixture: the mole fractions sum to {z.sum():.8g}, not 1; fix them or pass --normalise")
+    return components, z / z.sum()
+
+
+def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
+    """Symmetric kij matrix from ``"methane-ethane=0.01,..."``; zero for pairs not given.
+
+    Names may contain hyphens (``n-butane``): every split at a hyphen is tried and the one whose two
+    sides are both components of the mixture is used.
+
+    Raises:
+        InputError: a malformed entry, a pair not in the mixture, a value outside (-1, 1), a pair of
+            a component with itself.
+    """
+    from ._components import lookup
+
+    n = len(names)
+    kij = np.zeros((n, n))
+    if not text:
+        return kij
+    for part in [p.strip() for p in str(text).split(",") if p.strip()]:
+        if "=" not in part:
+            raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
+        pair, value = part.rsplit("=", 1)
+        try:
+            number = float(value)
+        except ValueError:
+            raise InputError(f"--kij entry {part!r}: {value.strip()!r} is not a number") from None
+        found = None
+        pieces = pair.strip().split("-")
+        for k in range(1, len(pieces)):
+            a, b = "-".join(pieces[:k]), "-".join(pieces[k:])
+            try:
+                ca, cb = lookup(a, extra, argument="--kij"), lookup(b, extra, argument="--kij")
+            except InputError:
+                continue
+            if ca.name in names and cb.name in names:
+                found = (names.index(ca.name), names.index(cb.name))
+                break
+        if found is None:
+            raise InputError(f"--kij pair {pair.strip()!r} is not a pair of components of the mixture ({', '.join(names)})")
+        i, j = found
+        if i == j:
+            raise InputError(f"--kij pair {pair.strip()!r} pairs a component with itself; kij is zero on the diagonal")
+        if not -1.0 < number < 1.0:
+            raise InputError(f"--kij {pair.strip()!r} = {number:g} lies outside (-1, 1)")
+        kij[i, j] = kij[j, i] = number
+    return kij
+
+
+def build_mixture(args, *, fractions: bool = True):
+    """(Mixture, z) from parsed arguments (``mixture``, ``kij``, ``component``, ``eos``, ``normalise``)."""
+    from ._components import parse_component
+    from ._eos import family
+    from ._mixture import Mixture
+
+    extra = tuple(parse_component(text) for text in (getattr(args, "component", None) or []))
+    components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
+                                  fractions=fractions)
+    kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
+    return Mixture(tuple(components), family(args.eos), kij), z
+
+
+def _common(parser, *, fractions: bool = True) -> None:
+    parser.add_argument("--mixture", required=True,
+                        help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'" if fractions
+                        else "the two components, e.g. 'propane,n-butane'")
+    parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
+    parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
+                        help="a user component (K, Pa); repeatable")
+    parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state")
+    parser.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+    parser.add_argument("--csv", default=None, metavar="FILE", help="write the points as CSV")
+    if fractions:
+        parser.add_argument("--normalise", action="store_true", help="scale the mole fractions to sum to 1")
+
+
+def register(thermo_subparsers) -> None:
+    """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
+    envelope = thermo_subparsers.add_parser("envelope", help="phase envelope of a mixture")
+    _common(envelope)
+    envelope.add_argument("--from-pressure", type=float, default=1e5, metavar="PA",
+                          help="pressure of the low-pressure dew and bubble points (default 1e5 Pa)")
+    envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
+    envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
+    envelope.set_defaults(handler=run_envelope)
+    for name, option, unit in (("pxy", "--temperature", "K"), ("txy", "--pressure", "PA")):
+        parser = thermo_subparsers.add_parser(name, help=f"binary {name} diagram")
+        _common(parser, fractions=False)
+        parser.add_argument(option, type=float, required=True, metavar=unit)
+        parser.set_defaults(handler=run_binary, diagram=name)
+
+
+def _fail(error: Exception) -> int:
+    print(f"error: {error}", file=sys.stderr)
+    return 2
+
+
+def run_envelope(args) -> int:
+    """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
+    from ._envelope import trace_envelope
+
+    try:
+        mixture, z = build_mixture(args)
+        quality = []
+        if args.quality:
+            for q in str(args.quality).split(","):
+                try:
+                    quality.append(float(q))
+                except ValueError:
+                    raise InputError(f"--quality {q.strip()!r} is not a number") from None
+        envelope = trace_envelope(mixture, z, from_pressure=args.from_pressure, quality=quality)
+    except InputError as error:
+        return _fail(error)
+    if args.csv:
+        envelope.to_csv(args.csv)
+    if getattr(args, "plot", None):
+        from ._plot_envelope import plot_envelope
+
+        plot_envelope(envelope, args.plot)
+    if args.json:
+        print(json.dumps(envelope.to_dict()))
+    else:
+        print("\n".join(envelope.summary()))
+    return 0 if envelope.success else 1
+
+
+def run_binary(args) -> int:
+    """``contin thermo pxy|txy``."""
+    from ._binary import pxy, txy
+
+    try:
+        mixture, _ = build_mixture(args, fractions=False)
+        diagram = pxy(mixture, args.temperature) if args.diagram == "pxy" else txy(mixture, args.pressure)
+    except InputError as error:
+        return _fail(error)
+    if args.csv:
+        diagram.to_csv(args.csv)
+    if args.json:
+        print(json.dumps(diagram.to_dict()))
+    else:
+        print("\n".join(diagram.summary()))
+    return 0 if diagram.success else 1
+
+
+def run_critical(args) -> int:
+    """``contin thermo critical --mixture ...``: the Heidemann-Khalil critical point of the mixture."""
+    import contin
+
+    from ._caution import CAUTION
+    from ._mixture_critical import critical_point
+    from ._report import summary_lines, write_csv
+
+    try:
+        mixture, z = build_mixture(args)
+        point = critical_point(mixture, z)
+    except InputError as error:
+        return _fail(error)
+    columns = ("T", "P", "v")
+    row = [point.T, float(point.P), point.v]
+    special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
+                "info": {"eigenvalue": point.eigenvalue, "cubic_form": point.cubic}}]
+    if getattr(args, "csv", None):
+        write_csv(args.csv, columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, title="mixture critical point",
+                  notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    if getattr(args, "json", False):
+        document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
+                                        [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
+                                                             "newton_iterations": 0, "jacobian_evaluations": 0},
+                                        caution=CAUTION, model=mixture.family.label)
+        print(json.dumps(document))
+    else:
+        print("\n".join(summary_lines("mixture critical point", [
+            ("model", mixture.family.label), ("T", f"{point.T:.6f} K"), ("P", f"{point.P:.6e} Pa"),
+            ("v", f"{point.v:.6e} m3/mol")])))
+    return 0

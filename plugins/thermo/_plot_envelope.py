@@ -1,0 +1,50 @@
+"""P-T plot of a phase envelope with the critical point, cricondenbar and cricondentherm marked."""
+
+from __future__ import annotations
+
+import textwrap
+
+import numpy as np
+
+from ._caution import CAUTION
+
+__all__ = ["plot_envelope"]
+
+_MARKERS = {"critical": ("o", "critical point"), "cricondenbar": ("^", "cricondenbar"),
+            "cricondentherm": (">", "cricondentherm")}
+
+
+def plot_envelope(envelope, path) -> None:
+    """Draw ``envelope`` in the P-T plane (bar against K) to ``path`` (format from the suffix), Agg backend."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    T = envelope.column("T")
+    P = envelope.column("P") / 1e5
+    side = envelope.column("side")
+    figure, axes = plt.subplots(figsize=(7.5, 5.5))
+    for name, style in (("dew", "-"), ("bubble", "--")):
+        mask = side == name
+        axes.plot(np.where(mask, T, np.nan), np.where(mask, P, np.nan), style, color="tab:blue", label=f"{name} curve")
+    for line in envelope.quality_lines:
+        axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
+    for sp in envelope.special_points:
+        marker, label = _MARKERS.get(sp["kind"], ("x", sp["kind"]))
+        t, p = sp["values"]["T"], sp["values"]["P"] / 1e5
+        axes.plot([t], [p], marker, color="tab:red", markersize=8)
+        right = t > 0.5 * (np.nanmin(T) + np.nanmax(T))
+        axes.annotate(f"{label}\n{t:.2f} K, {p:.2f} bar", (t, p), textcoords="offset points",
+                      xytext=(-10, 6) if right else (8, 6), ha="right" if right else "left", fontsize=8)
+    axes.set_xlabel("temperature T / K")
+    axes.set_ylabel("pressure P / bar")
+    feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
+    axes.set_title(f"Phase envelope ({envelope.mixture.family.label})", fontsize=11)
+    axes.legend(fontsize=8, loc="upper left")
+    axes.grid(alpha=0.3)
+    caption = f"Feed: {feed}. " + CAUTION
+    figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
+    figure.subplots_adjust(bottom=0.2)
+    figure.savefig(path, dpi=120)
+    plt.close(figure)

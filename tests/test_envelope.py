@@ -1,0 +1,144 @@
+"""Mixture phase envelopes: one run through cricondentherm, critical point and cricondenbar."""
+
+import math
+
+import numpy as np
+import pytest
+
+from contin import InputError
+from contin_thermo._components import lookup
+from contin_thermo._eos import family
+from contin_thermo._envelope import EnvelopeSystem, dew_point, trace_envelope
+from contin_thermo._mixture import Mixture
+from contin_thermo._mixture_critical import critical_point
+
+# An invented lean gas (demo composition, not a published mixture).
+NAMES = ["methane", "ethane", "propane", "n-butane"]
+FEED = [0.80, 0.10, 0.06, 0.04]
+
+
+@pytest.fixture(scope="module")
+def gas():
+    mixture = Mixture(tuple(lookup(n) for n in NAMES), family("pr"))
+    return mixture, trace_envelope(mixture, FEED)
+
+
+def test_columns_and_sides(gas):
+    _, envelope = gas
+    assert envelope.columns[:6] == ("T", "P", "side", "v_feed", "v_incipient", "stable")
+    assert envelope.columns[6:] == tuple(f"K_{n}" for n in NAMES)
+    sides = list(envelope.column("side"))
+    assert set(sides) == {"dew", "bubble"}
+    # dew side first, then bubble side, one change only (common practice: one branch through the critical point)
+    change = sides.index("bubble")
+    assert all(s == "dew" for s in sides[:change]) and all(s == "bubble" for s in sides[change:])
+
+
+def test_complete_from_dew_to_bubble_at_one_bar(gas):
+    _, envelope = gas
+    assert envelope.success
+    P = envelope.column("P")
+    assert P[0] == pytest.approx(1e5, rel=1e-12) and P[-1] == pytest.approx(1e5, rel=1e-9)
+    assert envelope.rows[0][2] == "dew" and envelope.rows[-1][2] == "bubble"
+
+
+def test_three_special_points_located(gas):
+    _, envelope = gas
+    kinds = [sp["kind"] for sp in envelope.special_points]
+    assert sorted(kinds) == ["cricondenbar", "cricondentherm", "critical"]
+    T = envelope.column("T")
+    P = envelope.column("P")
+    assert envelope.special("cricondentherm")["values"]["T"] >= T.max() * (1 - 1e-12)
+    assert envelope.special("cricondenbar")["values"]["P"] >= P.max() * (1 - 1e-12)
+
+
+def test_zero_slopes_at_cricondenbar_and_cricondentherm(gas):
+    # dP/dT = 0 at the cricondenbar, dT/dP = 0 at the cricondentherm (definition; from the branch tangent)
+    _, envelope = gas
+    assert abs(envelope.special("cricondenbar")["info"]["dP_dT"]) < 1e-3  # Pa/K against ~1e6 Pa/K slopes
+    assert abs(envelope.special("cricondentherm")["info"]["dT_dP"]) < 1e-9
+
+
+def test_critical_point_agrees_with_heidemann_khalil(gas):
+    # Independent criterion: Heidemann & Khalil, AIChE J. 26 (1980) 769; the issue asks 1e-6 relative.
+    mixture, envelope = gas
+    sp = envelope.special("critical")["values"]
+    hk = critical_point(mixture, FEED, near=(sp["T"], sp["P"]))
+    assert sp["T"] == pytest.approx(hk.T, rel=1e-6)
+    assert sp["P"] == pytest.approx(hk.P, rel=1e-6)
+
+
+def test_no_point_on_trivial_solution_and_residuals_small(gas):
+    _, envelope = gas
+    K = np.array([row[6:] for row in envelope.rows])
+    assert np.min(np.max(np.abs(np.log(K)), axis=1)) > 1e-3
+    assert np.max(envelope.residual_norms) <= 1e-9
+
+
+def test_every_point_stable_for_a_lean_gas(gas):
+    # A light hydrocarbon gas has no second liquid phase (common practice).
+    _, envelope = gas
+    assert all(row[5] is True for row in envelope.rows)
+    assert envelope.metastable_stretches() == []
+
+
+def test_jacobian_matches_central_differences(gas):
+    mixture, _ = gas
+    for beta in (0.0, 0.4):
+        system = EnvelopeSystem(mixture, np.array(FEED), beta)
+        x0 = dew_point(mixture, np.array(FEED), 1e5)
+        u = x0[:-1] + 0.05
+        _, J, dp = system.evaluate(u, x0[-1])
+        h = 1e-6
+        numeric = np.column_stack([(system.evaluate(u + h * e, x0[-1], False)[0]
+                                    - system.evaluate(u - h * e, x0[-1], False)[0]) / (2 * h) for e in np.eye(u.size)])
+        assert np.max(np.abs(J - numeric) / (1 + np.abs(J))) < 1e-6
+        numeric_p = (system.evaluate(u, x0[-1] + h, False)[0] - system.evaluate(u, x0[-1] - h, False)[0]) / (2 * h)
+        assert np.max(np.abs(dp - numeric_p)) < 1e-6
+
+
+def test_pure_component_limit_matches_saturation():
+    # Issue 5 check: a trace of a second component (z2 = 1e-8) collapses onto the pure saturation
+    # curve, 1e-5 relative in P at the same T. The pure Psat comes from the equal-fugacity solve of the
+    # pure second component (x1 = 0 end of a Pxy diagram).
+    from contin_thermo._binary import _start
+
+    mixture = Mixture((lookup("propane"), lookup("n-butane")), family("pr"))
+    envelope = trace_envelope(mixture, [1 - 1e-8, 1e-8], check_stability=False)
+    assert envelope.success
+    flipped = Mixture((lookup("n-butane"), lookup("propane")), family("pr"))
+    checked = 0
+    for row in envelope.rows[:: max(1, len(envelope.rows) // 10)]:
+        T, P = row[0], row[1]
+        if T > 360:
+            continue
+        assert P == pytest.approx(math.exp(_start(flipped, "pxy", T)[2]), rel=1e-5)
+        checked += 1
+    assert checked >= 4
+
+
+def test_quality_lines_end_at_the_critical_point(gas):
+    mixture, envelope = gas
+    result = trace_envelope(mixture, FEED, quality=[0.5], check_stability=False)
+    line = result.quality_lines[0]
+    # Lines of constant vapour fraction meet at the critical point (common practice).
+    crit = envelope.special("critical")["values"]
+    distance = np.abs(line.T / crit["T"] - 1) + np.abs(line.P / crit["P"] - 1)
+    assert line.status in ("terminal_event", "bound_reached")
+    assert distance.min() < 1e-2
+
+
+@pytest.mark.parametrize(
+    "kwargs, message",
+    [
+        (dict(z=[0.5, 0.5, 0.2, -0.2]), "every mole fraction of the feed must be positive"),
+        (dict(z=[0.5, 0.3, 0.1, 0.05]), "sum to 0.95"),
+        (dict(z=[0.25] * 4, from_pressure=-1.0), "--from-pressure -1.0 must be a positive pressure"),
+        (dict(z=[0.25] * 4, quality=[1.5]), "--quality 1.5 must lie strictly between 0 and 1"),
+    ],
+)
+def test_bad_input(gas, kwargs, message):
+    mixture, _ = gas
+    z = kwargs.pop("z")
+    with pytest.raises(InputError, match=message.replace("(", r"\(")):
+        trace_envelope(mixture, z, **kwargs)
