@@ -205,3 +205,28 @@ def test_unknown_fluid_and_family_are_refused():
         saturation_curve("propan", "pr")
     with pytest.raises(InputError, match=r"unknown equation of state 'srkk'.*did you mean 'srk'\?"):
         saturation_curve("propane", "srkk")
+
+
+@pytest.mark.parametrize("order, offset", [(1, -1.0), (1, 1.0 - math.sqrt(2.0)), (1, 1.0), (2, 0.0)])
+def test_narrow_and_wide_formulas_agree_where_they_meet(order, offset):
+    # The closed forms switch from the (w, t) series to the (x_l, x_v) form at t/w^2 = 0.04; both
+    # describe one smooth function, so they agree there (common practice: check a piecewise formula
+    # at its seams).
+    from contin_thermo import _pure
+
+    mu = 0.9
+    w0 = 1.0 + offset + math.exp(mu)  # w at sigma = 0; solve t/w^2 = limit for sigma by bisection
+    def rho(sigma):
+        ph = _pure._Phases(mu, sigma)
+        w, _ = ph.term(offset)
+        return ph.t / (w * w)
+    low, high = 0.0, 4.0
+    for _ in range(200):
+        middle = 0.5 * (low + high)
+        low, high = (middle, high) if rho(middle) < _pure._SERIES_LIMIT else (low, middle)
+    below = _pure._saturation_terms(_pure._Phases(mu, low * (1 - 1e-9)), offset, order)
+    above = _pure._saturation_terms(_pure._Phases(mu, high * (1 + 1e-9)), offset, order)
+    assert rho(low * (1 - 1e-9)) < _pure._SERIES_LIMIT <= rho(high * (1 + 1e-9))
+    assert w0 > 0
+    for a, b in zip(below, above):
+        assert a == pytest.approx(b, rel=1e-6, abs=1e-12)

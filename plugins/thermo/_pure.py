@@ -500,8 +500,13 @@ class SaturationSystem(_CurveSystem):
 
     Unknowns: ``mean_log_volume`` mu = (a_l + a_v)/2, ``log_width_squared`` sigma = ((a_v - a_l)/2)^2
     with a = ln(v/b - 1), and ``log_pressure`` pi = ln(P b/(R Tc)); parameter ``reduced_temperature``
-    T/Tc. Equations: e^(2 mu) E1 = 0, e^(3 mu) cosh(sqrt sigma) E2 = 0 (scaled to order one along the
-    whole curve) and Pmean e^-pi - 1 = 0 with Pmean = (p(x_l) + p(x_v))/2.
+    T/Tc. Equations, each scaled to order one along the whole curve:
+
+    - ``equal_pressure``: e^(2 mu) E1 = 0;
+    - ``equal_area``: W^3 (E2 - E1/W) = 0 with W = m - 1 (the combination keeps the two rows apart at
+      low temperature, where both are dominated by the steep liquid pressure);
+    - ``pressure``: (Pmean + W E1) e^-pi - 1 = 0, the mean pressure where E1 = 0, written without
+      the liquid pressure's cancellation.
     """
 
     def __init__(self, fluid: PureFluid) -> None:
