@@ -112,3 +112,13 @@ def test_unusual_omega_warns_but_runs(capsys):
 def test_missing_eos_is_a_usage_error(capsys):
     code, _, err = run(capsys, "saturation", "--fluid", "propane")
     assert code == 2 and "--eos" in err
+
+
+def test_critical_with_mixture_dispatches_to_the_mixture_commands(capsys):
+    pytest.importorskip("contin_thermo._cli_mixture")
+    code, out, _ = run(capsys, "critical", "--mixture", "methane=0.5,ethane=0.5", "--eos", "pr", "--json")
+    assert code == 0
+    document = json.loads(out)
+    (point,) = [p for p in document["special_points"] if p["kind"] == "critical"]
+    # A binary's critical temperature lies between its components' (common practice for such a pair).
+    assert 190.56 < point["values"]["T"] < 305.32
