@@ -230,3 +230,17 @@ def test_narrow_and_wide_formulas_agree_where_they_meet(order, offset):
     assert w0 > 0
     for a, b in zip(below, above):
         assert a == pytest.approx(b, rel=1e-6, abs=1e-12)
+
+
+def test_every_table_fluid_and_family_lands_on_its_critical_point():
+    # Robustness set: the whole component table with all four families, from the default 0.4 Tc.
+    from contin_thermo._components import all_components
+
+    failures = []
+    for component in all_components():
+        for eos in ("vdw", "rk", "srk", "pr"):
+            result = saturation_curve(component, eos)
+            landing = result.special("critical")["values"] if result.success else None
+            if landing is None or abs(landing["T"] / component.Tc - 1) > 1e-9 or abs(landing["P"] / component.Pc - 1) > 1e-9:
+                failures.append((component.name, eos, result.status))
+    assert failures == []
