@@ -122,6 +122,46 @@ _REFUSED = {
 }
 
 
+class _Library:
+    """How to build numbers, sums, products, powers and function calls in one symbolic library."""
+
+    def __init__(self, name: str) -> None:
+        self.name = name
+        if name == "sympy":
+            self.integer, self.real = sympy.Integer, sympy.Float
+            self.add = lambda terms: sympy.Add(*terms)
+            self.mul = lambda terms: sympy.Mul(*terms)
+            self.pow = sympy.Pow
+            self.functions = {name: entry[0] for name, entry in {**FUNCTIONS, **_CACHE_FUNCTIONS}.items()}
+            self.constants = dict(CONSTANTS)
+            self.undefined = (sympy.zoo, sympy.nan, sympy.oo, -sympy.oo)
+            return
+        import symengine
+
+        self.integer, self.real = symengine.Integer, symengine.RealDouble
+        self.add = lambda terms: symengine.Add(*terms)
+        self.mul = lambda terms: symengine.Mul(*terms)
+        self.pow = lambda base, exponent: base**exponent
+        self.functions = {
+            "exp": symengine.exp, "log": symengine.log, "sqrt": symengine.sqrt, "sin": symengine.sin,
+            "cos": symengine.cos, "tan": symengine.tan, "asin": symengine.asin, "acos": symengine.acos,
+            "atan": symengine.atan, "atan2": symengine.atan2, "sinh": symengine.sinh, "cosh": symengine.cosh,
+            "tanh": symengine.tanh, "asinh": symengine.asinh, "acosh": symengine.acosh, "atanh": symengine.atanh,
+            "abs": symengine.Abs, "min": symengine.Min, "max": symengine.Max,
+        }
+        self.constants = {"pi": symengine.pi, "E": symengine.E}
+        self.undefined = (symengine.zoo, symengine.nan, symengine.oo, -symengine.oo)
+
+    def is_undefined(self, expr) -> bool:
+        return any(expr.has(value) for value in self.undefined)
+
+
+def _library(name: str) -> _Library:
+    if name not in ("sympy", "symengine"):
+        raise ValueError(f"library must be 'sympy' or 'symengine', not {name!r}")
+    return _Library(name)
+
+
 class _Refused(Exception):
     """Internal: a refusal at a node; turned into an InputError with the column."""
 
@@ -135,6 +175,7 @@ def parse_expression(
     names: Mapping[str, sympy.Expr],
     *,
     label: str = "expression",
+    library: str = "sympy",
     _cache_format: bool = False,
 ) -> sympy.Expr:
     """Parse expression text into a sympy expression, allowing only arithmetic on declared names.
@@ -145,9 +186,11 @@ def parse_expression(
             unknown or parameter, a number for a constant).
         label: where the text comes from, put in front of every message, e.g.
             ``"reactor.toml: equation 'balance' (line 12)"``.
+        library: ``"sympy"`` (default) or ``"symengine"``: which library builds the expression
+            (``names`` must hold that library's objects).
 
     Returns:
-        The sympy expression.
+        The expression (a sympy or a symengine object).
 
     Raises:
         InputError: ``"<label>, column <c>: <what is wrong>"`` for anything outside the allow-list,
@@ -181,7 +224,7 @@ def parse_expression(
         ) from None
     except ValueError as error:  # e.g. a literal with too many digits, a null character
         raise InputError(f"{label}: cannot read the expression: {error}") from None
-    builder = _Builder(text.strip(), names, _cache_format)
+    builder = _Builder(text.strip(), names, _cache_format, _library(library))
     try:
         result = builder.build(tree.body, 0)
     except _Refused as refusal:
@@ -190,7 +233,7 @@ def parse_expression(
         raise InputError(f"{where}: {refusal}") from None
     except RecursionError:
         raise InputError(f"{label}: the expression is nested too deeply (limit {MAX_DEPTH} levels)") from None
-    if result.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo):
+    if builder.library.is_undefined(result):
         raise InputError(f"{label}: the expression is infinite or undefined (a division by zero?)")
     return result
 
@@ -198,9 +241,10 @@ def parse_expression(
 class _Builder:
     """Walks an allow-listed ast and builds the sympy expression."""
 
-    def __init__(self, text: str, names: Mapping[str, sympy.Expr], cache_format: bool) -> None:
+    def __init__(self, text: str, names: Mapping[str, sympy.Expr], cache_format: bool, library: _Library) -> None:
         self.text = text
         self.names = names
+        self.library = library
         self.functions = {**FUNCTIONS, **_CACHE_FUNCTIONS} if cache_format else FUNCTIONS
 
     def column(self, node: ast.AST | None) -> int | None:
@@ -254,23 +298,23 @@ class _Builder:
             for op, operand in reversed(operands):
                 value = self.build(operand, depth + 1)
                 terms.append(value if op is ast.Add else -value)
-            return sympy.Add(*terms)
+            return self.library.add(terms)
         for op, operand in reversed(operands):
             value = self.build(operand, depth + 1)
             if op is ast.Div:
                 if value == 0:
                     raise _Refused("division by zero", operand)
-                value = sympy.Pow(value, -1)
+                value = self.library.pow(value, self.library.integer(-1))
             terms.append(value)
-        return sympy.Mul(*terms)
+        return self.library.mul(terms)
 
     def power(self, node: ast.BinOp, depth: int) -> sympy.Expr:
         base = self.build(node.left, depth + 1)
         exponent = self.build(node.right, depth + 1)
         if exponent.is_Rational:
-            top = abs(int(exponent.p))
+            top = abs(int(exponent.as_numer_denom()[0]))
             if base.is_Rational:
-                size = max(abs(int(base.p)), abs(int(base.q)))
+                size = max(abs(int(part)) for part in base.as_numer_denom())
                 bits = top * math.log2(size) if size > 1 else 0.0
                 if bits > MAX_POWER_BITS:
                     raise _Refused(
@@ -282,9 +326,9 @@ class _Builder:
                 raise _Refused(f"the exponent {exponent} is too large (the limit is {MAX_EXPONENT})", node)
         elif exponent.is_Number and base.is_Number and abs(float(exponent)) > 1e6:
             raise _Refused(f"the constant power is too large to compute (exponent {float(exponent):.3g})", node)
-        if base == 0 and exponent.is_number and exponent.is_negative:
+        if base == 0 and exponent.is_Number and float(exponent) < 0:
             raise _Refused("division by zero (zero to a negative power)", node)
-        return sympy.Pow(base, exponent)
+        return self.library.pow(base, exponent)
 
     def number(self, node: ast.Constant) -> sympy.Expr:
         value = node.value
@@ -294,14 +338,14 @@ class _Builder:
         if isinstance(value, float):
             if not math.isfinite(value):
                 raise _Refused("the number is too large (not finite)", node)
-            return sympy.Float(value)
-        return sympy.Integer(value)
+            return self.library.real(value)
+        return self.library.integer(value)
 
     def name(self, node: ast.Name) -> sympy.Expr:
         if node.id in self.names:
             return self.names[node.id]
         if node.id in CONSTANTS:
-            return CONSTANTS[node.id]
+            return self.library.constants[node.id]
         if node.id in self.functions:
             raise _Refused(f"{node.id!r} is a function: call it, e.g. {node.id}(x)", node)
         hint = suggest(node.id, self.names) or suggest(node.id, CONSTANTS)
@@ -320,7 +364,8 @@ class _Builder:
             raise _Refused(f"function {name!r} is not allowed (allowed: {allowed}){hint}", node.func)
         if node.keywords:
             raise _Refused(f"{name}() takes no keyword arguments", node.keywords[0].value)
-        function, smallest, largest = self.functions[name]
+        _, smallest, largest = self.functions[name]
+        function = self.library.functions[name]
         count = len(node.args)
         if count < smallest or (largest is not None and count > largest):
             wanted = f"{smallest}" if largest == smallest else f"at least {smallest}"

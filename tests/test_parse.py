@@ -38,8 +38,21 @@ def nothing_runs(monkeypatch):
     monkeypatch.setattr(builtins, "__import__", guarded_import)
 
 
-def parse(text: str, label: str = "balance") -> sympy.Expr:
+def parse(text: str, label: str = "balance", library: str = "sympy"):
+    if library == "symengine":
+        import symengine
+
+        names = {"u": symengine.Symbol("u"), "p": symengine.Symbol("p"), "k": symengine.RealDouble(2.5)}
+        return parse_expression(text, names, label=label, library="symengine")
     return parse_expression(text, NAMES, label=label)
+
+
+try:
+    import symengine  # noqa: F401
+
+    LIBRARIES = ["sympy", "symengine"]
+except ImportError:  # the pure-sympy path must work alone
+    LIBRARIES = ["sympy"]
 
 
 # -- what it reads (exact: sympy identities) ------------------------------------------------------
@@ -65,6 +78,9 @@ def parse(text: str, label: str = "balance") -> sympy.Expr:
 )
 def test_reads_arithmetic_on_declared_names(text, expected):
     assert sympy.simplify(parse(text) - expected) == 0
+    if "symengine" in LIBRARIES:
+        # The same text built directly in symengine is the same expression (compared in sympy).
+        assert sympy.simplify(parse(text, library="symengine")._sympy_().subs({sympy.Symbol("u"): u, sympy.Symbol("p"): p}) - expected) == 0
 
 
 def test_declared_name_takes_precedence_over_constant():
@@ -129,9 +145,10 @@ def test_float_keeps_full_precision():
         ("1e999", "not finite"),
     ],
 )
-def test_hostile_or_wrong_input_is_refused(text, message):
+@pytest.mark.parametrize("library", LIBRARIES)
+def test_hostile_or_wrong_input_is_refused(text, message, library):
     with pytest.raises(InputError) as caught:
-        parse(text)
+        parse(text, library=library)
     assert message in str(caught.value)
     assert str(caught.value).startswith("balance")
 
@@ -140,15 +157,17 @@ def test_hostile_or_wrong_input_is_refused(text, message):
     "text",
     ["9**9**9**9", "10**100000", "2**-1000000", "(10**3000)**1000", "1.5**1e300", "9**9**9", "7**(10**8)"],
 )
-def test_huge_constant_powers_are_refused_at_once(text):
+@pytest.mark.parametrize("library", LIBRARIES)
+def test_huge_constant_powers_are_refused_at_once(text, library):
     with pytest.raises(InputError, match="too large"):
-        parse(text)
+        parse(text, library=library)
 
 
 @pytest.mark.parametrize("text", ["u**(10**9)", "(2*u)**100000", "u**-20000"])
-def test_huge_exponents_of_unknowns_are_refused(text):
+@pytest.mark.parametrize("library", LIBRARIES)
+def test_huge_exponents_of_unknowns_are_refused(text, library):
     with pytest.raises(InputError, match="exponent .* is too large"):
-        parse(text)
+        parse(text, library=library)
 
 
 def test_moderate_powers_are_computed_exactly():
@@ -160,14 +179,20 @@ def test_moderate_powers_are_computed_exactly():
     "text",
     ["(" * 300 + "u" + ")" * 300, "-" * 100_000 + "u", "exp(" * 150 + "u" + ")" * 150, "2**" * 150 + "1"],
 )
-def test_very_deep_nesting_is_refused_clearly(text):
+@pytest.mark.parametrize("library", LIBRARIES)
+def test_very_deep_nesting_is_refused_clearly(text, library):
     with pytest.raises(InputError, match="nested too deeply"):
-        parse(text)
+        parse(text, library=library)
 
 
 def test_very_long_input_is_refused_before_parsing():
     with pytest.raises(InputError, match=f"the limit is {MAX_LENGTH}"):
         parse("u+" * MAX_LENGTH + "u")
+
+
+def test_unknown_library_is_a_programming_error():
+    with pytest.raises(ValueError, match="library must be 'sympy' or 'symengine'"):
+        parse_expression("u", NAMES, library="abacus")
 
 
 def test_text_other_than_str_is_refused():
