@@ -32,6 +32,7 @@ A problem file is untrusted input: expressions go through the allow-list parser 
 
 from __future__ import annotations
 
+import keyword
 import math
 import re
 import tomllib
@@ -217,6 +218,13 @@ class _Reader:
         table = self.section(name, required)
         if required and not table:
             raise self.fail(name, None, f"[{name}] is empty; declare at least one name = value")
+        for key in table:
+            if not key.isidentifier() or keyword.iskeyword(key):
+                raise self.fail(
+                    name, key,
+                    f"{name}.{key!r} cannot be used in equations: names are letters, digits and underscores, "
+                    "starting with a letter (e.g. T_wall)",
+                )
         return {key: self.number(name, key, value, what) for key, value in table.items()}
 
     def build(self, equations, unknowns, parameters, constants, kind, labels) -> SymbolicSystem:

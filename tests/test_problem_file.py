@@ -219,3 +219,16 @@ def test_engine_refusal_is_prefixed_with_the_file(tmp_path):
     with pytest.raises(InputError) as caught:
         run_problem(problem)
     assert str(caught.value).startswith(f"{problem.path}: [trace]: ")
+
+
+def test_name_that_cannot_appear_in_equations(tmp_path):
+    message = fails(tmp_path, GOOD.replace("p = 1.875", '"p-1" = 1.875'))
+    assert "line 5: parameters.'p-1' cannot be used in equations" in message
+
+
+def test_ode_file_traces_equilibria(tmp_path):
+    text = GOOD.replace('kind = "algebraic"', 'kind = "ode"').replace('balance = "u**3 - c*u + p"', 'balance = "-(u**3 - c*u + p)"')
+    branch = run_problem(load_problem(write(tmp_path, text)))
+    folds = sorted(sp.values["p"] for sp in branch.special_points if sp.kind == "fold")
+    # Equilibria of du/dt = -(u^3 - u + p): the same folds, p = -+2/(3 sqrt 3) (exact).
+    np.testing.assert_allclose(folds, [-2 / (3 * math.sqrt(3)), 2 / (3 * math.sqrt(3))], atol=1e-9)

@@ -258,3 +258,28 @@ def test_parse_error_names_the_equation():
 def test_unknown_kind():
     with pytest.raises(InputError, match="kind='ode45' is not known"):
         SymbolicSystem({"a": "u - p"}, {"u": 0.0}, {"p": 0.0}, kind="ode45")
+
+
+def test_compile_expression_needs_a_symbolic_system():
+    plain = contin.CallableSystem(lambda u, p: u - p, ["u"], {"p": 0.0})
+    with pytest.raises(InputError, match="compile_expression needs a SymbolicSystem"):
+        compile_expression(plain, "u")
+
+
+def test_event_expression_error_names_the_event():
+    system = SymbolicSystem({"e": "u - p"}, {"u": 0.0}, {"p": 0.0})
+    with pytest.raises(InputError, match=r"^event 'hot', column 1: name 'y' is not declared"):
+        expression_event(system, "hot", "y - 1")
+
+
+def test_from_sympy_with_wrong_number_of_names():
+    x = sympy.Symbol("x")
+    with pytest.raises(InputError, match="equations names 2 equations but 1 expressions were given"):
+        SymbolicSystem.from_sympy([x - 1], {x: 0.0}, {"p": 0.0}, equations=["a", "b"])
+
+
+def test_expressions_are_sympy_on_both_back_ends():
+    for backend in ("sympy", "symengine") if symengine_available() else ("sympy",):
+        system = SymbolicSystem({"e": "u**2 - p"}, {"u": 1.0}, {"p": 1.0}, backend=backend)
+        u, p = system.symbols["u"], system.symbols["p"]
+        assert system.expressions == {"e": u**2 - p}
