@@ -67,23 +67,27 @@ def evaluation_cost(fluid: PureFluid, repeat: int = 2000) -> float:
 
 
 def natural_stepping(fluid: PureFluid, points: int) -> dict:
-    """Step T on a uniform grid from 0.4 Tc to Tc with fsolve on (ln v_l, ln v_v)."""
+    """Step T on a uniform grid from 0.4 Tc to Tc with fsolve on (ln(v_l/b - 1), ln(v_v/b - 1))."""
     grid = np.linspace(0.4, 1.0, points)
     x_l, x_v, _ = fluid.saturation_at(grid[0])
-    guess = np.log([x_l, x_v])
+    guess = np.log([x_l - 1.0, x_v - 1.0])
     solved = 0
     trivial_at = None
     evaluations = 0
     began = time.perf_counter()
     for theta in grid:
         def equations(y, theta=theta):
-            xl, xv = np.exp(y)
+            xl, xv = 1.0 + np.exp(np.clip(y, -700.0, 700.0))
             pl, pv = float(fluid.reduced_pressure(xl, theta)), float(fluid.reduced_pressure(xv, theta))
             # equal pressures, and equal chemical potentials written without ln P (so a liquid root
             # at negative pressure does not stop the solver): mu/RT = -ln(x - 1) - attraction + p x/theta
-            return [(pl - pv) / max(abs(pv), 1e-300) if abs(pv) > 0 else pl - pv,
+            # the pressure difference is scaled by the liquid's repulsive term, of order one
+            return [(pl - pv) * (xl - 1.0) / theta,
                     _reduced_mu(fluid, xl, theta, pl) - _reduced_mu(fluid, xv, theta, pv)]
-        solution, info, flag, _ = fsolve(equations, guess, full_output=True, xtol=1e-12)
+        try:
+            solution, info, flag, _ = fsolve(equations, guess, full_output=True, xtol=1e-12)
+        except (ValueError, OverflowError, ZeroDivisionError):
+            break
         evaluations += int(info["nfev"])
         if flag != 1:
             break
@@ -93,9 +97,14 @@ def natural_stepping(fluid: PureFluid, points: int) -> dict:
         solved += 1
         guess = solution
     seconds = time.perf_counter() - began
+    x_c = fluid.family.z_c / fluid.family.omega_b
+    last = 1.0 + np.exp(guess)
+    # At T = Tc the only answer is v_l = v_v = v_c: a wide gap there means a converged-looking wrong point.
+    gap_at_last = float((last[1] - last[0]) / x_c)
     return {"points_requested": points, "points_solved": solved, "highest_reduced_temperature": float(grid[solved - 1]) if solved else None,
             "slid_onto_trivial_at_reduced_temperature": trivial_at, "function_evaluations": evaluations,
-            "seconds": seconds, "reached_critical_point": False}
+            "seconds": seconds, "last_point_volume_gap_over_critical_volume": gap_at_last,
+            "last_point_is_the_critical_point": bool(solved == points and abs(gap_at_last) < 1e-9)}
 
 
 def _reduced_mu(fluid: PureFluid, x: float, theta: float, p: float) -> float:
