@@ -94,6 +94,7 @@ def locate_zero(
     f_low, f_high = fa, fb
     side = 0
     previous = -1.0
+    moved = np.inf
     best: Located | None = None
     for _ in range(100):
         if f_high != f_low:
@@ -108,9 +109,10 @@ def locate_zero(
         t = _tangent_at(correction, unit, ta)
         value = float(test(correction.x, t))
         width = (high - low) * length
-        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations, width, value)
-        if value == 0.0:
-            break
+        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
+                       0.0 if value == 0.0 else width, value)
+        if value == 0.0:  # an exact zero of the test function: located exactly
+            return best
         if (value < 0.0) == (f_low < 0.0):
             low, f_low = trial, value
             if side == -1:
