@@ -37,8 +37,8 @@ from sympy.printing.str import StrPrinter
 from ._cache import CompileCache, cache_key, default_cache
 from ._errors import InputError
 from ._names import check_names, suggest
-from ._parse import CONSTANTS, FUNCTIONS, parse_expression
-from ._structure import Structure, analyse_structure
+from ._parse import FUNCTIONS, parse_expression
+from ._structure import analyse_structure
 from ._system import System
 
 __all__ = [
@@ -55,7 +55,6 @@ BACKENDS = ("auto", "symengine", "sympy")
 #: LLVM optimisation level. Measured (n = 200 chain, 12-unknown envelope-sized system): level 0
 #: compiles 3-8x faster than 1-3 and evaluates as fast, since call overhead dominates.
 _LLVM_OPT_LEVEL = 0
-_NONSMOOTH = (sympy.Abs, sympy.Min, sympy.Max, sympy.sign, sympy.Heaviside)
 
 
 @functools.cache
@@ -208,7 +207,7 @@ def _lambdify(variables, replacements, outputs):
 def _call(function, x: np.ndarray, size: int) -> np.ndarray:
     try:
         return np.asarray(function(x.tolist()), dtype=float).reshape(size)
-    except (OverflowError, ZeroDivisionError, ValueError):
+    except (OverflowError, ZeroDivisionError, ValueError, TypeError):
         # math raises where LLVM code returns inf/nan; the driver treats non-finite values as a failed step.
         return np.full(size, np.nan)
 
@@ -677,7 +676,7 @@ def compile_expression(system: SymbolicSystem, expression: str | sympy.Expr, *, 
         def evaluate(u: np.ndarray, p: np.ndarray) -> float:
             try:
                 return float(function(system._inputs(u, p).tolist()))
-            except (OverflowError, ZeroDivisionError, ValueError):
+            except (OverflowError, ZeroDivisionError, ValueError, TypeError):
                 return math.nan
 
     evaluate.__doc__ = f"{label}: {expression}"

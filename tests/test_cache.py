@@ -168,3 +168,19 @@ def test_unwritable_folder_does_not_break_building(tmp_path):
     blocker.write_text("not a folder")
     system = SymbolicSystem(EQUATIONS, UNKNOWNS, PARAMETERS, backend="sympy", cache=CompileCache(blocker / "cache"))
     assert system.cache_source == "built"
+
+
+def test_text_entry_round_trips_every_allowed_function(tmp_path):
+    equations = {
+        "a": "abs(u) + max(u, v, p) - min(u, 2*v) + atan2(u, v) + u**(1/3)*v**2.5 + pi*E",
+        "b": "sqrt(2 + u**2) + asinh(v) + acosh(2 + u**2) + atanh(v/3) + asin(u/4) + acos(v/4) + atan(u)",
+        "c": "w*(exp(-u) + log(2 + v**2) + sin(u)*cos(v)*tan(w/5) + sinh(u)*cosh(v)*tanh(w)) - p/7",
+    }
+    unknowns, parameters = {"u": 0.4, "v": 0.3, "w": 0.2}, {"p": 0.1}
+    first = SymbolicSystem(equations, unknowns, parameters, backend="sympy", cache=CompileCache(tmp_path))
+    second = SymbolicSystem(equations, unknowns, parameters, backend="sympy", cache=CompileCache(tmp_path))
+    assert (first.cache_source, second.cache_source) == ("built", "disk")
+    for point in ([0.4, 0.3, 0.2], [0.7, 1.1, 0.9], [1.3, -0.2, -0.5]):
+        u, p = np.array(point), np.array([0.1])
+        for a, b in zip(first.evaluate(u, p), second.evaluate(u, p)):
+            np.testing.assert_allclose(a, b, rtol=1e-15, atol=1e-15)
