@@ -48,6 +48,7 @@ def correct(
     residual: np.ndarray | None = None,
     max_distance: float = np.inf,
     guard_divergence: bool = True,
+    exact_jacobian: bool = True,
 ) -> Correction:
     """Solve G(x) = 0, row . x = target by Newton's method from ``guess``.
 
@@ -67,12 +68,23 @@ def correct(
         max_distance: give up if an iterate moves farther than this from ``guess`` (branch jumping).
         guard_divergence: give up when a Newton step is more than twice the previous one (after the
             second iteration); plain grid stepping turns this off to behave as the textbook method.
+        exact_jacobian: return dG/dx evaluated at the corrected point itself. When False, the
+            Jacobian of the last iterate may be returned instead (it is one converged Newton step,
+            at most sqrt(tolerance) relative, away): good enough for a predictor tangent, and it
+            saves a Jacobian evaluation per point. A Jacobian passed in (from another point) is never
+            returned as the corrected point's.
+
+    Each iteration evaluates only the residual at the new iterate; the Jacobian there is evaluated
+    only if another iteration is needed (or an exact one was asked for).
     """
     x = np.array(guess, dtype=float)
     if jacobian is None:
         residual, jacobian = extended.linearise(x)
-    elif residual is None:
-        residual = extended.residual(x)
+        jacobian_here = True  # evaluated at an iterate of this correction
+    else:
+        jacobian_here = False
+        if residual is None:
+            residual = extended.residual(x)
     norm = float(abs(residual).max()) if residual.size else 0.0
     if not math.isfinite(norm):
         return Correction(False, x, residual, jacobian, 0, norm, "non-finite residual at the predicted point")
@@ -102,16 +114,23 @@ def correct(
         if guard_divergence and iteration > 2 and step > 2.0 * last_step:
             return Correction(False, x, residual, jacobian, iteration, norm, "Newton diverged")
         x = x + dx
-        residual, jacobian = extended.linearise(x)
+        residual = extended.residual(x)
         norm = float(abs(residual).max()) if residual.size else 0.0
-        # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).
-        if not math.isfinite(norm) or not math.isfinite(float(jacobian.sum())):
-            return Correction(False, x, residual, jacobian, iteration, norm, "non-finite residual or Jacobian")
+        if not math.isfinite(norm):
+            return Correction(False, x, residual, jacobian, iteration, norm, "non-finite residual")
         if max_distance < math.inf:
             moved = x - guess
             if math.sqrt(moved @ moved) > max_distance:
                 return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
-        if norm <= tolerance and step <= step_tolerance:
+        converged = norm <= tolerance and step <= step_tolerance
+        if converged and jacobian_here and not exact_jacobian:
+            return Correction(True, x, residual, jacobian, iteration, norm)
+        residual, jacobian = extended.linearise(x)
+        jacobian_here = True
+        # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).
+        if not math.isfinite(float(jacobian.sum())):
+            return Correction(False, x, residual, jacobian, iteration, norm, "non-finite Jacobian")
+        if converged:
             return Correction(True, x, residual, jacobian, iteration, norm)
         last_step = step
     return Correction(False, x, residual, jacobian, max_iterations, norm, f"no convergence (in {max_iterations} Newton iterations)")

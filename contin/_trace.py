@@ -395,7 +395,7 @@ class _Run:
                 row, target = t, float(t @ predicted)
             correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
                                  max_iterations=options.max_iterations, jacobian=self.jacobian,
-                                 max_distance=max(step_now, 1e-12) * 2.0)
+                                 max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
             accepted = False
             if correction.converged:
                 try:
