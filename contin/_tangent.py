@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy.linalg.lapack import dgetrf, dgetrs
 
@@ -52,5 +54,5 @@ def tangent(bordered: Bordered, previous: np.ndarray) -> np.ndarray:
     rhs = np.zeros(bordered.row.size)
     rhs[-1] = 1.0
     z = bordered.solve(rhs)
-    z /= np.linalg.norm(z)
+    z /= math.sqrt(float(z @ z))
     return z if z @ previous >= 0.0 else -z
