@@ -26,6 +26,7 @@ import keyword
 import math
 import os
 import pickle
+import re
 import time
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
@@ -269,6 +270,9 @@ def _load(kind: str, payload: bytes, variables):
     def plan(part):
         replacements = []
         for name, text in part[0]:
+            # Names end up in code that sympy generates: only the shapes contin itself writes.
+            if not (isinstance(name, str) and re.fullmatch(r"_[cr][0-9]+", name)):
+                raise ValueError(f"unexpected name {name!r} in a cache entry")
             symbol = sympy.Symbol(name)
             replacements.append((symbol, parse_expression(text, names, label="cache", _cache_format=True)))
             names[name] = symbol

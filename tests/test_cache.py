@@ -184,3 +184,20 @@ def test_text_entry_round_trips_every_allowed_function(tmp_path):
         u, p = np.array(point), np.array([0.1])
         for a, b in zip(first.evaluate(u, p), second.evaluate(u, p)):
             np.testing.assert_allclose(a, b, rtol=1e-15, atol=1e-15)
+
+
+def test_text_entry_with_a_foreign_name_is_rebuilt(tmp_path, monkeypatch):
+    """Even an entry that passes the checksum cannot smuggle a name into generated code."""
+    build(tmp_path, "sympy")
+    (path,) = entries(tmp_path)
+    data = path.read_bytes()
+    newline = data.index(b"\n")
+    document = json.loads(data[newline + 1 :])
+    document["full"][0].insert(0, ["__import__('os').system('echo owned')", "1"])
+    payload = json.dumps(document).encode()
+    cache = CompileCache(tmp_path)
+    key = path.name[: -len(".entry")]
+    cache.write(key, "text", payload)  # correctly signed: only the name check stands in the way
+    monkeypatch.setattr(os, "system", lambda *a: pytest.fail("a cache entry ran a command"))
+    rebuilt = SymbolicSystem(EQUATIONS, UNKNOWNS, PARAMETERS, backend="sympy", cache=cache)
+    assert rebuilt.cache_source == "built"
