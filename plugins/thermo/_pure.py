@@ -805,7 +805,7 @@ def saturation_curve(
     at_temperatures: Sequence[float] = (),
     at_pressures: Sequence[float] = (),
     tolerance: float = 1e-12,
-    max_step: float = 2.0,
+    max_step: float = 0.5,
 ) -> CurveResult:
     """The vapour-liquid coexistence curve of a pure fluid, from a low temperature to the critical point.
 
@@ -907,7 +907,7 @@ def spinodal_curve(
     from_temperature: float | None = None,
     at_temperatures: Sequence[float] = (),
     tolerance: float = 1e-12,
-    max_step: float = 2.0,
+    max_step: float = 0.5,
 ) -> CurveResult:
     """Liquid and vapour spinodals (dP/dv = 0 at fixed T) of a pure fluid, meeting at the critical point.
 
