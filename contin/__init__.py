@@ -4,15 +4,20 @@ The public face of the engine; everything not named here is private and free to 
 """
 
 from ._branch import Branch, SpecialPoint
+from ._cache import CompileCache, default_cache
 from ._errors import ContinError, InputError, TraceError
 from ._events import Event
 from ._natural import sweep
 from ._options import TraceOptions
 from ._output import json_document
 from ._plot import plot_branch
+from ._problem import Problem, load_problem, run_problem
 from ._progress import Progress
 from ._record import read_record, restart, run_record, write_record
 from ._status import Status
+from ._structure import Structure, StructureWarning, analyse_structure
+from ._study import run_study
+from ._symbolic import SymbolicSystem, compile_expression, expression_event
 from ._system import CallableSystem, System
 from ._trace import trace
 
@@ -21,21 +26,33 @@ __version__ = "0.1.0"
 __all__ = [
     "Branch",
     "CallableSystem",
+    "CompileCache",
     "ContinError",
     "Event",
     "InputError",
+    "Problem",
+    "Progress",
     "SpecialPoint",
     "Status",
+    "Structure",
+    "StructureWarning",
+    "SymbolicSystem",
     "System",
     "TraceError",
     "TraceOptions",
     "__version__",
+    "analyse_structure",
+    "compile_expression",
+    "default_cache",
+    "expression_event",
     "json_document",
+    "load_problem",
     "plot_branch",
-    "Progress",
     "read_record",
     "restart",
+    "run_problem",
     "run_record",
+    "run_study",
     "sweep",
     "trace",
     "write_record",

@@ -583,11 +583,12 @@ class _Run:
             "rejections": dict(sorted(counters.rejections.items())),
             "points": len(self.rows),
         }
-        structure = getattr(self.system, "structure_summary", None)
-        if callable(structure):
-            summary = structure()
-            if summary is not None:
-                stats["structure"] = summary
+        for key, method in (("structure", "structure_summary"), ("symbolic", "symbolic_summary")):
+            describe = getattr(self.system, method, None)
+            if callable(describe):
+                summary = describe()
+                if summary is not None:
+                    stats[key] = summary
         return Branch(
             columns=self.columns,
             points=np.array(self.rows) if self.rows else empty,
