@@ -49,24 +49,91 @@ def example_path(name: str):
         yield path
 
 
+class Parser(argparse.ArgumentParser):
+    """argparse with "did you mean" for a mistyped option or subcommand.
+
+    Sub-commands made by ``add_subparsers().add_parser`` are of this class too, so plug-ins get the
+    same help for free.
+    """
+
+    def __init__(self, *args, **keywords) -> None:
+        keywords.setdefault("formatter_class", argparse.RawDescriptionHelpFormatter)
+        super().__init__(*args, **keywords)
+
+    def parse_known_args(self, args=None, namespace=None):
+        self._words = list(sys.argv[1:] if args is None else args)
+        return super().parse_known_args(args, namespace)
+
+    def _chosen(self) -> argparse.ArgumentParser:
+        """The deepest sub-command parser named on the command line (self if none)."""
+        parser = self
+        for word in getattr(self, "_words", []):
+            actions = [a for a in parser._actions if isinstance(a, argparse._SubParsersAction)]
+            if actions and word in actions[0].choices:
+                parser = actions[0].choices[word]
+        return parser
+
+    def error(self, message: str):
+        hint = ""
+        if message.startswith("unrecognized arguments:"):
+            words = message.split(":", 1)[1].split()
+            options = [o for a in self._chosen()._actions for o in a.option_strings]
+            for word in words:
+                if word.startswith("-"):
+                    hint = suggest(word.split("=", 1)[0], options)
+                    if hint:
+                        break
+        elif "invalid choice:" in message:
+            import re
+
+            found = re.search(r"invalid choice: '([^']*)' \(choose from (.*)\)", message)
+            if found:
+                choices = [c.strip().strip("'") for c in found.group(2).split(",")]
+                hint = suggest(found.group(1), choices)
+        super().error(message + hint)
+
+
+EPILOG_RUN = """examples:
+  contin run --list-examples
+  contin run --example stirred_tank --plot tank.png --axes Da,y
+  contin run reactor.toml --json > reactor.json
+  contin run reactor.toml --out results --record results/reactor-record.json
+  contin run --from results/reactor-record.json --restart-at 20 --free Da --direction -1
+"""
+
+
 def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.ArgumentParser:
     """The argument parser: ``run`` and every plug-in's subcommands."""
-    parser = argparse.ArgumentParser(
+    parser = Parser(
         prog="contin",
         description="Trace solution curves of parameter-dependent equations and find their special points.",
+        epilog="examples:\n  contin demo\n  contin run --example stirred_tank\n"
+               "  contin thermo saturation --fluid propane --eos pr\n  contin COMMAND --help",
     )
     subparsers = parser.add_subparsers(dest="command", metavar="COMMAND")
     run = subparsers.add_parser(
         "run",
         help="trace a problem file",
         description="Trace the branch described by a TOML problem file and report its special points.",
+        epilog=EPILOG_RUN,
     )
     source = run.add_mutually_exclusive_group()
     source.add_argument("problem", nargs="?", metavar="PROBLEM.toml", help="the problem file")
     source.add_argument("--example", metavar="NAME", help="run a shipped example problem file")
     source.add_argument("--list-examples", action="store_true", help="list the shipped example problem files")
+    source.add_argument("--from", dest="record_in", metavar="RECORD",
+                        help="continue from a run record (with --restart-at)")
+    run.add_argument("--restart-at", type=int, metavar="INDEX",
+                     help="with --from: the point to continue from (negative counts from the end)")
+    run.add_argument("--free", metavar="NAME", help="with --from: free parameter of the new branch")
+    run.add_argument("--direction", type=int, choices=(1, -1), default=1,
+                     help="with --from: 1 continues along the saved tangent, -1 reverses it")
     run.add_argument("--json", action="store_true", help="print the result as one JSON object instead of a summary")
     run.add_argument("--out", metavar="DIR", help="write the branch as CSV and JSON files into DIR")
+    run.add_argument("--plot", metavar="FILE", help="draw the branch (PNG, SVG or PDF by the extension)")
+    run.add_argument("--axes", metavar="X,Y", help="columns for --plot (default: free parameter, first unknown)")
+    run.add_argument("--record", metavar="FILE", help="write a run record (input, versions, options, result)")
+    run.add_argument("--quiet", action="store_true", help="no progress line on stderr")
     run.add_argument(
         "--backend", choices=("auto", "symengine", "sympy"), default="auto",
         help="symbolic back end (default: auto, symengine when installed)",
@@ -96,9 +163,22 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status (0 success, 1 trace failed, 2 bad input)."""
     stdout, stderr = sys.stdout, sys.stderr
     try:
+        return _main(argv, stdout, stderr)
+    except BrokenPipeError:
+        # The reader went away (e.g. `contin ... | head`): stop quietly, as command-line tools do.
+        with contextlib.suppress(OSError):
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        return 1
+
+
+def _main(argv, stdout, stderr) -> int:
+    try:
         parser = build_parser(stderr=stderr)
         try:
-            namespace = parser.parse_args(list(argv) if argv is not None else None)
+            words = list(argv) if argv is not None else sys.argv[1:]
+            namespace = parser.parse_args(words)
+            namespace.argv = ["contin", *words]  # the command line, for run records
         except SystemExit as exit_:  # argparse: --help (0) or a usage error (2, message printed)
             return int(exit_.code or 0)
         handler = getattr(namespace, "handler", None)
@@ -118,29 +198,95 @@ def _one_line(message: str) -> str:
     return " ".join(message.split())
 
 
+def _axes(text: str | None, columns: Sequence[str]) -> tuple[str | None, str | None]:
+    if text is None:
+        return None, None
+    parts = [part.strip() for part in text.split(",")]
+    if len(parts) != 2 or not all(parts):
+        raise InputError(f"--axes {text!r} must name two columns as X,Y (columns: {', '.join(columns)})")
+    for part in parts:
+        if part not in columns:
+            raise InputError(f"--axes: no column {part!r} (columns: {', '.join(columns)}){suggest(part, columns)}")
+    return parts[0], parts[1]
+
+
+def _check_outputs(namespace: argparse.Namespace) -> None:
+    """Refuse unwritable destinations before any work is done."""
+    if namespace.out is not None and Path(namespace.out).exists() and not Path(namespace.out).is_dir():
+        raise InputError(f"--out {namespace.out!r} exists and is not a folder; give a folder to write into")
+    for option, value in (("--plot", namespace.plot), ("--record", namespace.record)):
+        if value is not None and not Path(value).resolve().parent.is_dir():
+            raise InputError(f"{option} {value!r}: the folder {str(Path(value).parent)!r} does not exist")
+    if namespace.plot is not None and Path(namespace.plot).suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise InputError(f"--plot {namespace.plot!r} must end in .png, .svg or .pdf")
+    if namespace.axes is not None and namespace.plot is None:
+        raise InputError("--axes goes with --plot FILE")
+    restart_only = [f"--{name.replace('_', '-')}" for name in ("restart_at", "free")
+                    if getattr(namespace, name) is not None] + (["--direction"] if namespace.direction != 1 else [])
+    if namespace.record_in is None and restart_only:
+        raise InputError(f"{restart_only[0]} goes with --from RECORD")
+    if namespace.record_in is not None and namespace.restart_at is None:
+        raise InputError("--from RECORD needs --restart-at INDEX (the point to continue from)")
+
+
 def _run(namespace: argparse.Namespace) -> int:
     from ._problem import load_problem, run_problem
+    from ._progress import Progress
+    from ._record import read_record, restart, run_record, write_record
 
     if namespace.list_examples:
         for name in example_names():
             print(f"{name:24s} {example_summary(name)}")
         return 0
-    if namespace.example is None and namespace.problem is None:
-        raise InputError("contin run needs a problem file, --example NAME or --list-examples")
-    if namespace.out is not None and Path(namespace.out).exists() and not Path(namespace.out).is_dir():
-        raise InputError(f"--out {namespace.out!r} exists and is not a folder; give a folder to write into")
+    if namespace.example is None and namespace.problem is None and namespace.record_in is None:
+        raise InputError("contin run needs a problem file, --example NAME, --from RECORD or --list-examples")
+    _check_outputs(namespace)
     with contextlib.ExitStack() as stack:
-        if namespace.example is not None:
+        record_in = None
+        if namespace.record_in is not None:
+            record_in = read_record(namespace.record_in)
+            given = record_in.get("input", {})
+            if given.get("kind") != "problem_file" or not isinstance(given.get("text"), str):
+                raise InputError(f"--from {namespace.record_in!r}: the record was not written by 'contin run' "
+                                 "(it holds no problem file to restart)")
+            folder = Path(stack.enter_context(tempfile.TemporaryDirectory(prefix="contin-restart-")))
+            path = folder / given.get("name", "problem.toml")
+            path.write_text(given["text"], encoding="utf-8")
+            name = f"{path.stem}-restart"
+        elif namespace.example is not None:
             path = stack.enter_context(example_path(namespace.example))
             name = namespace.example
         else:
             path = Path(namespace.problem)
             name = path.stem
         problem = load_problem(path, backend=namespace.backend)
-        branch = run_problem(problem)
+        text = path.read_text(encoding="utf-8")
+        columns = tuple(problem.system.unknowns) + (problem.options.get("free", ""),)
+        x_axis, y_axis = _axes(namespace.axes, columns)
+        progress = Progress(columns, quiet=namespace.quiet or namespace.json, label=name)
+        try:
+            if record_in is not None:
+                options = {k: v for k, v in problem.options.items() if k not in ("free", "direction")}
+                branch = restart(record_in, namespace.restart_at, problem.system, free=namespace.free,
+                                 direction=namespace.direction, events=list(problem.events), on_point=progress,
+                                 **options)
+            else:
+                branch = run_problem(problem, on_point=progress)
+        finally:
+            progress.close()
     document = branch.to_dict()
     if namespace.out is not None:
         _write_outputs(Path(namespace.out), name, branch.to_csv(), json.dumps(document, indent=1) + "\n")
+    if namespace.record is not None:
+        command = getattr(namespace, "argv", None)
+        record = run_record(branch, input={"kind": "problem_file", "name": path.name, "text": text},
+                            command=command, options={k: v for k, v in problem.options.items() if k != "at"})
+        write_record(namespace.record, record)
+    if namespace.plot is not None:
+        from ._plot import plot_branch, save_figure
+
+        ax = plot_branch(branch, x_axis, y_axis, caption=f"{name}: {branch.message}")
+        save_figure(ax.figure, namespace.plot)
     if namespace.json:
         print(json.dumps(document))
     else:

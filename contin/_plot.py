@@ -83,6 +83,8 @@ def plot_branch(branch, x: str | None = None, y: str | None = None, *, ax=None, 
     seen: set[str] = set()
     for point in branch.special_points:
         marker, words = KIND_STYLES.get(point.kind, ("o", point.kind.replace("_", " ")))
+        if point.kind == "event":
+            words = point.name.replace("_", " ")  # a user event is known by its own name
         px, py = point.point[ix], point.point[iy]
         ax.plot([px], [py], marker, ms=9 if marker == "*" else 7, mfc="white" if marker == "o" else None,
                 color="black", label=words if words not in seen else None, zorder=5)

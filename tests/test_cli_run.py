@@ -115,7 +115,7 @@ def test_failed_trace_exits_with_one(tmp_path, capsys):
 
 def test_run_needs_a_source(capsys):
     assert main(["run"]) == 2
-    assert "needs a problem file, --example NAME or --list-examples" in capsys.readouterr().err
+    assert "needs a problem file, --example NAME, --from RECORD or --list-examples" in capsys.readouterr().err
 
 
 def test_problem_and_example_together_are_refused(problem, capsys):
