@@ -13,7 +13,7 @@ from ._output import json_document
 from ._plot import plot_branch
 from ._problem import Problem, load_problem, run_problem
 from ._progress import Progress
-from ._record import read_record, restart, run_record, write_record
+from ._record import document_record, read_record, restart, run_record, write_record
 from ._status import Status
 from ._structure import Structure, StructureWarning, analyse_structure
 from ._study import run_study
@@ -44,6 +44,7 @@ __all__ = [
     "analyse_structure",
     "compile_expression",
     "default_cache",
+    "document_record",
     "expression_event",
     "json_document",
     "load_problem",

@@ -17,7 +17,7 @@ from ._errors import InputError
 from ._output import json_ready, write_text_atomically
 from ._system import System
 
-__all__ = ["RECORD_VERSION", "run_record", "write_record", "read_record", "restart", "restart_start"]
+__all__ = ["RECORD_VERSION", "document_record", "run_record", "write_record", "read_record", "restart", "restart_start"]
 
 RECORD_VERSION = 1
 _KIND = "contin run record"
@@ -46,10 +46,20 @@ def run_record(branch: Branch, *, input: Mapping, command: Sequence[str] | None 
         A dict with the record's kind and version, the versions of contin, Python and dependencies,
         the input, the options, and the result (status, timings, points, tangents, special points).
     """
-    from . import __version__
-
     result = branch.to_dict()
     result["tangents"] = json_ready(branch.tangents)
+    return document_record(result, input=input, command=command, options=options)
+
+
+def document_record(document: Mapping, *, input: Mapping, command: Sequence[str] | None = None,
+                    options: Mapping | None = None) -> dict:
+    """A run record around any result document in the JSON layout of DESIGN.md (e.g. a plug-in's).
+
+    Args: as for :func:`run_record`, with ``document`` in place of the branch.
+    """
+    from . import __version__
+
+    result = dict(document)
     return json_ready({
         "record": _KIND,
         "record_version": RECORD_VERSION,

@@ -15,6 +15,7 @@ import warnings
 from contin import InputError
 
 from ._caution import CAUTION
+from ._cli_common import add_output_options, check_destinations, component_data, write_run_record
 from ._components import all_components, custom_component, load_components, lookup
 from ._eos import FAMILIES, family
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
@@ -42,6 +43,7 @@ def _add_fluid_options(parser: argparse.ArgumentParser, *, eos_required: bool = 
     parser.add_argument("--json", action="store_true", help="print one JSON object (SI units) instead of a summary")
     parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (SI units, caution in the header)")
     parser.add_argument("--plot", metavar="FILE", help="draw P-T and T-rho diagrams into FILE (PNG, PDF, SVG)")
+    add_output_options(parser)
 
 
 def _add_range_options(parser: argparse.ArgumentParser, *, pressures: bool = True) -> None:
@@ -63,6 +65,10 @@ def register(subparsers) -> None:
         "saturation", help="vapour-liquid coexistence curve up to the critical point",
         description="Trace Psat(T), saturated volumes and densities and the enthalpy of vaporisation "
                     "from a low temperature to the critical point. " + CAUTION,
+        epilog="examples:\n"
+               "  contin thermo saturation --fluid propane --eos pr --at-pressures '1 atm' --plot propane.png\n"
+               "  contin thermo saturation --tc 431.2 --pc 39.7bar --omega 0.21 --name blend-A --eos srk --json\n"
+               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature -40degC --units engineering",
     )
     _add_fluid_options(saturation)
     _add_range_options(saturation)
@@ -70,6 +76,8 @@ def register(subparsers) -> None:
     spinodal = commands.add_parser(
         "spinodal", help="liquid and vapour spinodals up to the critical point",
         description="Trace the limits of mechanical stability (dP/dv = 0) to the critical point. " + CAUTION,
+        epilog="examples:\n  contin thermo spinodal --fluid n-butane --eos pr --plot spinodal.png\n"
+               "  contin thermo spinodal --fluid water --eos srk --csv water-spinodal.csv",
     )
     _add_fluid_options(spinodal)
     _add_range_options(spinodal, pressures=False)
@@ -78,6 +86,8 @@ def register(subparsers) -> None:
         "critical", help="critical point of a fluid (or of a mixture with --mixture)",
         description="Solve dP/dv = d2P/dv2 = 0 for a pure fluid; with --mixture, a mixture critical point. "
                     + CAUTION,
+        epilog="examples:\n  contin thermo critical --fluid ethane --eos pr\n"
+               "  contin thermo critical --mixture 'methane=0.7,ethane=0.2,propane=0.1' --eos srk --json",
     )
     _add_fluid_options(critical)
     critical.add_argument("--mixture", metavar="NAME=X,...", help="mixture composition (mixture critical point)")
@@ -86,7 +96,8 @@ def register(subparsers) -> None:
                           help="an extra component for --mixture (repeatable)")
     critical.set_defaults(handler=_run_critical, curve="critical")
     components = commands.add_parser("components", help="list the component table",
-                                     description="List the shipped components with their constants and sources.")
+                                     description="List the shipped components with their constants and sources.",
+                                     epilog="examples:\n  contin thermo components\n  contin thermo components --json")
     components.add_argument("--json", action="store_true", help="print the table as JSON")
     components.set_defaults(handler=_run_components)
     thermo.set_defaults(handler=lambda args: _no_subcommand(thermo))
@@ -147,42 +158,54 @@ def _format_row(columns, row) -> str:
     return ", ".join(f"{c} = {v:.8g}" for c, v in zip(columns, row))
 
 
-def _summary(result: CurveResult) -> str:
+def _summary(result: CurveResult, units: str = "si") -> str:
+    from ._units import convert_rows, output_units
+
     c, f = result.component, result.family
+    system = output_units(units)
+    points, names = convert_rows(result.columns, result.points.tolist(), result.units, system)
+    at, _ = convert_rows(result.columns, result.at.tolist(), result.units, system)
+    special = [{**p, "values": dict(zip(p["values"], convert_rows(list(p["values"]), [list(p["values"].values())],
+                                                                    result.units, system)[0][0]))}
+               for p in result.special_points]
     lines = [
         f"{result.kind} of {c.name} with {f.label} (Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g})",
         f"  status   : {result.status} - {result.message}",
         f"  points   : {len(result.points)} (Newton iterations {result.stats.get('newton_iterations')}, "
         f"trace {1e3 * float(result.stats.get('trace_seconds', 0.0)):.1f} ms)",
     ]
-    if len(result.points):
-        lines.append(f"  first    : {_format_row(result.columns, result.points[0])}")
-    for point in result.special_points:
+    if len(points):
+        lines.append(f"  first    : {_format_row(result.columns, points[0])}")
+    for point in special:
         values = ", ".join(f"{k} = {v:.10g}" for k, v in point["values"].items())
         lines.append(f"  {point['kind']:<9}: {values}")
-    for row in result.at:
+    for row in at:
         lines.append(f"  at       : {_format_row(result.columns, row)}")
-    lines.append("  units    : " + ", ".join(f"{col} [{result.units[col] or '-'}]" for col in result.columns))
+    lines.append("  units    : " + ", ".join(f"{col} [{names[col] or '-'}]" for col in result.columns))
     lines.append(CAUTION)
     return "\n".join(lines)
 
 
 def _emit(result: CurveResult, args) -> int:
+    document = result.to_dict()
     if args.csv:
-        result.to_csv(args.csv)
+        result.to_csv(args.csv, units=args.units)
     if args.plot:
         from ._plot_pure import plot_pure
 
         plot_pure(result, args.plot)
+    write_run_record(args, document, {"command": args.curve, "fluid": component_data(result.component),
+                                      "eos": result.family.name})
     if args.json:
-        print(json.dumps(result.to_dict()))
+        print(json.dumps(document))
     else:
-        print(_summary(result))
+        print(_summary(result, args.units))
     return 0 if result.success else 1
 
 
 def run_pure(args) -> int:
     """Handler of ``contin thermo saturation|spinodal|critical`` for one fluid; returns the exit status."""
+    check_destinations(args)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         fluid = _fluid(args)

@@ -653,16 +653,23 @@ class CurveResult:
             eos={"name": self.family.name, "label": self.family.label, "reference": self.family.reference},
         )
 
-    def csv(self) -> str:
-        """CSV text: caution and units as comment lines, then the points (and no at rows)."""
+    def csv(self, units: str = "si") -> str:
+        """CSV text: caution and units as comment lines, then the points (and no at rows).
+
+        Args:
+            units: ``"si"`` (K, Pa) or ``"engineering"`` (degC, bar) for temperatures and pressures.
+        """
+        from ._units import convert_rows, output_units
+
         c = self.component
         notes = [f"fluid: {c.name} (Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g}; {c.source})",
                  f"equation of state: {self.family.label} ({self.family.reference})"]
-        return csv_text(self.columns, self.points.tolist(), self.units, title=f"{self.kind} curve", notes=notes)
+        rows, names = convert_rows(self.columns, self.points.tolist(), self.units, output_units(units))
+        return csv_text(self.columns, rows, names, title=f"{self.kind} curve", notes=notes)
 
-    def to_csv(self, path: str | Path) -> Path:
+    def to_csv(self, path: str | Path, units: str = "si") -> Path:
         """Write :meth:`csv` atomically to ``path``."""
-        return atomic_write_text(path, self.csv())
+        return atomic_write_text(path, self.csv(units))
 
 
 # ---------------------------------------------------------------------------------------------

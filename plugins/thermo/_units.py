@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 from contin import InputError
@@ -25,6 +25,7 @@ __all__ = [
     "parse_temperature",
     "parse_list",
     "output_units",
+    "convert_rows",
 ]
 
 # 1 atm = 101325 Pa (exact, definition); 1 psi = 0.45359237 kg x 9.80665 m/s^2 / (0.0254 m)^2 (exact).
@@ -145,3 +146,36 @@ def output_units(name: str, argument: str = "--units") -> OutputUnits:
     if name not in UNIT_SYSTEMS:
         raise InputError(f"{argument}: unknown unit system {name!r} (use si or engineering){suggest(name, UNIT_SYSTEMS)}")
     return UNIT_SYSTEMS[name]
+
+
+def _is_temperature(column: str) -> bool:
+    return column == "T" or column.startswith("T_")
+
+
+def _is_pressure(column: str) -> bool:
+    return column == "P" or column.startswith("P_")
+
+
+def convert_rows(columns: Sequence[str], rows, units: Mapping[str, str], system: OutputUnits):
+    """Rows and unit names in ``system`` (temperatures and pressures converted; the rest as they are)."""
+    converted = []
+    for row in rows:
+        new = list(row)
+        for k, column in enumerate(columns):
+            value = new[k]
+            if not isinstance(value, (int, float)) or isinstance(value, bool):
+                continue
+            if _is_temperature(column):
+                new[k] = system.temperature_from_si(float(value))
+            elif _is_pressure(column):
+                new[k] = system.pressure_from_si(float(value))
+        converted.append(new)
+    names = {}
+    for column in columns:
+        if _is_temperature(column):
+            names[column] = system.temperature
+        elif _is_pressure(column):
+            names[column] = system.pressure
+        else:
+            names[column] = units.get(column, "")
+    return converted, names

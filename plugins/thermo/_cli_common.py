@@ -1,0 +1,55 @@
+"""What every tracing ``contin thermo`` command shares: output units, run records, checks of destinations."""
+
+from __future__ import annotations
+
+import argparse
+from collections.abc import Mapping
+from pathlib import Path
+
+import contin
+from contin import InputError
+
+from ._units import UNIT_SYSTEMS, output_units
+
+__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data"]
+
+
+def add_output_options(parser: argparse.ArgumentParser) -> None:
+    """Add ``--units``, ``--record`` and ``--quiet`` (``--json``, ``--csv``, ``--plot`` are the command's own)."""
+    parser.add_argument("--units", default="si", choices=sorted(UNIT_SYSTEMS),
+                        help="units of the printed summary and the CSV file: si (K, Pa) or engineering "
+                             "(degC, bar); JSON is always SI")
+    parser.add_argument("--record", metavar="FILE",
+                        help="write a run record: the command, component data and kij used, versions, result")
+    parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")
+
+
+def check_destinations(args: argparse.Namespace) -> None:
+    """Refuse output files whose folder is missing, or a plot of an unknown format, before any work."""
+    for option in ("csv", "plot", "record"):
+        value = getattr(args, option, None)
+        if value is None:
+            continue
+        folder = Path(value).resolve().parent
+        if not folder.is_dir():
+            raise InputError(f"--{option} {value!r}: the folder {str(Path(value).parent)!r} does not exist")
+    plot = getattr(args, "plot", None)
+    if plot is not None and Path(plot).suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise InputError(f"--plot {plot!r} must end in .png, .svg or .pdf")
+    output_units(getattr(args, "units", "si"))
+
+
+def component_data(component) -> dict:
+    """The constants of a component as used, with their source, for run records."""
+    return {"name": component.name, "Tc": component.Tc, "Pc": component.Pc, "omega": component.omega,
+            "source": getattr(component, "source", "")}
+
+
+def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping) -> None:
+    """Write ``--record`` if asked: the command line, the input actually used, versions and the result."""
+    path = getattr(args, "record", None)
+    if path is None:
+        return
+    record = contin.document_record(document, input={"kind": "thermo", **input},
+                                    command=getattr(args, "argv", None))
+    contin.write_record(path, record)

@@ -1,0 +1,79 @@
+"""contin thermo: output units, run records, destinations checked first, help examples."""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import pytest
+
+from contin._cli import main
+
+
+def run(capsys, *words):
+    code = main(list(words))
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+def data_rows(path):
+    lines = [line for line in path.read_text().splitlines() if not line.startswith("#")]
+    return list(csv.reader(lines))
+
+
+def test_engineering_units_in_summary_and_csv_but_json_stays_si(tmp_path, capsys):
+    si, engineering = tmp_path / "si.csv", tmp_path / "eng.csv"
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(si))
+    assert code == 0 and "T [K], P [Pa]" in out
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(engineering),
+                       "--units", "engineering")
+    assert code == 0 and "T [degC], P [bar]" in out
+    a, b = data_rows(si), data_rows(engineering)
+    assert a[0] == b[0][:len(a[0])]
+    for row_si, row_eng in zip(a[1:], b[1:]):
+        assert float(row_eng[0]) == pytest.approx(float(row_si[0]) - 273.15)  # 0 degC = 273.15 K (exact)
+        assert float(row_eng[1]) == pytest.approx(float(row_si[1]) / 1e5)    # 1 bar = 1e5 Pa (exact)
+        assert float(row_eng[2]) == pytest.approx(float(row_si[2]))          # volumes stay in m3/mol
+    assert "# units: T [degC], P [bar]" in engineering.read_text()
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--json", "--units", "engineering")
+    document = json.loads(out)
+    assert document["special_points"][0]["values"]["T"] == pytest.approx(369.83)  # JSON in K regardless
+
+
+def test_run_record_holds_the_command_and_the_component_data(tmp_path, capsys):
+    record = tmp_path / "record.json"
+    code, _, _ = run(capsys, "thermo", "critical", "--fluid", "ethane", "--eos", "srk", "--record", str(record))
+    assert code == 0
+    saved = json.loads(record.read_text())
+    assert saved["input"]["kind"] == "thermo" and saved["input"]["eos"] == "srk"
+    assert saved["input"]["fluid"]["name"] == "ethane" and saved["input"]["fluid"]["Tc"] == pytest.approx(305.32)
+    assert "Poling" in saved["input"]["fluid"]["source"]
+    assert saved["command"] == ["contin", "thermo", "critical", "--fluid", "ethane", "--eos", "srk", "--record", str(record)]
+    assert saved["result"]["special_points"][0]["kind"] == "critical"
+
+
+def test_unwritable_destinations_are_refused_before_any_work(tmp_path, capsys):
+    missing = tmp_path / "no-such-folder"
+    for option, name in (("--csv", "x.csv"), ("--plot", "x.png"), ("--record", "x.json")):
+        code, out, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", option, str(missing / name))
+        assert code == 2 and "does not exist" in err and out == ""
+    code, _, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--plot", str(tmp_path / "x.bmp"))
+    assert code == 2 and "must end in .png, .svg or .pdf" in err
+    assert not any(tmp_path.iterdir())
+
+
+def test_unknown_units_option_value_is_refused(capsys):
+    code, _, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--units", "imperial")
+    assert code == 2 and "invalid choice: 'imperial'" in err
+
+
+def test_pressure_given_as_a_temperature_is_refused(capsys):
+    code, _, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--at-pressures", "300 K")
+    assert code == 2 and "'300 K' is a temperature, but a pressure is needed" in err
+
+
+@pytest.mark.parametrize("command", ["saturation", "spinodal", "critical", "components"])
+def test_every_thermo_command_help_has_an_example(command, capsys):
+    code, out, _ = run(capsys, "thermo", command, "--help")
+    assert code == 0
+    assert "examples:" in out and f"contin thermo {command}" in out
