@@ -47,7 +47,10 @@ _STEP = 0.2
 # |ln K_key| at which the trace hands over to the controlled step across the critical point, and the
 # levels of ln K_key of that step (see _bridge).
 _NEAR_CRITICAL = 0.1
-_BRIDGE = (0.005, 0.01, 0.015, 0.03, 0.06, 0.1)
+_BRIDGE = (0.02, 0.04, 0.06, 0.08, 0.1)
+# Newton tolerance of the bridge solves, and the closest two bridge levels may come when halving.
+_BRIDGE_TOLERANCE = 1e-12
+_BRIDGE_SMALLEST = 1e-4
 # A point whose ln K are all below this in size sits on the trivial solution K = 1.
 _TRIVIAL = 1e-7
 
@@ -147,15 +150,21 @@ class EnvelopeSystem(contin.CallableSystem):
 
 # -- Newton on the extended coordinates x = (u, ln P) with one coordinate fixed ------------------
 def _newton(system: EnvelopeSystem, x: np.ndarray, fixed: int, value: float, *, iterations: int = 60,
-            tolerance: float = _TOLERANCE) -> tuple[np.ndarray, float, bool]:
-    """Solve F(x) = 0 with x[fixed] = value by damped Newton; returns (x, residual norm, converged)."""
+            tolerance: float = _TOLERANCE, largest_step: float = 1.0) -> tuple[np.ndarray, float, bool]:
+    """Solve F(x) = 0 with x[fixed] = value by damped Newton; returns (x, residual norm, converged).
+
+    Steps are scaled down to at most ``largest_step`` in any coordinate (all are logarithms) and
+    halved while the residual is not finite or grows more than tenfold. A solve counts as converged
+    when the residual meets ``tolerance``, or when Newton has stagnated at round-off (the residual no
+    longer halves, and is below 100 ``tolerance``), which is as far as an ill-conditioned point near
+    the critical point can be taken.
+    """
     x = np.array(x, dtype=float)
     x[fixed] = value
-    m = x.size
     norm = math.inf
+    r, J, dp = system.evaluate(x[:-1], x[-1])
+    norm = float(np.max(np.abs(r)))
     for _ in range(iterations):
-        r, J, dp = system.evaluate(x[:-1], x[-1])
-        norm = float(np.max(np.abs(r)))
         if not math.isfinite(norm):
             return x, norm, False
         full = np.column_stack([J, dp])
@@ -165,22 +174,29 @@ def _newton(system: EnvelopeSystem, x: np.ndarray, fixed: int, value: float, *, 
         except np.linalg.LinAlgError:
             return x, norm, False
         dx = np.insert(step, fixed, 0.0)
-        # Damping: the unknowns are logarithms, so a step above ~1 in any of them is not to be trusted.
+        if not np.all(np.isfinite(dx)):
+            return x, norm, False
+        # Damping: the unknowns are logarithms, so a long step in any of them is not to be trusted.
         largest = float(np.max(np.abs(dx)))
-        if largest > 1.0:
-            dx *= 1.0 / largest
+        if largest > largest_step:
+            dx *= largest_step / largest
         x_new = x + dx
         r_new = system.evaluate(x_new[:-1], x_new[-1], with_jacobian=False)[0]
+        norm_new = float(np.max(np.abs(r_new)))
         shrink = 0
-        while not np.all(np.isfinite(r_new)) and shrink < 30:
+        while not (math.isfinite(norm_new) and norm_new <= 10.0 * norm + tolerance) and shrink < 30:
             dx *= 0.5
             x_new = x + dx
             r_new = system.evaluate(x_new[:-1], x_new[-1], with_jacobian=False)[0]
+            norm_new = float(np.max(np.abs(r_new)))
             shrink += 1
-        x = x_new
-        norm = float(np.max(np.abs(r_new)))
+        stalled = norm_new >= 0.5 * norm
+        x, norm = x_new, norm_new
         if norm <= tolerance and largest <= 1e-8:
             return x, norm, True
+        if stalled and norm <= 100.0 * tolerance:
+            return x, norm, True
+        r, J, dp = system.evaluate(x[:-1], x[-1])
     return x, norm, norm <= tolerance
 
 
@@ -362,10 +378,23 @@ class Envelope:
         return summary_lines("phase envelope", items)
 
 
-def _key_component(x0: np.ndarray, n: int) -> int:
-    # The component whose ln K is largest in size at the start: an outer (lightest or heaviest)
-    # component, whose K crosses 1 only at the critical point. Intermediate ones may cross elsewhere.
-    return int(np.argmax(np.abs(x0[:n])))
+def _key_component(x: np.ndarray, n: int) -> int:
+    # The component whose ln K is largest in size: an outer (lightest or heaviest) component, whose
+    # K crosses 1 only at the critical point. Intermediate ones may cross elsewhere.
+    return int(np.argmax(np.abs(x[:n])))
+
+
+def _side_change(system: EnvelopeSystem, points: np.ndarray) -> int | None:
+    """Index of the last point before the feed's molar volume crosses the incipient phase's, or None.
+
+    The two molar volumes are equal only at the critical point, so a sign change between two
+    accepted points means the step between them passed it.
+    """
+    n = system.n
+    incipient = points[:, n + 2] - np.log(np.exp(points[:, :n]) @ system.z)
+    sign = np.sign(points[:, n + 1] - incipient)
+    changes = np.flatnonzero(sign[1:] != sign[:-1])
+    return int(changes[0]) if changes.size else None
 
 
 def _tangent(system: EnvelopeSystem, x: np.ndarray) -> np.ndarray:
@@ -387,7 +416,7 @@ def _bridge_folds(system: EnvelopeSystem, points: np.ndarray, key: int) -> list[
     found = []
 
     def slope(c, j, guess):
-        x, _, ok = _newton(system, guess, key, c, iterations=40, tolerance=1e-13)
+        x, _, ok = _newton(system, guess, key, c, iterations=40, tolerance=_BRIDGE_TOLERANCE, largest_step=0.1)
         t = _tangent(system, x)
         return t[j] / t[key], x
 
@@ -414,32 +443,49 @@ def _bridge(system: EnvelopeSystem, xa: np.ndarray, ta: np.ndarray, key: int):
     only by the cubic-order balance of the Heidemann-Khalil criterion). So the passage is a controlled
     step: points at ln K_key = s c for c in _BRIDGE (each a Newton solve with ln K_key fixed, which
     excludes the trivial solution K = 1, converged to round-off), first on the near side and then on the
-    far side. The critical point is the degree-5 polynomial through the six points nearest to it,
-    evaluated at ln K_key = 0.
+    far side; a solve that fails is retried half as far (never closer than half the smallest level to
+    ln K_key = 0). The levels stay at |ln K_key| >= 0.02, where every solve is well conditioned; the
+    branch is analytic in ln K_key through the critical point, so the least-squares polynomial of
+    degree 7 through the bridge points, evaluated at ln K_key = 0, gives the critical point, and the
+    difference from degree 5 estimates its error. On lean gases the levels of the earlier design,
+    down to 0.005, stalled Newton at residuals near 1e-10.
 
     Returns:
         (bridge points (M, n + 1), critical x, error estimate) or None if a Newton solve failed.
     """
     sign = 1.0 if xa[key] > 0 else -1.0
-    levels = [sign * c for c in _BRIDGE[::-1][1:]] + [-sign * c for c in _BRIDGE]
+    pending = [-sign * c for c in _BRIDGE[::-1]] + [sign * c for c in _BRIDGE[:-1]]  # popped from the end
     points = [np.array(xa, dtype=float)]
     slope = ta / ta[key]
-    for level in levels:
+    while pending:
+        level = pending[-1]
         if len(points) >= 3:
-            nodes = np.array([p[key] for p in points[-3:]])
-            stack = np.array(points[-3:])
-            guess = np.array([np.polyval(np.polyfit(nodes, stack[:, j], 2), level) for j in range(stack.shape[1])])
+            nodes = np.array([p[key] for p in points[-4:]])
+            stack = np.array(points[-4:])
+            degree = min(len(nodes) - 1, 3)
+            guess = np.array([np.polyval(np.polyfit(nodes, stack[:, j], degree), level) for j in range(stack.shape[1])])
         else:
             guess = points[-1] + (level - points[-1][key]) * slope
-        x, norm, ok = _newton(system, guess, key, level, iterations=40, tolerance=1e-13)
-        if not ok:
+        x, norm, ok = _newton(system, guess, key, level, iterations=40, tolerance=_BRIDGE_TOLERANCE,
+                              largest_step=0.1)
+        if ok:
+            points.append(x)
+            pending.pop()
+            continue
+        # A failed (or trivial) solve: step half as far, unless the levels are already close.
+        here = points[-1][key]
+        if abs(level - here) < _BRIDGE_SMALLEST or len(points) + len(pending) > 60:
             return None
-        points.append(x)
+        middle = 0.5 * (here + level)
+        if abs(middle) < 0.5 * _BRIDGE[0]:  # never aim at the critical point itself
+            middle = math.copysign(0.5 * _BRIDGE[0], here)
+            if abs(middle - here) < _BRIDGE_SMALLEST:
+                return None
+        pending.append(middle)
     points = np.array(points)
-    near = points[np.argsort(np.abs(points[:, key]))[:6]]
-    nodes = near[:, key]
-    x_c = np.array([np.polyval(np.polyfit(nodes, near[:, j], 5), 0.0) for j in range(near.shape[1])])
-    x_low = np.array([np.polyval(np.polyfit(nodes[:4], near[:4, j], 3), 0.0) for j in range(near.shape[1])])
+    nodes = points[:, key]
+    x_c = np.array([np.polyval(np.polyfit(nodes, points[:, j], 7), 0.0) for j in range(points.shape[1])])
+    x_low = np.array([np.polyval(np.polyfit(nodes, points[:, j], 5), 0.0) for j in range(points.shape[1])])
     n = system.n
     error = float(np.max(np.abs(x_c[[n, -1]] - x_low[[n, -1]])))
     x_c[:n] = 0.0
@@ -501,33 +547,43 @@ def trace_envelope(
     n = mixture.size
     system = EnvelopeSystem(mixture, z, 0.0)
     x0 = dew_point(mixture, z, float(from_pressure))
-    key = _key_component(x0, n)
     lnP0 = math.log(from_pressure)
-    near = contin.Event("near critical point", lambda u, p, k=key: abs(float(u[k])) - _NEAR_CRITICAL,
+    # Hand over to the controlled step when every ln K is small: near the critical point ln K is
+    # nearly proportional to the critical eigenvector, whose largest entry makes the best key.
+    near = contin.Event("near critical point", lambda u, p: float(np.max(np.abs(u[:n]))) - _NEAR_CRITICAL,
                         direction=-1, terminal=True, kind="near_critical")
     setup = time.perf_counter() - began
     first = _run(system, x0, 1, lnP0, max_points, [near])
     pieces = [first]
-    rows_x = [first.points]
-    norms = [np.asarray(first.residual_norms)]
+    first_points, first_tangents = first.points, first.tangents
+    first_norms = np.asarray(first.residual_norms)
     specials_raw = [(sp, 0) for sp in first.special_points if sp.kind == "fold"]
+    cut = None if first.status == contin.Status.TERMINAL_EVENT else _side_change(system, first.points)
+    if cut is not None:
+        # One long step jumped over the whole near-critical region: keep the dew side only and
+        # cross by the controlled step from its last point.
+        first_points, first_tangents, first_norms = first.points[: cut + 1], first.tangents[: cut + 1], first_norms[: cut + 1]
+        specials_raw = [(sp, 0) for sp, _ in specials_raw if sp.index <= cut]
+    rows_x = [first_points]
+    norms = [first_norms]
     notes = []
     critical = None
     bridge_folds = []
     status, message, success = first.status.label, first.message, first.status.success
     stats = {k: v for k, v in first.stats.items() if isinstance(v, (int, float))}
-    if first.status == contin.Status.TERMINAL_EVENT:
-        bridge = _bridge(system, first.points[-1], first.tangents[-1], key)
+    key = _key_component(first_points[-1], n)
+    if first.status == contin.Status.TERMINAL_EVENT or cut is not None:
+        bridge = _bridge(system, first_points[-1], first_tangents[-1], key)
         if bridge is None:
             status, success = "critical_not_passed", False
             message = "stopped: the controlled step across the critical point did not converge"
         else:
             bridge_points, x_c, error = bridge
             offset = sum(len(r) for r in rows_x)
-            chain = np.vstack([first.points[-1:], bridge_points])
+            chain = np.vstack([first_points[-1:], bridge_points])
             for j, k, x in _bridge_folds(system, chain, key):
                 bridge_folds.append((j, offset + k - 1, x))
-            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first.points[-1][key])))
+            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first_points[-1][key])))
             critical = (offset + before - 1, x_c, error)
             rows_x.append(bridge_points)
             norms.append(np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0])))
