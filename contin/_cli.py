@@ -214,8 +214,12 @@ def _check_outputs(namespace: argparse.Namespace) -> None:
     """Refuse unwritable destinations before any work is done."""
     if namespace.out is not None and Path(namespace.out).exists() and not Path(namespace.out).is_dir():
         raise InputError(f"--out {namespace.out!r} exists and is not a folder; give a folder to write into")
+    out = Path(namespace.out).resolve() if namespace.out is not None else None
     for option, value in (("--plot", namespace.plot), ("--record", namespace.record)):
-        if value is not None and not Path(value).resolve().parent.is_dir():
+        if value is None:
+            continue
+        folder = Path(value).resolve().parent
+        if not folder.is_dir() and folder != out:  # the --out folder is made before anything is written
             raise InputError(f"{option} {value!r}: the folder {str(Path(value).parent)!r} does not exist")
     if namespace.plot is not None and Path(namespace.plot).suffix.lower() not in (".png", ".svg", ".pdf"):
         raise InputError(f"--plot {namespace.plot!r} must end in .png, .svg or .pdf")
