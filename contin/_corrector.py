@@ -21,7 +21,7 @@ class Correction:
         converged: whether the residual and the last Newton step met the tolerance.
         x: last iterate (the corrected point when converged).
         residual: G(x).
-        jacobian: dG/dx at x (evaluated there, so the tangent at x is exact).
+        jacobian: dG/dx at x, or at the last iterate (see ``exact_jacobian``).
         iterations: Newton iterations done.
         residual_norm: largest absolute residual at x.
         reason: why it failed ("" when converged).
@@ -34,6 +34,7 @@ class Correction:
     iterations: int
     residual_norm: float
     reason: str = ""
+    factors: tuple | None = None  # LAPACK LU of [jacobian; row] when the last iteration factorised exactly that
 
 
 def correct(
@@ -124,7 +125,8 @@ def correct(
                 return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
         converged = norm <= tolerance and step <= step_tolerance
         if converged and jacobian_here and not exact_jacobian:
-            return Correction(True, x, residual, jacobian, iteration, norm)
+            # The Jacobian kept is the one just factorised with this row: its LU serves the tangent.
+            return Correction(True, x, residual, jacobian, iteration, norm, factors=(lu, piv))
         residual, jacobian = extended.linearise(x)
         jacobian_here = True
         # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).

@@ -7,11 +7,30 @@ import math
 import numpy as np
 from scipy.linalg.lapack import dgetrf, dgetrs
 
-__all__ = ["Bordered", "SingularMatrix", "tangent"]
+__all__ = ["Bordered", "SingularMatrix", "from_factors", "tangent"]
 
 
 class SingularMatrix(Exception):
     """The bordered matrix is (numerically) singular."""
+
+
+class _Factored:
+    """A bordered factorisation made elsewhere (the corrector's last iteration), for :func:`tangent`."""
+
+    __slots__ = ("row", "_lu")
+
+    def __init__(self, factors: tuple, row: np.ndarray) -> None:
+        self.row = row
+        self._lu = factors
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        solution, info = dgetrs(self._lu[0], self._lu[1], rhs)
+        return solution
+
+
+def from_factors(factors: tuple, row: np.ndarray) -> "_Factored":
+    """Wrap LAPACK LU factors ``(lu, piv)`` of [dG/dx; row] so :func:`tangent` can use them."""
+    return _Factored(factors, row)
 
 
 class Bordered:

@@ -19,7 +19,7 @@ from ._options import TraceOptions
 from ._status import Status
 from ._stepsize import StepController
 from ._system import System
-from ._tangent import Bordered, SingularMatrix, tangent
+from ._tangent import Bordered, SingularMatrix, from_factors, tangent
 
 __all__ = ["trace", "start_vector"]
 
@@ -404,7 +404,9 @@ class _Run:
             accepted = False
             if correction.converged:
                 try:
-                    t_new = tangent(Bordered(correction.jacobian, row), t)
+                    factored = (from_factors(correction.factors, row) if correction.factors is not None
+                                else Bordered(correction.jacobian, row))
+                    t_new = tangent(factored, t)
                     turn = math.acos(min(1.0, max(-1.0, float(t_new @ t))))
                     if self.controller.accepts(turn):
                         accepted = True
