@@ -1,0 +1,84 @@
+"""contin demo: the main job on its embedded default, its files, summary and failure modes."""
+
+from __future__ import annotations
+
+import json
+import os
+
+import pytest
+
+from contin._cli import main
+from contin_thermo._demo import FEED, INTERACTION_STUDY
+
+
+def test_feed_is_a_valid_made_up_composition():
+    assert sum(FEED.values()) == pytest.approx(1.0, abs=1e-12)
+    assert all(value > 0 for value in FEED.values())
+    assert len(INTERACTION_STUDY[1]) >= 3
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("demo") / "out"
+    import io
+    from contextlib import redirect_stdout
+
+    stream = io.StringIO()
+    with redirect_stdout(stream):
+        code = main(["demo", "--out", str(folder)])
+    return code, stream.getvalue(), folder
+
+
+def test_demo_writes_every_file_and_prints_the_special_points(demo):
+    code, out, folder = demo
+    assert code == 0
+    names = sorted(p.name for p in folder.iterdir())
+    assert names == sorted([
+        "envelope.csv", "envelope.json", "envelope.png", "interaction-study.json", "interaction-study.png",
+        "saturation-n-butane.csv", "saturation-n-butane.json", "saturation-propane.csv",
+        "saturation-propane.json", "saturation.png",
+    ])
+    for kind in ("cricondentherm", "critical", "cricondenbar"):
+        assert kind in out
+    assert "degC" in out and "bar" in out  # engineering units in the summary by default
+    assert out.rstrip().splitlines()[-1].startswith("Caution:")
+    envelope = json.loads((folder / "envelope.json").read_text())
+    kinds = {sp["kind"] for sp in envelope["special_points"]}
+    assert kinds == {"cricondentherm", "critical", "cricondenbar"}
+    assert envelope["status"] in ("bound_reached", "completed")
+    assert "Caution" in envelope["caution"]
+    assert (folder / "envelope.png").stat().st_size > 20_000
+    study = json.loads((folder / "interaction-study.json").read_text())
+    assert [run["kij"] for run in study["runs"]] == list(INTERACTION_STUDY[1])
+    bars = [run["cricondenbar"]["P"] for run in study["runs"]]
+    assert bars == sorted(bars)  # a larger methane-n-octane kij widens the envelope here
+
+
+def test_demo_envelope_special_points_are_ordered_as_on_a_gas_envelope(demo):
+    _, _, folder = demo
+    values = {sp["kind"]: sp["values"] for sp in json.loads((folder / "envelope.json").read_text())["special_points"]}
+    # A lean-to-rich natural gas: critical point left of the cricondenbar, which is left of the
+    # cricondentherm (common practice for gas envelopes).
+    assert values["critical"]["T"] < values["cricondenbar"]["T"] < values["cricondentherm"]["T"]
+    assert values["cricondenbar"]["P"] > values["critical"]["P"] > values["cricondentherm"]["P"]
+
+
+def test_unwritable_folder_is_refused_before_any_work(tmp_path, capsys):
+    blocker = tmp_path / "a-file"
+    blocker.write_text("")
+    code = main(["demo", "--out", str(blocker / "inside")])
+    assert code == 2
+    assert "--out: cannot write into" in capsys.readouterr().err
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="root can write into read-only folders")
+def test_read_only_folder_is_refused(tmp_path, capsys):
+    locked = tmp_path / "locked"
+    locked.mkdir()
+    locked.chmod(0o500)
+    try:
+        assert main(["demo", "--out", str(locked)]) == 2
+        assert "cannot write into" in capsys.readouterr().err
+        assert list(locked.iterdir()) == []
+    finally:
+        locked.chmod(0o700)
