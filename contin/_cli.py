@@ -287,8 +287,9 @@ def _run(namespace: argparse.Namespace) -> int:
                             command=command, options={k: v for k, v in problem.options.items() if k != "at"})
         write_record(namespace.record, record)
     if namespace.plot is not None:
-        from ._plot import plot_branch, save_figure
+        from ._plot import _pyplot, plot_branch, save_figure
 
+        _pyplot(headless=True)
         ax = plot_branch(branch, x_axis, y_axis, caption=f"{name}: {branch.message}")
         save_figure(ax.figure, namespace.plot)
     if namespace.json:

@@ -35,13 +35,18 @@ def describe_kind(kind: str) -> str:
     return KIND_STYLES.get(kind, ("o", kind.replace("_", " ")))[1]
 
 
-def _pyplot():
+def _pyplot(headless: bool = False):
+    """matplotlib.pyplot; with ``headless`` (writing files from the command line) on the Agg back end.
+
+    Library calls (``Branch.plot()`` in a notebook) leave the back end alone: matplotlib picks Agg by
+    itself where there is no display.
+    """
     import matplotlib
 
-    if matplotlib.get_backend().lower() not in ("agg", "pdf", "svg", "cairo") and "MPLBACKEND" not in os.environ:
+    if headless and "MPLBACKEND" not in os.environ:
         try:
             matplotlib.use("Agg")
-        except Exception:  # noqa: BLE001 - a backend already in use stays
+        except Exception:  # noqa: BLE001 - a back end already in use stays
             pass
     import matplotlib.pyplot as plt
 
@@ -118,4 +123,7 @@ def save_figure(figure, path: str | os.PathLike, argument: str = "--plot") -> Pa
     if not target.parent.exists():
         raise InputError(f"{argument}: the folder {str(target.parent)!r} does not exist")
     figure.savefig(target, dpi=150)
+    import matplotlib.pyplot as plt
+
+    plt.close(figure)  # a command line writes many figures; keep memory flat
     return target

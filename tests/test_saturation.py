@@ -244,3 +244,19 @@ def test_every_table_fluid_and_family_lands_on_its_critical_point():
             if landing is None or abs(landing["T"] / component.Tc - 1) > 1e-9 or abs(landing["P"] / component.Pc - 1) > 1e-9:
                 failures.append((component.name, eos, result.status))
     assert failures == []
+
+
+# -- notebook conveniences ------------------------------------------------------------------------
+
+def test_curve_result_repr_plot_and_dataframe():
+    from contin_thermo import saturation_curve
+
+    result = saturation_curve("propane", "pr")
+    text = repr(result)
+    assert text.startswith("<saturation of propane (Peng-Robinson)") and "critical point T = 369.83 K" in text
+    left, right = result.plot()
+    assert left.get_xlabel().startswith("temperature") and right.get_ylabel().startswith("temperature")
+    assert len(left.lines) >= 2  # the curve and the critical point
+    frame = result.to_dataframe()
+    assert list(frame.columns) == list(result.columns)
+    assert frame["T"].iloc[-1] == pytest.approx(369.83, rel=1e-9)  # ends on the critical point

@@ -196,8 +196,11 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "engineerin
         InputError: the output folder cannot be written (checked before any work, so nothing is
             half-written), or an unknown unit system.
     """
+    from contin._plot import _pyplot
+
     stream = stream if stream is not None else sys.stdout
     shown = output_units(units)
+    _pyplot(headless=True)  # the demo only writes files
     folder = _prepare_folder(Path(out))
     began = time.perf_counter()
     mixture, z = _mixture(0.0)

@@ -7,24 +7,35 @@ from pathlib import Path
 
 from ._caution import CAUTION
 
-__all__ = ["plot_pure"]
+__all__ = ["draw_pure", "plot_pure"]
 
 
 def plot_pure(result, path: str | Path) -> Path:
     """Draw ``result`` (a saturation, spinodal or critical :class:`CurveResult`) into ``path``.
+
+    PNG, SVG or PDF by the extension. See :func:`draw_pure` for what is drawn.
+    """
+    from contin._plot import _pyplot, save_figure
+
+    _pyplot(headless=True)
+    left, _ = draw_pure(result)
+    return save_figure(left.figure, path)
+
+
+def draw_pure(result, figure=None):
+    """Draw ``result`` on a new figure (or ``figure``) and return its two axes (left, right).
 
     Saturation: vapour pressure against temperature, and temperature against the two saturated
     densities. Spinodal: both spinodal pressures against temperature, and temperature against the two
     spinodal volumes. The critical point is marked on each panel; the caption gives fluid, model and
     the caution.
     """
-    import matplotlib
+    from contin._plot import _pyplot
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    path = Path(path)
-    figure, (left, right) = plt.subplots(1, 2, figsize=(11, 5.2))
+    plt = _pyplot()
+    if figure is None:
+        figure = plt.figure(figsize=(11, 5.2))
+    left, right = figure.subplots(1, 2)
     critical = next((p["values"] for p in result.special_points if p["kind"] == "critical"), None)
     col = result.column
     if result.kind == "saturation":
@@ -66,6 +77,4 @@ def plot_pure(result, path: str | Path) -> Path:
     caption = (f"Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g} ({c.source}). " + CAUTION)
     figure.text(0.5, 0.01, "\n".join(textwrap.wrap(caption, 150)), ha="center", va="bottom", fontsize=7.5)
     figure.tight_layout(rect=(0, 0.08, 1, 0.95))
-    figure.savefig(path, dpi=110)
-    plt.close(figure)
-    return path
+    return left, right

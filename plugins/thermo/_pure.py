@@ -671,6 +671,26 @@ class CurveResult:
         """Write :meth:`csv` atomically to ``path``."""
         return atomic_write_text(path, self.csv(units))
 
+    def plot(self, figure=None):
+        """Draw the result (P-T and T-rho, or the spinodals) and return the two matplotlib axes."""
+        from ._plot_pure import draw_pure
+
+        return draw_pure(self, figure)
+
+    def to_dataframe(self):
+        """The points as a pandas DataFrame in SI units (pandas is not a dependency: install it to use this)."""
+        try:
+            import pandas
+        except ImportError as error:
+            raise InputError("to_dataframe needs pandas, which contin does not install: pip install pandas") from error
+        return pandas.DataFrame(self.points, columns=list(self.columns))
+
+    def __repr__(self) -> str:
+        critical = next((p["values"] for p in self.special_points if p["kind"] == "critical"), None)
+        where = f"; critical point T = {critical['T']:.6g} K, P = {critical['P']:.6g} Pa" if critical else ""
+        return (f"<{self.kind} of {self.component.name} ({self.family.label}): {len(self.points)} points"
+                f"{where}; status {self.status}>")
+
 
 # ---------------------------------------------------------------------------------------------
 # Driving the engine
