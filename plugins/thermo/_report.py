@@ -5,10 +5,10 @@ from __future__ import annotations
 import csv
 import io
 import math
-import os
-import tempfile
 from collections.abc import Mapping, Sequence
 from pathlib import Path
+
+from contin._output import write_text_atomically
 
 from ._caution import CAUTION, caution_comment
 
@@ -16,23 +16,14 @@ __all__ = ["atomic_write_text", "csv_text", "write_csv", "summary_lines", "forma
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:
-    """Write ``text`` to ``path`` through a temporary file in the same directory and an atomic rename.
+    """Write ``text`` to ``path`` atomically (the engine's writer), creating the folder if needed.
 
     A reader never sees a half-written file, and an interrupted run leaves the old file in place.
     """
     path = Path(path)
-    directory = path.parent if str(path.parent) else Path(".")
-    directory.mkdir(parents=True, exist_ok=True)
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
-            stream.write(text)
-        os.replace(temporary, path)
-    except BaseException:
-        if os.path.exists(temporary):
-            os.unlink(temporary)
-        raise
-    return path
+    if str(path.parent):
+        path.parent.mkdir(parents=True, exist_ok=True)
+    return write_text_atomically(path, text)
 
 
 def format_value(value: object) -> str:
