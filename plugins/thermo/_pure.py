@@ -893,21 +893,9 @@ def saturation_curve(
     system = SaturationSystem(pure)
     setup = time.perf_counter() - began
     branch = _trace(system, u0, theta0, at, tolerance, max_step)
-    points = [_saturation_row(pure, x) for x in branch.points]
-    special = []
-    extra_iterations = 0
-    critical_row = None
-    for sp in branch.special_points:
-        if sp.kind == "critical":
-            u, theta, iterations, residual = _polish_critical(system, sp.point[:3], float(sp.point[3]))
-            extra_iterations += iterations
-            critical_row = _saturation_row(pure, np.append(u, theta))
-            points[sp.index] = critical_row
-            special.append({
-                "kind": "critical", "name": "critical point", "index": sp.index,
-                "values": {"T": critical_row[0], "P": critical_row[1], "v": critical_row[2]},
-                "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
-            })
+    row = lambda x: _saturation_row(pure, x)  # noqa: E731
+    points = [row(x) for x in branch.points]
+    special, extra_iterations, critical_row = _pin_critical(system, branch, points, row, {"T": 0, "P": 1, "v": 2})
     at_rows = [_snap(_saturation_row(pure, sp.point), {0: temperatures, 1: pressures}) for sp in branch.at]
     if critical_row is not None:
         at_rows += [critical_row for T in temperatures if T >= pure.component.Tc]
@@ -919,6 +907,29 @@ def saturation_curve(
         np.array(points), tuple(special), np.array(at_rows).reshape(-1, len(SATURATION_COLUMNS)),
         status, _message(branch, critical_row is not None), _stats(branch, setup, extra_iterations),
     )
+
+
+def _pin_critical(system, branch: contin.Branch, points: list, row, columns: dict):
+    """Put the branch's last point exactly on the critical point (Newton with zero phase width).
+
+    Replaces that row of ``points`` in place; returns (special points, extra Newton iterations, the
+    critical row or None). ``columns`` maps T, P, v to their positions in a row.
+    """
+    special, extra_iterations, critical_row = [], 0, None
+    n = len(system.unknowns)
+    for sp in branch.special_points:
+        if sp.kind != "critical":
+            continue
+        u, theta, iterations, residual = _polish_critical(system, sp.point[:n], float(sp.point[n]))
+        extra_iterations += iterations
+        critical_row = row(np.append(u, theta))
+        points[sp.index] = critical_row
+        special.append({
+            "kind": "critical", "name": "critical point", "index": sp.index,
+            "values": {name: critical_row[k] for name, k in columns.items()},
+            "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
+        })
+    return special, extra_iterations, critical_row
 
 
 def _message(branch: contin.Branch, landed: bool) -> str:
@@ -963,21 +974,9 @@ def spinodal_curve(
     system = SpinodalSystem(pure)
     setup = time.perf_counter() - began
     branch = _trace(system, u0, theta0, {FREE: inner} if inner else {}, tolerance, max_step)
-    points = [_spinodal_row(pure, x) for x in branch.points]
-    special = []
-    extra_iterations = 0
-    critical_row = None
-    for sp in branch.special_points:
-        if sp.kind == "critical":
-            u, theta, iterations, residual = _polish_critical(system, sp.point[:2], float(sp.point[2]))
-            extra_iterations += iterations
-            critical_row = _spinodal_row(pure, np.append(u, theta))
-            points[sp.index] = critical_row
-            special.append({
-                "kind": "critical", "name": "critical point", "index": sp.index,
-                "values": {"T": critical_row[0], "P": critical_row[2], "v": critical_row[1]},
-                "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
-            })
+    row = lambda x: _spinodal_row(pure, x)  # noqa: E731
+    points = [row(x) for x in branch.points]
+    special, extra_iterations, critical_row = _pin_critical(system, branch, points, row, {"T": 0, "P": 2, "v": 1})
     at_rows = [_snap(_spinodal_row(pure, sp.point), {0: temperatures}) for sp in branch.at]
     if critical_row is not None:
         at_rows += [critical_row for T in temperatures if T >= pure.component.Tc]
