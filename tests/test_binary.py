@@ -46,3 +46,46 @@ def test_not_a_binary():
 def test_temperature_above_critical_of_second():
     with pytest.raises(InputError, match="at or above the critical temperature of n-butane"):
         pxy(PB, 450.0)
+
+
+def _hk_at(mixture, x1):
+    from contin_thermo._mixture_critical import critical_point
+
+    return critical_point(mixture, [x1, 1.0 - x1])
+
+
+def test_pxy_above_the_lighter_critical_temperature_stops_at_the_critical_point():
+    # 250 K lies above methane's Tc (190.56 K, Poling et al. 5th ed.; memory) and below propane's, so
+    # the two-phase region closes at a critical point before x1 = 1 (common practice).
+    mixture = Mixture((lookup("methane"), lookup("propane")), family("pr"))
+    diagram = pxy(mixture, 250.0)
+    assert diagram.success
+    critical = [sp for sp in diagram.special_points if sp["kind"] == "critical"]
+    assert len(critical) == 1 and critical[0]["index"] == len(diagram.rows) - 1
+    last = diagram.rows[-1]
+    assert last[0] == last[1] and last[3] == last[4]  # x1 = y1 and one volume at the critical point
+    # never past the critical point and back down the dew side: the vapour stays the lighter phase
+    assert all(r[4] > r[3] and r[1] > r[0] for r in diagram.rows[:-1])
+    # Independent check: Heidemann & Khalil (AIChE J. 26 (1980) 769) at that composition gives T = 250 K.
+    hk = _hk_at(mixture, critical[0]["values"]["x1"])
+    assert hk.T == pytest.approx(250.0, rel=1e-9)
+    assert hk.P == pytest.approx(critical[0]["values"]["P"], rel=1e-6)
+
+
+def test_txy_above_the_lighter_critical_pressure_stops_at_the_critical_point():
+    # 6 MPa lies above methane's Pc (4.599 MPa) and below that of carbon dioxide (7.374 MPa)
+    # (Poling et al. 5th ed.; memory), so the Txy region closes at a critical point.
+    mixture = Mixture((lookup("methane"), lookup("carbon dioxide")), family("pr"))
+    diagram = txy(mixture, 6e6)
+    assert diagram.success and diagram.rows[-1][0] < 1.0
+    sp = [s for s in diagram.special_points if s["kind"] == "critical"][0]
+    hk = _hk_at(mixture, sp["values"]["x1"])
+    assert hk.P == pytest.approx(6e6, rel=1e-9)
+    assert hk.T == pytest.approx(sp["values"]["T"], rel=1e-6)
+    assert all(r[4] > r[3] for r in diagram.rows[:-1])
+
+
+def test_pxy_below_both_critical_temperatures_has_no_critical_point():
+    diagram = pxy(PB, 330.0)
+    assert [sp["kind"] for sp in diagram.special_points] == []
+    assert diagram.rows[-1][0] == pytest.approx(1.0)

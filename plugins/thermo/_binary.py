@@ -3,9 +3,14 @@
 The bubble-point equations of the envelope system (``_envelope.EnvelopeSystem``: liquid feed
 x = (x1, 1 - x1), incipient vapour y = K x, volumes as unknowns) are traced with the liquid mole
 fraction x1 as the free parameter, from the pure second component (x1 = 0) towards the pure first
-one, or until the two-phase region closes at a critical point (the phase volumes meet). An
-azeotrope (x = y with distinct phases) is a zero of ln K_1 and is reported as an ``azeotrope``
-special point.
+one, or until the two-phase region closes at a critical point. An azeotrope (x = y with distinct
+phases) is a zero of ln K_1 and is reported as an ``azeotrope`` special point.
+
+Where the region closes, the equations grow ill-conditioned as the phases merge (as on a phase
+envelope), so the trace stops while the phases are still distinct (a terminal event at
+ln(v_vapour / v_liquid) = _NEAR_CLOSING) and the end is the binary critical point at the fixed T or P,
+solved from the Heidemann-Khalil criterion (AIChE J. 26 (1980) 769) from there; it is the last row
+(x1 = y1, equal volumes) and a ``critical`` special point.
 """
 
 from __future__ import annotations
@@ -26,6 +31,8 @@ __all__ = ["BinaryDiagram", "pxy", "txy"]
 
 # The two-phase region counts as closed (critical point approached) below this |ln(v_vapour/v_liquid)|.
 _CLOSING = 0.01
+# The trace hands over to the critical-point solve at this ln(v_vapour / v_liquid).
+_NEAR_CLOSING = 0.1
 
 
 @dataclass(frozen=True)
@@ -144,14 +151,23 @@ def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
         raise InputError(f"{'--temperature' if kind == 'pxy' else '--pressure'} {fixed!r} must be a positive number")
     u0 = _start(mixture, kind, float(fixed))
     system = _BinarySystem(mixture, kind, fixed)
-    events = [
-        contin.Event("azeotrope", lambda u, p: float(u[0]), kind="azeotrope"),
-        contin.Event("critical point", lambda u, p: float(u[4] - u[3]), terminal=True, kind="critical"),
-    ]
+    events = [contin.Event("azeotrope", lambda u, p: float(u[0]), kind="azeotrope"),
+              contin.Event("closing", lambda u, p: float(u[4] - u[3]) - _NEAR_CLOSING, direction=-1, terminal=True,
+                           kind="closing")]
     branch = contin.trace(system, u0, free="x1", parameters={"x1": 0.0}, direction=1, step=0.02, max_step=0.05,
-                          min_step=1e-10, tolerance=1e-10, bounds={"x1": (0.0, 1.0)}, events=events, max_points=600,
-                          corrector="local")
+                          min_step=1e-10, tolerance=1e-10, events=events, max_points=600, corrector="local",
+                          bounds={"x1": (0.0, 1.0)})
     pts = branch.points
+    keep = np.ones(len(pts), dtype=bool)
+    keep[1:] = np.abs(np.diff(pts[:, -1])) > 1e-13  # a bound landed on a point already there
+    pts = pts[keep]
+    # A long step may still jump over the closing: cut at the first change of the volumes' order.
+    gap = pts[:, 4] - pts[:, 3]
+    crossed = np.flatnonzero(np.sign(gap[1:]) != np.sign(gap[:-1]))
+    end = int(crossed[0]) + 1 if crossed.size else len(pts)
+    pts = pts[:end]
+    closing = crossed.size > 0 or (branch.status == contin.Status.TERMINAL_EVENT
+                                   and branch.special_points[-1].kind == "closing")
     x1 = pts[:, -1]
     y1 = np.exp(pts[:, 0]) * x1
     other = np.exp(pts[:, 2])
@@ -160,17 +176,89 @@ def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
     name = "P" if kind == "pxy" else "T"
     specials = []
     for sp in branch.special_points:
-        if sp.kind not in ("azeotrope", "critical"):
-            continue
-        if sp.kind == "azeotrope" and abs(sp.point[4] - sp.point[3]) < 2 * _CLOSING:
+        if sp.kind != "azeotrope" or sp.index >= len(pts) or abs(sp.point[4] - sp.point[3]) < 2 * _CLOSING:
             continue  # K = 1 at the closing critical point is not an azeotrope
         values = {"x1": float(sp.point[-1]), name: float(math.exp(sp.point[2]))}
-        info = {"note": "where the phase volumes meet"} if sp.kind == "critical" else {}
         specials.append({"kind": sp.kind, "name": sp.name, "index": sp.index, "values": values,
-                         "located_to": sp.located_to, "info": info})
+                         "located_to": sp.located_to, "info": {}})
+    status, message, success = branch.status.label, branch.message, branch.success
+    if closing:
+        last = pts[-1]
+        guess = (float(last[-1]), math.exp(float(last[2])), 0.5 * float(last[3] + last[4]))
+        critical = _critical_end(mixture, kind, float(fixed), guess)
+        if critical is None:
+            status, success = "critical_not_located", False
+            message = "stopped: the two-phase region closes here, but its critical point was not located"
+        else:
+            xc, other_c, vc, residual = critical
+            rows.append([xc, xc, other_c, vc, vc])
+            specials.append({"kind": "critical", "name": "critical point", "index": len(rows) - 1,
+                             "values": {"x1": xc, name: other_c}, "located_to": residual,
+                             "info": {"note": "Heidemann-Khalil critical point of the binary at the fixed "
+                                              + ("temperature" if kind == "pxy" else "pressure")}})
+            status, success = "terminal_event", True
+            message = (f"completed: the two-phase region closes at the critical point x1 = {xc:.6g}, "
+                       f"{name} = {other_c:.6g} {'Pa' if kind == 'pxy' else 'K'}")
     columns = ("x1", "y1", name, "v_liquid", "v_vapour")
-    return BinaryDiagram(kind, mixture, float(fixed), columns, rows, specials, branch.status.label, branch.message,
-                         branch.success, dict(branch.stats))
+    return BinaryDiagram(kind, mixture, float(fixed), columns, rows, specials, status, message, success,
+                         dict(branch.stats))
+
+
+def _critical_end(mixture: Mixture, kind: str, fixed: float, guess: tuple[float, float, float]):
+    """The binary critical point at fixed T (pxy) or P (txy) near ``guess`` = (x1, P or T, ln v).
+
+    Newton's method with central differences on the Heidemann-Khalil conditions (smallest eigenvalue
+    and cubic form, ``_mixture_critical.critical_conditions``), in (x1, ln v) at fixed T, or in
+    (x1, ln T, ln v) with P(T, v, x) = P added at fixed P.
+
+    Returns:
+        (x1, P or T, molar volume, largest scaled residual) or None if Newton fails.
+    """
+    from ._mixture_critical import critical_conditions
+
+    x1, other, ln_v = guess
+    if kind == "pxy":
+        T = fixed
+        x = np.array([x1, ln_v])
+    else:
+        x = np.array([x1, math.log(other), ln_v])
+
+    def g(x):
+        z = np.array([x[0], 1.0 - x[0]])
+        T_here = fixed if kind == "pxy" else math.exp(x[1])
+        v = math.exp(x[-1])
+        eigenvalue, cubic = critical_conditions(mixture, z, T_here, v)
+        values = [eigenvalue, cubic]
+        if kind == "txy":
+            values.append(mixture.pressure(T_here, v, z) / fixed - 1.0)
+        return np.array(values)
+
+    r = g(x)
+    for _ in range(30):
+        h = 1e-7
+        J = np.column_stack([(g(x + h * e) - g(x - h * e)) / (2 * h) for e in np.eye(x.size)])
+        try:
+            dx = np.linalg.solve(J, -r)
+        except np.linalg.LinAlgError:
+            return None
+        if not np.all(np.isfinite(dx)):
+            return None
+        largest = float(np.max(np.abs(dx)))
+        if largest > 0.05:
+            dx *= 0.05 / largest
+        x = x + dx
+        if not 0.0 < x[0] < 1.0:
+            return None
+        r = g(x)
+        if largest < 1e-12:
+            break
+    if not np.all(np.isfinite(r)) or np.max(np.abs(r)) > 1e-8:
+        return None
+    z = np.array([x[0], 1.0 - x[0]])
+    v = math.exp(x[-1])
+    T = fixed if kind == "pxy" else math.exp(x[1])
+    other = mixture.pressure(T, v, z) if kind == "pxy" else T
+    return float(x[0]), float(other), float(v), float(np.max(np.abs(r)))
 
 
 def pxy(mixture: Mixture, temperature: float) -> BinaryDiagram:
