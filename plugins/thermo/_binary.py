@@ -178,6 +178,8 @@ def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
     for sp in branch.special_points:
         if sp.kind != "azeotrope" or sp.index >= len(pts) or abs(sp.point[4] - sp.point[3]) < 2 * _CLOSING:
             continue  # K = 1 at the closing critical point is not an azeotrope
+        if not 1e-9 < sp.point[-1] < 1.0 - 1e-9:
+            continue  # nor is K_1 = 1 at the pure first component
         values = {"x1": float(sp.point[-1]), name: float(math.exp(sp.point[2]))}
         specials.append({"kind": sp.kind, "name": sp.name, "index": sp.index, "values": values,
                          "located_to": sp.located_to, "info": {}})
