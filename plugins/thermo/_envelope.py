@@ -42,8 +42,11 @@ ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipi
 
 # Tolerance on the residual (relative pressure, ln fugacity): far below any use of the numbers.
 _TOLERANCE = 1e-10
-# First step of each traced piece (in the log coordinates).
-_STEP = 0.2
+# First and longest step of each traced piece (in the log coordinates). The corrector takes three
+# Newton iterations at these tolerances, which the engine's controller reads as "keep the step", so
+# the first step is in effect the step of the whole smooth dew side.
+_STEP = 1.0
+_MAX_STEP = 1.5
 # |ln K_key| at which the trace hands over to the controlled step across the critical point, and the
 # levels of ln K_key of that step (see _bridge).
 _NEAR_CRITICAL = 0.1
@@ -79,6 +82,7 @@ class EnvelopeSystem(contin.CallableSystem):
                          jacobian=self._jacobian_only, equations=equations)
         self.n = n
         self.evaluations = 0
+        self._memo = None
 
     def compositions(self, lnK: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(x, y) for these ln K: x = z / (1 + beta (K - 1)), y = K x."""
@@ -86,51 +90,64 @@ class EnvelopeSystem(contin.CallableSystem):
         x = self.z / (1.0 + self.beta * (K - 1.0)) if self.beta else self.z
         return x, K * x
 
+    def _attraction(self, T: float):
+        # One-entry memo: the engine asks for the residual and then the Jacobian at the same point.
+        if self._memo is None or self._memo[0] != T:
+            self._memo = (T, self.mixture.attraction_roots(T))
+        return self._memo[1]
+
     def evaluate(self, u: np.ndarray, lnP: float, with_jacobian: bool = True):
         """(F, dF/du, dF/dlnP); NaN residuals where the volumes fall below the co-volumes."""
         n = self.n
+        mixture = self.mixture
         lnK = u[:n]
-        T, Vx, Vy = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2])
-        P = math.exp(lnP)
-        x, y = self.compositions(lnK)
         try:
-            attraction = self.mixture.attraction(T)
-            sx = self.mixture.state(T, Vx, x, attraction)
-            sy = self.mixture.state(T, Vy, y, attraction)
+            T, Vx, Vy = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2])
+            P = math.exp(lnP)
+            K = np.exp(lnK)
+            x, y = (self.z / (1.0 + self.beta * (K - 1.0)) if self.beta else self.z), None
+            y = K * x
+            A, slope = self._attraction(T)
+            if not with_jacobian:
+                Fx, Px = mixture.fugacity_pressure(T, Vx, x, A)
+                Fy, Py = mixture.fugacity_pressure(T, Vy, y, A)
+            else:
+                Fx, Px, PVx, PTx, Pnx, FnVx, FnTx, Fnnx = mixture.linear_state(T, Vx, x, A, slope, bool(self.beta))
+                Fy, Py, PVy, PTy, Pny, FnVy, FnTy, Fnny = mixture.linear_state(T, Vy, y, A, slope)
         except (ValueError, OverflowError, FloatingPointError):
             nan = np.full(n + 3, np.nan)
             return nan, np.full((n + 3, n + 3), np.nan), nan
         r = np.empty(n + 3)
-        r[:n] = lnK - u[n + 2] + sy.F_n + u[n + 1] - sx.F_n
-        r[n] = sx.P / P - 1.0
-        r[n + 1] = sy.P / P - 1.0
+        r[:n] = lnK - u[n + 2] + Fy + u[n + 1] - Fx
+        r[n] = Px / P - 1.0
+        r[n + 1] = Py / P - 1.0
         r[n + 2] = y.sum() - x.sum()
         if not with_jacobian:
             return r, None, None
         self.evaluations += 1
+        J = np.zeros((n + 3, n + 3))
         if self.beta:
-            K = np.exp(lnK)
             denominator = 1.0 + self.beta * (K - 1.0)
             cx = -self.beta * K * x / denominator
             cy = y - self.beta * K * y / denominator
+            J[:n, :n] = Fnny * cy[None, :] - Fnnx * cx[None, :]
+            J[n, :n] = Pnx * cx / P
         else:
-            cx = np.zeros(n)
             cy = y
-        J = np.zeros((n + 3, n + 3))
-        J[:n, :n] = np.eye(n) + sy.F_nn * cy[None, :] - sx.F_nn * cx[None, :]
-        J[:n, n] = T * (sy.F_nT - sx.F_nT)
-        J[:n, n + 1] = 1.0 - Vx * sx.F_nV
-        J[:n, n + 2] = -1.0 + Vy * sy.F_nV
-        J[n, :n] = sx.P_n * cx / P
-        J[n, n] = T * sx.P_T / P
-        J[n, n + 1] = Vx * sx.P_V / P
-        J[n + 1, :n] = sy.P_n * cy / P
-        J[n + 1, n] = T * sy.P_T / P
-        J[n + 1, n + 2] = Vy * sy.P_V / P
-        J[n + 2, :n] = cy - cx
+            J[:n, :n] = Fnny * y[None, :]
+        J[:n, :n] += np.eye(n)
+        J[:n, n] = T * (FnTy - FnTx)
+        J[:n, n + 1] = 1.0 - Vx * FnVx
+        J[:n, n + 2] = -1.0 + Vy * FnVy
+        J[n, n] = T * PTx / P
+        J[n, n + 1] = Vx * PVx / P
+        J[n + 1, :n] = Pny * cy / P
+        J[n + 1, n] = T * PTy / P
+        J[n + 1, n + 2] = Vy * PVy / P
+        J[n + 2, :n] = cy - cx if self.beta else cy
         dp = np.zeros(n + 3)
-        dp[n] = -sx.P / P
-        dp[n + 1] = -sy.P / P
+        dp[n] = -Px / P
+        dp[n + 1] = -Py / P
         return r, J, dp
 
     # contin's System interface ------------------------------------------------------------------
@@ -221,12 +238,15 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
         return float(np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0))))
 
     grid = np.linspace(math.log(20.0), math.log(5000.0), 200)
-    values = [condition(g) for g in grid]
-    lnT = None
-    for k in range(len(grid) - 1):
-        if np.sign(values[k]) != np.sign(values[k + 1]):
-            lnT = brentq(condition, grid[k], grid[k + 1], xtol=1e-12)
-            break
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        K = mixture.wilson(np.exp(grid)[:, None], pressure)  # the whole grid at once, (200, N)
+        if beta >= 1.0:
+            values = np.log(np.sum(z / K, axis=1))
+        else:
+            values = np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0)), axis=1)
+    signs = np.sign(values)
+    changes = np.flatnonzero((signs[:-1] != signs[1:]) & np.isfinite(values[:-1]) & np.isfinite(values[1:]))
+    lnT = brentq(condition, grid[changes[0]], grid[changes[0] + 1], xtol=1e-12) if changes.size else None
     if lnT is None:
         raise InputError(f"--from-pressure {pressure:g} Pa: Wilson's K-values give no dew point; try a lower pressure")
     T = math.exp(lnT)
@@ -404,34 +424,52 @@ def _tangent(system: EnvelopeSystem, x: np.ndarray) -> np.ndarray:
 
 
 def _bridge_folds(system: EnvelopeSystem, points: np.ndarray, key: int) -> list[tuple[int, int, np.ndarray]]:
-    """Turning points of ln T and ln P between consecutive bridge points, by Brent's method on ln K_key.
+    """Turning points of ln T and ln P between consecutive bridge points, on ln K_key.
 
     Along the bridge the branch is parametrised by c = ln K_key; a fold of coordinate j is a zero of
-    dx_j/dc, computed from the tangent of a Newton-converged point at each trial c.
+    dx_j/dc. The least-squares polynomial through the bridge points (as for the critical point) gives
+    the candidates; each is refined by the secant method on the exact slope t_j / t_key from the
+    tangent of a Newton-converged point, until c changes by less than 1e-10 (the values at a fold
+    are stationary, so T and P there are then known to round-off).
 
     Returns:
         list of (coordinate, index of the bridge point before it, the located point).
     """
     n = system.n
+    c = points[:, key]
+    order = np.argsort(c)
+    low, high = float(c[order[0]]), float(c[order[-1]])
+    degree = min(7, len(points) - 1)
     found = []
 
-    def slope(c, j, guess):
-        x, _, ok = _newton(system, guess, key, c, iterations=40, tolerance=_BRIDGE_TOLERANCE, largest_step=0.1)
+    def solve(level, guess):
+        x, _, ok = _newton(system, guess, key, level, iterations=40, tolerance=_BRIDGE_TOLERANCE, largest_step=0.1)
         t = _tangent(system, x)
-        return t[j] / t[key], x
+        return x, t[j] / t[key]
 
-    tangents = [_tangent(system, p) for p in points]
     for j in (n, n + 3):
-        for k in range(len(points) - 1):
-            a = tangents[k][j] / tangents[k][key]
-            b = tangents[k + 1][j] / tangents[k + 1][key]
-            if a * b < 0:
-                ca, cb = points[k][key], points[k + 1][key]
-                guess = points[k]
-                c = brentq(lambda c: slope(c, j, guess + (c - ca) / (cb - ca) * (points[k + 1] - guess))[0],
-                           ca, cb, xtol=1e-14)
-                x = slope(c, j, guess + (c - ca) / (cb - ca) * (points[k + 1] - guess))[1]
-                found.append((j, k, x))
+        polynomial = np.polynomial.Polynomial.fit(c, points[:, j], degree)
+        slope = polynomial.deriv()
+        roots = [float(r.real) for r in slope.roots() if abs(r.imag) < 1e-9 and low < r.real < high]
+        for root in sorted(roots):
+            guess = np.array([np.polynomial.Polynomial.fit(c, points[:, i], degree)(root) for i in range(points.shape[1])])
+            a, xa = root, None
+            xa, sa = solve(a, guess)
+            b = a + 1e-6 * (high - low)
+            xb, sb = solve(b, xa)
+            for _ in range(8):
+                if sb == sa:
+                    break
+                step = -sb * (b - a) / (sb - sa)
+                a, xa, sa = b, xb, sb
+                b = b + step
+                xb, sb = solve(b, xa)
+                # The value at a fold is stationary: an error d in c moves it by O(d^2) only.
+                if abs(step) < 1e-10:
+                    break
+            # index of the bridge point just before the fold, in the order the bridge was walked
+            same_side = np.flatnonzero(np.sign(c - b) == np.sign(c[0] - b))
+            found.append((j, int(same_side[-1]) if same_side.size else 0, xb))
     return found
 
 
@@ -496,12 +534,13 @@ def _fold_value(sp) -> tuple[float, float]:
     return math.exp(sp.values["lnT"]), math.exp(sp.values["lnP"])
 
 
-def _run(system, x, direction, lnP0, max_points, events, folds=("lnT",)):
+def _run(system, x, direction, lnP0, max_points, extra_bounds=None, folds=("lnT",)):
+    bounds = {"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))}
+    bounds.update(extra_bounds or {})
     return contin.trace(
         system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=_STEP,
-        max_step=0.6, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
-        bounds={"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))},
-        events=events, folds=folds, corrector="local",
+        max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
+        bounds=bounds, folds=folds, corrector="local",
     )
 
 
@@ -548,42 +587,39 @@ def trace_envelope(
     system = EnvelopeSystem(mixture, z, 0.0)
     x0 = dew_point(mixture, z, float(from_pressure))
     lnP0 = math.log(from_pressure)
-    # Hand over to the controlled step when every ln K is small: near the critical point ln K is
-    # nearly proportional to the critical eigenvector, whose largest entry makes the best key.
-    near = contin.Event("near critical point", lambda u, p: float(np.max(np.abs(u[:n]))) - _NEAR_CRITICAL,
-                        direction=-1, terminal=True, kind="near_critical")
+    # Hand over to the controlled step when the ln K of an outer component (largest in size at the
+    # start) falls to _NEAR_CRITICAL in size: a bound on that coordinate is landed on exactly by one
+    # correction at fixed ln K, and no long step can jump over it.
+    start_key = _key_component(x0, n)
+    hand_over = f"lnK_{mixture.names[start_key]}"
+    limit = (-1e3, -_NEAR_CRITICAL) if x0[start_key] < 0 else (_NEAR_CRITICAL, 1e3)
     setup = time.perf_counter() - began
-    first = _run(system, x0, 1, lnP0, max_points, [near])
+    first = _run(system, x0, 1, lnP0, max_points, {hand_over: limit})
+    near_critical = (first.status == contin.Status.BOUND_REACHED and bool(first.special_points)
+                     and first.special_points[-1].info.get("coordinate") == hand_over)
     pieces = [first]
-    first_points, first_tangents = first.points, first.tangents
-    first_norms = np.asarray(first.residual_norms)
+    rows_x = [first.points]
+    norms = [np.asarray(first.residual_norms)]
     specials_raw = [(sp, 0) for sp in first.special_points if sp.kind == "fold"]
-    cut = None if first.status == contin.Status.TERMINAL_EVENT else _side_change(system, first.points)
-    if cut is not None:
-        # One long step jumped over the whole near-critical region: keep the dew side only and
-        # cross by the controlled step from its last point.
-        first_points, first_tangents, first_norms = first.points[: cut + 1], first.tangents[: cut + 1], first_norms[: cut + 1]
-        specials_raw = [(sp, 0) for sp, _ in specials_raw if sp.index <= cut]
-    rows_x = [first_points]
-    norms = [first_norms]
     notes = []
     critical = None
     bridge_folds = []
     status, message, success = first.status.label, first.message, first.status.success
     stats = {k: v for k, v in first.stats.items() if isinstance(v, (int, float))}
-    key = _key_component(first_points[-1], n)
-    if first.status == contin.Status.TERMINAL_EVENT or cut is not None:
-        bridge = _bridge(system, first_points[-1], first_tangents[-1], key)
+    key = _key_component(first.points[-1], n)
+    cut = None if near_critical else _side_change(system, first.points)
+    if near_critical:
+        bridge = _bridge(system, first.points[-1], first.tangents[-1], key)
         if bridge is None:
             status, success = "critical_not_passed", False
             message = "stopped: the controlled step across the critical point did not converge"
         else:
             bridge_points, x_c, error = bridge
-            offset = sum(len(r) for r in rows_x)
-            chain = np.vstack([first_points[-1:], bridge_points])
+            offset = len(first.points)
+            chain = np.vstack([first.points[-1:], bridge_points])
             for j, k, x in _bridge_folds(system, chain, key):
                 bridge_folds.append((j, offset + k - 1, x))
-            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first_points[-1][key])))
+            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first.points[-1][key])))
             critical = (offset + before - 1, x_c, error)
             rows_x.append(bridge_points)
             norms.append(np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0])))
@@ -593,7 +629,7 @@ def trace_envelope(
             if np.sign(t_b[key]) != np.sign(x_b[key]):
                 t_b = -t_b
             offset = sum(len(r) for r in rows_x)
-            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points, [])
+            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points)
             pieces.append(second)
             # The second piece starts on the last bridge point: drop the duplicate.
             rows_x.append(second.points[1:])
@@ -603,6 +639,29 @@ def trace_envelope(
             for k, v in second.stats.items():
                 if isinstance(v, (int, float)):
                     stats[k] = stats.get(k, 0) + v
+    elif cut is not None:
+        # One long step of the engine jumped over the whole near-critical region (the phase volumes
+        # changed order between rows cut and cut + 1). The branch is complete; the controlled step
+        # from row cut only pins the critical point down, and its points inside that step are added.
+        key = _key_component(first.points[cut], n)
+        bridge = _bridge(system, first.points[cut], first.tangents[cut], key)
+        if bridge is None:
+            status, success = "critical_not_located", False
+            message = "stopped: the critical point was passed but the controlled step there did not converge"
+        else:
+            bridge_points, x_c, error = bridge
+            c0, c1 = first.points[cut][key], first.points[cut + 1][key]
+            inside = (bridge_points[:, key] - c0) * (bridge_points[:, key] - c1) < 0
+            inner = bridge_points[inside]
+            inner = inner[np.argsort((inner[:, key] - c0) * np.sign(c1 - c0))]
+            rows_x = [first.points[: cut + 1], inner, first.points[cut + 1:]]
+            first_norms = norms[0]
+            norms = [first_norms[: cut + 1],
+                     np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0]))) for p in inner]),
+                     first_norms[cut + 1:]]
+            specials_raw = [(sp, len(inner) if sp.index > cut else 0) for sp, _ in specials_raw]
+            before = int(np.sum(np.sign(inner[:, key]) == np.sign(c0)))
+            critical = (cut + before, x_c, error)
     traced = time.perf_counter()
     points = np.vstack(rows_x)
     residual_norms = np.concatenate(norms)

@@ -11,7 +11,9 @@ Units: K, Pa, m^3 and mol throughout.
 
 from __future__ import annotations
 
+import functools
 import math
+import operator
 from dataclasses import dataclass, field
 from collections.abc import Sequence
 
@@ -24,6 +26,29 @@ from ._helmholtz import GAS_CONSTANT, derivatives
 __all__ = ["Mixture", "PhaseState", "rachford_rice", "wilson_k"]
 
 R = GAS_CONSTANT
+
+# Positions of the values the hot paths use in the compiled tuples (see _helmholtz.derivative_names).
+_FIRST = ("F_n", "F_V", "F_B", "F_D")
+_SECOND = ("F_n", "F_V", "F_B", "F_D", "F_nn", "F_nT", "F_nV", "F_nB", "F_nD", "F_TV", "F_TB", "F_TD",
+           "F_VV", "F_VB", "F_VD", "F_BB", "F_BD", "F_DD")
+
+
+@dataclass(frozen=True)
+class _Compiled:
+    """The scalar compiled Helmholtz derivatives of one family with the positions the hot paths read."""
+
+    first: object
+    second: object
+    first_at: object  # itemgetter of _FIRST from the order-1 tuple
+    second_at: object  # itemgetter of _SECOND from the order-2 tuple
+
+
+@functools.lru_cache(maxsize=None)
+def _compiled(delta1: float, delta2: float) -> _Compiled:
+    first = derivatives(delta1, delta2, order=1)
+    second = derivatives(delta1, delta2, order=2)
+    return _Compiled(first._scalar, second._scalar, operator.itemgetter(*(first.names.index(k) for k in _FIRST)),
+                     operator.itemgetter(*(second.names.index(k) for k in _SECOND)))
 
 
 @dataclass(frozen=True)
@@ -138,23 +163,108 @@ class Mixture:
         """Compiled second-order derivatives of the residual Helmholtz energy for this family."""
         return derivatives(self.family.delta1, self.family.delta2, order=2)
 
+    @functools.cached_property
+    def _constants(self):
+        # What does not change along a trace: 1 - k_ij, sqrt(a_c), the alpha slopes m and sqrt(Tc),
+        # and the compiled scalar derivatives of the family.
+        return (1.0 - self.kij, np.sqrt(self.a_critical), np.asarray(self.family.m(self.omega), dtype=float),
+                np.sqrt(self.Tc), _compiled(self.family.delta1, self.family.delta2))
+
+    def attraction_roots(self, T: float) -> tuple[np.ndarray, np.ndarray]:
+        """a_ij(T), array (N, N), and l_i = d ln sqrt(a_i)/dT (1/K), so da_ij/dT = a_ij (l_i + l_j)."""
+        one_minus_k, root_ac, m, root_tc, _ = self._constants
+        if self.family.alpha_form == "soave":
+            s = math.sqrt(T) / root_tc
+            g = 1.0 + m * (1.0 - s)
+            root = root_ac * g
+            slope = -0.5 * m * s / (T * g)
+        else:
+            alpha, dalpha, _ = self.family.alpha(T, self.Tc, self.omega)
+            root = root_ac * np.sqrt(alpha)
+            slope = 0.5 * dalpha / alpha
+        return one_minus_k * np.outer(root, root), slope
+
     def attraction(self, T: float) -> tuple[np.ndarray, np.ndarray]:
         """a_ij(T) and da_ij/dT, arrays (N, N), with a_ij = (1 - k_ij) sqrt(a_i a_j)."""
-        alpha, dalpha, _ = self.family.alpha(T, self.Tc, self.omega)
-        a = self.a_critical * alpha
-        root = np.sqrt(a)
-        matrix = (1.0 - self.kij) * np.outer(root, root)
-        log_slope = 0.5 * dalpha / alpha  # d ln sqrt(a_i) / dT
-        return matrix, matrix * (log_slope[:, None] + log_slope[None, :])
+        matrix, slope = self.attraction_roots(T)
+        return matrix, matrix * (slope[:, None] + slope[None, :])
 
     # -- Helmholtz side: T, V, n -----------------------------------------------------------------
+    def fugacity_pressure(self, T: float, V: float, n: np.ndarray, A: np.ndarray) -> tuple[np.ndarray, float]:
+        """(dF/dn_i at fixed T, V; pressure) of amounts n in volume V: the residual-only hot path.
+
+        Args:
+            T, V, n: temperature (K), total volume (m^3), amounts (mol, array (N,)).
+            A: a_ij(T) from :meth:`attraction_roots`.
+
+        Raises:
+            ValueError: V <= B (no such state of the cubic).
+        """
+        compiled = self._constants[4]
+        b = self.b
+        An = A @ n
+        B = float(b @ n)
+        if not V > B:
+            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
+        total = float(n.sum())
+        F_n, F_V, F_B, F_D = compiled.first_at(compiled.first(total, T, V, B, float(n @ An)))
+        RT = R * T
+        return F_n + F_B * b + (2.0 * F_D) * An, total * RT / V - RT * F_V
+
+    def linear_state(self, T: float, V: float, n: np.ndarray, A: np.ndarray, slope: np.ndarray,
+                     with_hessian: bool = True) -> tuple:
+        """The values and first derivatives the two-phase Jacobians need, without a PhaseState.
+
+        Returns:
+            (F_n, P, P_V, P_T, P_n, F_nV, F_nT, F_nn or None) as in :class:`PhaseState`.
+
+        Raises:
+            ValueError: V <= B.
+        """
+        compiled = self._constants[4]
+        b = self.b
+        An = A @ n
+        B = float(b @ n)
+        if not V > B:
+            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
+        total = float(n.sum())
+        weighted = slope * n
+        D_T = 2.0 * float(weighted @ An)
+        (F_n0, F_V, F_B, F_D, F_nn0, F_nT0, F_nV0, F_nB, F_nD, F_TV, F_TB, F_TD, F_VV, F_VB, F_VD, F_BB, F_BD,
+         F_DD) = compiled.second_at(compiled.second(total, T, V, B, float(n @ An)))
+        # Every composition vector is a combination of 1, b, D_n = 2 A n and D_nT = d D_n/dT: one
+        # small matrix product gives F_n, F_nV and F_nT together.
+        basis = np.empty((4, n.size))
+        basis[0] = 1.0
+        basis[1] = b
+        basis[2] = 2.0 * An
+        basis[3] = 2.0 * (slope * An + A @ weighted)
+        coefficients = np.array([
+            [F_n0, F_B, F_D, 0.0],
+            [F_nV0, F_VB, F_VD, 0.0],
+            [F_nT0 + F_nD * D_T, F_TB + F_BD * D_T, F_TD + F_DD * D_T, F_D],
+        ])
+        F_n, F_nV, F_nT = coefficients @ basis
+        RT = R * T
+        P = total * RT / V - RT * F_V
+        P_V = -RT * F_VV - total * RT / V**2
+        P_T = P / T - RT * (F_TV + F_VD * D_T)
+        P_n = RT / V - RT * F_nV
+        F_nn = None
+        if with_hessian:
+            # F_nn = 2 F_D A + W C W^T with W = [1, b, D_n]: the chain rule through n, B and D at once.
+            W = basis[:3]
+            C = np.array([[F_nn0, F_nB, F_nD], [F_nB, F_BB, F_BD], [F_nD, F_BD, F_DD]])
+            F_nn = (2.0 * F_D) * A + W.T @ (C @ W)
+        return F_n, P, P_V, P_T, P_n, F_nV, F_nT, F_nn
+
     def state(self, T: float, V: float, n: np.ndarray, attraction=None) -> PhaseState:
         """The phase of amounts ``n`` (mol) in volume ``V`` (m^3) at ``T`` (K).
 
         Args:
             T, V: temperature and total volume; V must exceed B = sum n_i b_i.
             n: amounts, array (N,), non-negative, not all zero.
-            attraction: ``attraction(T)`` if already computed (saves work when two phases share T).
+            attraction: ``attraction_roots(T)`` if already computed (saves work when two phases share T).
 
         Returns:
             A :class:`PhaseState`.
@@ -162,42 +272,10 @@ class Mixture:
         Raises:
             ValueError: V <= B (no such state of the cubic).
         """
-        A, A_T = self.attraction(T) if attraction is None else attraction
+        A, slope = self.attraction_roots(T) if attraction is None else attraction
         n = np.asarray(n, dtype=float)
-        total = float(n.sum())
-        b = self.b
-        An = A @ n
-        D_n = 2.0 * An
-        D = float(n @ An)
-        D_T = float(n @ (A_T @ n))
-        D_nT = 2.0 * (A_T @ n)
-        B = float(b @ n)
-        if not V > B:
-            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
-        d = self.helmholtz.evaluate_scalar(total, T, V, B, D)
-        F_n = d["F_n"] + d["F_B"] * b + d["F_D"] * D_n
-        F_nn = (
-            d["F_nB"] * (b[:, None] + b[None, :])
-            + d["F_BD"] * (np.outer(b, D_n) + np.outer(D_n, b))
-            + d["F_BB"] * np.outer(b, b)
-            + d["F_D"] * 2.0 * A
-            + d["F_nD"] * (D_n[:, None] + D_n[None, :])
-            + d["F_DD"] * np.outer(D_n, D_n)
-            + d["F_nn"]
-        )
-        F_nV = d["F_nV"] + d["F_VB"] * b + d["F_VD"] * D_n
-        F_nT = (
-            d["F_nT"] + d["F_nD"] * D_T
-            + (d["F_TB"] + d["F_BD"] * D_T) * b
-            + (d["F_TD"] + d["F_DD"] * D_T) * D_n
-            + d["F_D"] * D_nT
-        )
-        RT = R * T
-        P = total * RT / V - RT * d["F_V"]
-        P_V = -RT * d["F_VV"] - total * RT / V**2
-        P_T = P / T - RT * (d["F_TV"] + d["F_VD"] * D_T)
-        P_n = RT / V - RT * F_nV
-        return PhaseState(T, V, n, total, P, P_V, P_T, P_n, F_n, F_nn, F_nV, F_nT)
+        F_n, P, P_V, P_T, P_n, F_nV, F_nT, F_nn = self.linear_state(T, V, n, A, slope)
+        return PhaseState(T, V, n, float(n.sum()), P, P_V, P_T, P_n, F_n, F_nn, F_nV, F_nT)
 
     def pressure(self, T: float, v: float, x: np.ndarray) -> float:
         """Pressure (Pa) of composition ``x`` at molar volume ``v`` (m^3/mol) and ``T`` (K)."""
@@ -215,7 +293,7 @@ class Mixture:
         """
         x = np.asarray(x, dtype=float)
         x = x / x.sum()
-        A_matrix, _ = self.attraction(T)
+        A_matrix, _ = self.attraction_roots(T)
         a = float(x @ A_matrix @ x)
         bm = float(self.b @ x)
         RT = R * T
@@ -318,7 +396,7 @@ class Mixture:
         """
         n = np.asarray(n, dtype=float)
         dn = np.asarray(dn, dtype=float)
-        A, _ = self.attraction(T)
+        A, _ = self.attraction_roots(T)
         third = derivatives(self.family.delta1, self.family.delta2, order=3)
         An = A @ n
         d = third.evaluate_scalar(float(n.sum()), T, V, float(self.b @ n), float(n @ An))
