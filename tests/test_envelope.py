@@ -119,13 +119,19 @@ def test_pure_component_limit_matches_saturation():
 
 def test_quality_lines_end_at_the_critical_point(gas):
     mixture, envelope = gas
-    result = trace_envelope(mixture, FEED, quality=[0.5], check_stability=False)
-    line = result.quality_lines[0]
-    # Lines of constant vapour fraction meet at the critical point (common practice).
+    result = trace_envelope(mixture, FEED, quality=[0.1, 0.5, 0.9], check_stability=False)
+    # Lines of constant vapour fraction meet at the critical point and end there (common practice).
     crit = envelope.special("critical")["values"]
-    distance = np.abs(line.T / crit["T"] - 1) + np.abs(line.P / crit["P"] - 1)
-    assert line.status in ("terminal_event", "bound_reached")
-    assert distance.min() < 1e-2
+    T_max = envelope.special("cricondentherm")["values"]["T"]
+    for line in result.quality_lines:
+        assert line.status == "terminal_event"
+        assert line.T[-1] == pytest.approx(crit["T"], rel=1e-12) and line.P[-1] == pytest.approx(crit["P"], rel=1e-12)
+        distance = np.abs(line.T / crit["T"] - 1) + np.abs(line.P / crit["P"] - 1)
+        assert int(np.argmin(distance)) == line.T.size - 1  # it does not run on past the critical point
+        assert distance[-2] < 0.02  # and it got there from close by, not by a jump
+        assert np.all(line.T <= T_max * (1 + 1e-12))  # inside the envelope's temperature range
+    lines = result.to_dict()["quality_lines"]
+    assert [q["vapour_fraction"] for q in lines] == [0.1, 0.5, 0.9]
 
 
 @pytest.mark.parametrize(

@@ -718,7 +718,10 @@ def trace_envelope(
     rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), stable[i],
              *[float(v) for v in np.exp(lnK[i])]] for i in range(len(points))]
     columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
-    lines = tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points) for beta in betas)
+    end = None
+    if critical is not None:
+        end = (math.exp(critical[1][n]), math.exp(critical[1][-1]))
+    lines = tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points, end) for beta in betas)
 
     stats["setup_seconds"] = setup + float(first.stats.get("setup_seconds", 0.0))
     stats["trace_seconds"] = traced - began - setup
@@ -735,7 +738,15 @@ def _special(kind: str, index: int, T: float, P: float, located: float, info: di
             "located_to": float(located), "info": info}
 
 
-def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float, max_points: int) -> QualityLine:
+def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float, max_points: int,
+                  critical: tuple[float, float] | None) -> QualityLine:
+    """The line of vapour fraction ``beta`` from ``pressure`` up to the critical point (T, P) ``critical``.
+
+    Every line of constant vapour fraction ends at the critical point, where the phases merge. As
+    there, the equations grow ill-conditioned, so the trace stops on a bound of the key ln K at
+    _BRIDGE[0] in size (landed on exactly, phases still distinct) and the envelope's critical point,
+    located by the controlled step, is the last point of the line.
+    """
     n = mixture.size
     system = EnvelopeSystem(mixture, z, beta)
     try:
@@ -744,14 +755,26 @@ def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float,
         return QualityLine(beta, np.array([]), np.array([]), "start_not_converged", str(error))
     key = _key_component(x0, n)
     lnP0 = math.log(pressure)
+    name = f"lnK_{mixture.names[key]}"
+    limit = (-1e3, -_BRIDGE[0]) if x0[key] < 0 else (_BRIDGE[0], 1e3)
     branch = contin.trace(
-        system, x0[:-1], free="lnP", parameters={"lnP": lnP0}, direction=1, step=0.05, max_step=0.6,
-        min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE, bounds={"lnP": (lnP0, math.log(1e10))},
-        events=[contin.Event("critical point", lambda u, p, k=key: float(u[k]), terminal=True, kind="critical")],
-        corrector="local",
+        system, x0[:-1], free="lnP", parameters={"lnP": lnP0}, direction=1, step=0.05, max_step=_MAX_STEP,
+        min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
+        bounds={"lnP": (lnP0, math.log(1e10)), name: limit}, corrector="local",
     )
     pts = branch.points
-    return QualityLine(beta, np.exp(pts[:, n]), np.exp(pts[:, -1]), branch.status.label, branch.message)
+    T, P = np.exp(pts[:, n]), np.exp(pts[:, -1])
+    near = (branch.status == contin.Status.BOUND_REACHED and bool(branch.special_points)
+            and branch.special_points[-1].info.get("coordinate") == name)
+    if near and critical is not None:
+        T, P = np.append(T, critical[0]), np.append(P, critical[1])
+        return QualityLine(beta, T, P, "terminal_event",
+                           f"completed: the line ends at the critical point T = {critical[0]:.6g} K, "
+                           f"P = {critical[1]:.6g} Pa, where every line of constant vapour fraction meets")
+    if near:
+        return QualityLine(beta, T, P, "critical_not_located",
+                           "stopped near the critical point, which the envelope did not locate")
+    return QualityLine(beta, T, P, branch.status.label, branch.message)
 
 
 def _check_feed(mixture: Mixture, z) -> np.ndarray:
