@@ -3,6 +3,7 @@
 The public face of the engine; everything not named here is private and free to change.
 """
 
+from ._bifurcation import switch_branch
 from ._branch import Branch, SpecialPoint
 from ._cache import CompileCache, default_cache
 from ._errors import ContinError, InputError, TraceError
@@ -55,6 +56,7 @@ __all__ = [
     "run_record",
     "run_study",
     "sweep",
+    "switch_branch",
     "trace",
     "write_record",
 ]

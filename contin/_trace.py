@@ -8,6 +8,7 @@ from collections.abc import Callable, Mapping, Sequence
 
 import numpy as np
 
+from ._bifurcation import bordered_sign, check_detect, determinant_sign, hopf_sign, locate_branch_point, locate_hopf
 from ._branch import Branch, SpecialPoint
 from ._corrector import correct
 from ._errors import InputError, TraceError
@@ -114,6 +115,7 @@ def trace(
     events: Sequence[Event] = (),
     at: Mapping[str, Sequence[float]] | None = None,
     folds: Sequence[str] = (),
+    detect: Sequence[str] | None = None,
     corrector: str = "arclength",
     tangent: Sequence[float] | None = None,
     options: TraceOptions | None = None,
@@ -128,7 +130,10 @@ def trace(
     re-uses the Jacobian at the corrected point for its tangent. Turning points (folds) of the free
     parameter, and of every coordinate in ``folds``, are detected by a sign change of the tangent's
     component and located by the Illinois method on that component; user events and requested
-    coordinate values (``at``) are located the same way, requested values exactly.
+    coordinate values (``at``) are located the same way, requested values exactly. Simple branch
+    points are detected by a sign change of det [dF/dx; tangent] (read off the corrector's LU
+    factors) and Hopf points of ODE equilibria by a sign change of the product of eigenvalue-pair
+    sums of dF/du; see :mod:`contin._bifurcation` and :func:`contin.switch_branch`.
 
     References: H. B. Keller, Numerical solution of bifurcation and nonlinear eigenvalue problems, in
     Applications of Bifurcation Theory, Academic Press, 1977; W. C. Rheinboldt, Numerical Analysis of
@@ -144,7 +149,13 @@ def trace(
         bounds: coordinate name -> (low, high); the trace stops on the boundary when it leaves.
         events: zero crossings of user functions to locate; terminal ones stop the trace.
         at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
-        folds: further coordinates whose turning points are located (the free parameter's always are).
+        folds: further coordinates whose turning points are located (the free parameter's always are,
+            while ``fold`` is detected).
+        detect: which special points to look for, any of ``"fold"``, ``"branch_point"`` and ``"hopf"``
+            (Hopf points only for systems of kind ``"ode"``); by default folds and branch points, and
+            Hopf points too for ODE systems. A neutral saddle (real eigenvalues +-a, where the Hopf
+            test function also vanishes) is not reported as a Hopf point; a line in
+            ``Branch.stats["notes"]`` says where it was.
         tangent: optional initial direction in coordinates (unknowns then free parameter), e.g. to
             restart from a saved point or a fold; the start is then corrected on the bordered system, so
             dF/du may be singular there. ``direction`` = -1 reverses it.
@@ -157,7 +168,7 @@ def trace(
         traced so far with status ``interrupted`` and the exception as ``cause``.
 
     Raises:
-        InputError: bad input (sizes, names, non-finite start, bounds, options, a singular start).
+        InputError: bad input (sizes, names, non-finite start, bounds, options, detect, a singular start).
         TraceError: only with ``throw=True``, when the trace does not succeed.
     """
     began = time.perf_counter()
@@ -177,9 +188,10 @@ def trace(
     columns = tuple(system.unknowns) + (free,)
     bound_list = _check_bounds(bounds, system, columns, parameter_values)
     at_list = _check_at(at, columns)
+    kinds = check_detect(detect, system, folds)
     fold_list = [len(columns) - 1] + [
         i for i in (_coordinate(name, columns, "folds") for name in folds) if i != len(columns) - 1
-    ]
+    ] if "fold" in kinds else []
     for event in events:
         if not isinstance(event, Event):
             raise InputError(f"events must be contin.Event objects, got {type(event).__name__}")
@@ -201,6 +213,8 @@ def trace(
                              f"{', '.join(columns)})")
         initial = options.direction * initial / np.linalg.norm(initial)
     run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
+    run.branch_points = "branch_point" in kinds
+    run.hopf = "hopf" in kinds
     run.initial_tangent = initial
     run.stats_setup = time.perf_counter() - began + float(getattr(system, "setup_seconds", 0.0) or 0.0)
     traced = time.perf_counter()
@@ -246,6 +260,11 @@ class _Run:
         self.jacobian: np.ndarray | None = None
         self.event_values: list[float] = []
         self.initial_tangent: np.ndarray | None = None
+        self.branch_points = False  # look for simple branch points
+        self.hopf = False  # look for Hopf points (ODE systems only)
+        self.index = np.arange(0)  # 0 .. n, for the parity of LU row swaps
+        self.signs = (0, 0)  # (sign of det [dF/dx; t], sign of the Hopf test) at the last accepted point
+        self.notes: list[str] = []
 
     # -- bookkeeping -----------------------------------------------------------------------------
     def finish(self, status: Status, message: str, cause: BaseException | None = None) -> None:
@@ -326,6 +345,8 @@ class _Run:
         if self.initial_tangent is None and t[n] == 0.0:
             t = reference.copy()
         self.jacobian = correction.jacobian
+        self.index = np.arange(n + 1)
+        self.signs = self.test_signs(bordered._lu, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
         for coordinate, values in self.at:
@@ -407,7 +428,8 @@ class _Run:
                     factored = (from_factors(correction.factors, row) if correction.factors is not None
                                 else Bordered(correction.jacobian, row))
                     t_new = tangent(factored, t)
-                    turn = math.acos(min(1.0, max(-1.0, float(t_new @ t))))
+                    cosine = float(t_new @ t)
+                    turn = math.acos(min(1.0, max(-1.0, cosine)))
                     if self.controller.accepts(turn):
                         accepted = True
                     else:
@@ -431,7 +453,9 @@ class _Run:
             self.extended.counters.accepted_steps += 1
             x_new = correction.x
             self.jacobian = correction.jacobian
-            stop = self._special_points((x, t), (x_new, t_new), correction)
+            signs = self.test_signs(factored._lu, cosine if row is t else float(row @ t_new), t_new,
+                                    correction.jacobian)
+            stop = self._special_points((x, t), (x_new, t_new), correction, signs)
             if stop:
                 return
             farthest = max(farthest, _length(x_new - x_start))
@@ -469,11 +493,40 @@ class _Run:
         return best
 
     # -- special points between two accepted points ---------------------------------------------
-    def _special_points(self, a, b, correction) -> bool:
+    def test_signs(self, factors: tuple, along: float, t: np.ndarray, jacobian: np.ndarray) -> tuple[int, int]:
+        """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off);
+        ``factors`` are the LU factors of [jacobian; row] and ``along`` is row . t."""
+        branch_sign = 0
+        if self.branch_points:
+            branch_sign = bordered_sign(factors, along, self.index)
+            if branch_sign == 0:
+                branch_sign = determinant_sign(jacobian, t)
+        hopf = hopf_sign(jacobian[:, : self.extended.n]) if self.hopf else 0
+        return branch_sign, hopf
+
+    def _special_points(self, a, b, correction, signs=(0, 0)) -> bool:
         """Locate what lies between accepted points a and b, append them and b; True if the trace stops."""
         (xa, ta), (xb, tb) = a, b
         found: list[tuple[float, str, object, Located]] = []  # (fraction, kind, payload, located)
         options = self.options
+        before, self.signs = self.signs, signs
+        if before[0] * signs[0] < 0:
+            located = locate_branch_point(self.extended, a, b, options)
+            if located is not None:
+                found.append((located.fraction, "branch_point", None, located))
+            else:
+                self.notes.append(f"the branch-point test changed sign between {self.describe(xa)} and "
+                                  f"{self.describe(xb)} but the point could not be located")
+        if before[1] * signs[1] < 0:
+            result = locate_hopf(self.extended, a, b, options)
+            if result is not None:
+                located, facts = result
+                if facts["kind"] == "hopf":
+                    found.append((located.fraction, "hopf", facts, located))
+                else:
+                    low, high = facts["eigenvalues"]
+                    self.notes.append(f"neutral saddle (real eigenvalues {low:.6g} and {high:.6g}) at "
+                                      f"{self.describe(located.x)}: not a Hopf point, not reported")
         for coordinate in self.folds:
             if crossed(ta[coordinate], tb[coordinate]):
                 located = locate_zero(self.extended, (xa, ta, ta[coordinate]), (xb, tb, tb[coordinate]),
@@ -527,6 +580,11 @@ class _Run:
             if kind == "fold":
                 name = self.columns[payload]
                 self.special.append(self.special_point("fold", f"fold in {name}", index, located, {"coordinate": name}))
+            elif kind == "branch_point":
+                self.special.append(self.special_point("branch_point", "branch point", index, located))
+            elif kind == "hopf":
+                facts = {key: payload[key] for key in ("angular_frequency", "period")}
+                self.special.append(self.special_point("hopf", "Hopf point", index, located, facts))
             elif kind == "event":
                 event = payload
                 self.special.append(self.special_point(event.kind, event.name, index, located, {"terminal": event.terminal}))
@@ -585,6 +643,8 @@ class _Run:
             "rejections": dict(sorted(counters.rejections.items())),
             "points": len(self.rows),
         }
+        if self.notes:
+            stats["notes"] = list(self.notes)
         for key, method in (("structure", "structure_summary"), ("symbolic", "symbolic_summary")):
             describe = getattr(self.system, method, None)
             if callable(describe):

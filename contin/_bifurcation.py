@@ -1,0 +1,444 @@
+"""Branch points and Hopf points along a branch: test functions, their location, and branch switching.
+
+Simple branch points are where the n x (n + 1) Jacobian dG/dx of G(x) = F(u, p) loses rank, so two
+solution curves cross. Along a branch the determinant of the bordered matrix [dG/dx; t] (t the unit
+tangent) changes sign there, and does not at a fold when the tangent is oriented consistently
+(Keller 1977; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, ch. 5).
+
+Hopf points are equilibria of du/dt = F(u, p) where a complex-conjugate pair of eigenvalues of dF/du
+crosses the imaginary axis. The test function is the product over eigenvalue pairs i < j of
+(lambda_i + lambda_j) — the determinant of the bialternate product 2 dF/du (.) I, a polynomial in the
+entries of dF/du, so it is smooth where the eigenvalues are not. It also vanishes at neutral saddles
+(real lambda_i = -lambda_j), which are told apart by the eigenvalues at the located zero
+(Guckenheimer, Myers & Sturmfels, SIAM J. Numer. Anal. 34, 1997; Kuznetsov, Elements of Applied
+Bifurcation Theory, 3rd ed., Springer 2004, ch. 10).
+"""
+
+from __future__ import annotations
+
+import inspect
+import math
+from collections.abc import Sequence
+
+import numpy as np
+
+from ._corrector import Correction, correct
+from ._errors import InputError
+from ._extended import Counters, Extended
+from ._locate import Located, locate_zero
+from ._names import suggest
+from ._tangent import Bordered, SingularMatrix, tangent
+
+__all__ = [
+    "DETECTABLE",
+    "bordered_sign",
+    "check_detect",
+    "hopf_sign",
+    "locate_branch_point",
+    "locate_hopf",
+    "switch_branch",
+]
+
+# The special points a trace can look for by test functions (user events and requested values aside).
+DETECTABLE = ("branch_point", "fold", "hopf")
+
+
+def check_detect(detect, system, folds: Sequence[str]) -> frozenset[str]:
+    """The validated set of special-point kinds to look for.
+
+    Args:
+        detect: a sequence of names from :data:`DETECTABLE`, or None for the default: folds and branch
+            points always, Hopf points too when the system is an ODE (``kind == "ode"``).
+        system: the system being traced (its ``kind`` decides the default and whether ``hopf`` is allowed).
+        folds: the trace's extra fold coordinates (they need ``fold`` among the kinds).
+
+    Returns:
+        The kinds, as a frozen set.
+
+    Raises:
+        InputError: ``detect`` is a bare string or not a sequence, names an unknown kind (with a
+            suggestion), asks for ``hopf`` on an algebraic system, or leaves out ``fold`` while
+            ``folds`` names coordinates.
+    """
+    kind = getattr(system, "kind", "algebraic")
+    if detect is None:
+        return frozenset(("fold", "branch_point", "hopf") if kind == "ode" else ("fold", "branch_point"))
+    if isinstance(detect, str):
+        raise InputError(f"detect={detect!r} must be a sequence of names, e.g. detect=({detect!r},); "
+                         f"known names: {', '.join(DETECTABLE)}")
+    try:
+        names = list(detect)
+    except TypeError:
+        raise InputError(f"detect must be a sequence of names from {', '.join(DETECTABLE)}, "
+                         f"got {type(detect).__name__}") from None
+    for name in names:
+        if not isinstance(name, str) or name not in DETECTABLE:
+            hint = suggest(name, DETECTABLE) if isinstance(name, str) else ""
+            raise InputError(f"detect names {name!r}, which is not a special point the trace can look for "
+                             f"(use any of {', '.join(DETECTABLE)}){hint}")
+    chosen = frozenset(names)
+    if "hopf" in chosen and kind != "ode":
+        raise InputError(f"detect asks for 'hopf', but Hopf points belong to ODE systems (du/dt = F(u, p), "
+                         f"kind='ode') and this system is {kind!r}; leave 'hopf' out or build the system "
+                         "with kind='ode'")
+    if folds and "fold" not in chosen:
+        raise InputError(f"folds names {', '.join(map(repr, folds))} but detect leaves out 'fold'; "
+                         "add 'fold' to detect or drop folds")
+    return chosen
+
+
+# -- branch points ---------------------------------------------------------------------------------
+def bordered_sign(factors: tuple, along: float, index: np.ndarray) -> int:
+    """Sign of det [dG/dx; t] from LAPACK LU factors ``(lu, piv)`` of [dG/dx; row].
+
+    The determinant is linear in the last row and vanishes for rows orthogonal to the tangent, so
+    det [dG/dx; row] = det [dG/dx; t] (row . t): the sign needs only the signs of diag(U), the parity
+    of the row swaps and the sign of row . t — about two microseconds on top of the corrector's
+    factorisation, which is why it can run at every step.
+
+    Args:
+        factors: ``(lu, piv)`` from LAPACK getrf of [dG/dx; row].
+        along: row . t (for the pseudo-arclength row, the cosine of the turn between the tangents).
+        index: ``numpy.arange(n + 1)``, made once per trace.
+
+    Returns:
+        +1 or -1; 0 when ``row`` is orthogonal to ``t`` (then the caller computes the determinant).
+    """
+    if along == 0.0:
+        return 0
+    lu, piv = factors
+    # The parity of (negative pivots) + (row swaps) is the parity of their exclusive or: one count.
+    odd = np.count_nonzero(np.signbit(lu.diagonal()) ^ (piv != index)) & 1
+    return (-1 if odd else 1) * (1 if along > 0.0 else -1)
+
+
+def determinant_sign(jacobian: np.ndarray, t: np.ndarray) -> int:
+    """Sign of det [dG/dx; t] computed directly (the rare path: no usable factors)."""
+    sign, _ = np.linalg.slogdet(np.vstack([jacobian, t]))
+    return int(sign)
+
+
+def _log_scale(jacobian: np.ndarray) -> float:
+    """log of the product of the Jacobian's row lengths (Hadamard's bound on the bordered determinant)."""
+    lengths = np.sqrt(np.einsum("ij,ij->i", jacobian, jacobian))
+    lengths = lengths[lengths > 0.0]
+    return float(np.log(lengths).sum())
+
+
+def _scaled_determinant(jacobian: np.ndarray, row: np.ndarray, log_scale: float) -> float:
+    """det [dG/dx; row] divided by a scale fixed over the bracket, so it is smooth (and of order one)."""
+    sign, logarithm = np.linalg.slogdet(np.vstack([jacobian, row]))
+    if sign == 0.0:
+        return 0.0
+    return float(sign) * math.exp(min(logarithm - log_scale, 700.0))
+
+
+def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) -> tuple[Correction | None, np.ndarray | None]:
+    """Correct ``guess`` onto the branch on the hyperplane through it orthogonal to ``unit``.
+
+    Unlike a plain correction this accepts a point where [dG/dx; unit] is singular, which is what a
+    branch point is: if the guess already solves G = 0 it is returned as it is; otherwise one
+    minimum-norm (least-squares) Newton step leaves the singular spot before Newton proper.
+
+    Returns:
+        (correction, jacobian at the point), or (None, None) if it fails.
+    """
+    length = float(np.linalg.norm(guess)) + 1.0
+    keywords = dict(tolerance=options.tolerance, max_iterations=2 * options.max_iterations, max_distance=length)
+    correction = correct(extended, guess, unit, float(unit @ guess), **keywords)
+    if correction.converged:
+        return correction, correction.jacobian
+    if "singular" not in correction.reason:
+        return None, None
+    residual, jacobian = extended.linearise(guess)
+    norm = float(abs(residual).max()) if residual.size else 0.0
+    if norm <= options.tolerance:
+        return Correction(True, guess.copy(), residual, jacobian, 0, norm), jacobian
+    matrix = np.vstack([jacobian, unit])
+    rhs = np.append(-residual, 0.0)
+    step = np.linalg.lstsq(matrix, rhs, rcond=None)[0]
+    nudged = guess + step
+    correction = correct(extended, nudged, unit, float(unit @ guess), **keywords)
+    if correction.converged:
+        return correction, correction.jacobian
+    return None, None
+
+
+def _tangent_or(jacobian: np.ndarray, row: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    try:
+        return tangent(Bordered(jacobian, row), reference)
+    except SingularMatrix:
+        return reference.copy()
+
+
+def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
+                        options) -> Located | None:
+    """The simple branch point between accepted points ``a`` and ``b`` = (x, tangent).
+
+    The test function is det [dG/dx; e] / c with e the unit chord from a to b and c the product of
+    the row lengths of dG/dx at a: it has the sign of det [dG/dx; t] inside the bracket (e . t > 0
+    for a short step), is smooth, and of order one. Its zero is found by the Illinois method
+    (Dowell & Jarratt, BIT 11, 1971), every trial corrected back onto the branch on the hyperplane
+    orthogonal to the chord; unlike :func:`contin._locate.locate_zero` a trial that lands exactly on
+    the singular point (common on trivial branches, where the chord lies on the branch) is kept.
+
+    Returns:
+        The located point, or None when the bracket does not show a sign change once the Jacobians
+        are evaluated exactly at a and b, or a correction fails.
+    """
+    (xa, ta), (xb, tb) = a, b
+    chord = xb - xa
+    length = float(np.linalg.norm(chord))
+    if length == 0.0:
+        return None
+    unit = chord / length
+    _, jacobian_a = extended.linearise(xa)
+    _, jacobian_b = extended.linearise(xb)
+    log_scale = _log_scale(jacobian_a)
+    f_low = _scaled_determinant(jacobian_a, unit, log_scale)
+    f_high = _scaled_determinant(jacobian_b, unit, log_scale)
+    if not (f_low * f_high < 0.0):
+        return None
+    low, high = 0.0, 1.0
+    side = 0
+    previous = -1.0
+    moved = math.inf
+    best: Located | None = None
+    for _ in range(100):
+        trial = (low * f_high - high * f_low) / (f_high - f_low) if f_high != f_low else 0.5 * (low + high)
+        if not low < trial < high:
+            trial = 0.5 * (low + high)
+        correction, jacobian = _settle(extended, xa + trial * chord, unit, options)
+        if correction is None:
+            return best
+        value = _scaled_determinant(jacobian, unit, log_scale)
+        t = _tangent_or(jacobian, unit, ta)
+        width = (high - low) * length
+        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
+                       0.0 if value == 0.0 else width, value)
+        if value == 0.0:
+            return best
+        if (value < 0.0) == (f_low < 0.0):
+            low, f_low = trial, value
+            if side == -1:
+                f_high *= 0.5
+            side = -1
+        else:
+            high, f_high = trial, value
+            if side == 1:
+                f_low *= 0.5
+            side = 1
+        width = (high - low) * length
+        moved = abs(trial - previous) * length
+        previous = trial
+        if width <= options.location_tolerance or moved <= options.location_tolerance:
+            break
+    if best is None:
+        return None
+    located_to = min((high - low) * length, moved)
+    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to, best.value)
+
+
+# -- Hopf points -----------------------------------------------------------------------------------
+def hopf_sign(state_jacobian: np.ndarray) -> int:
+    """Sign of the product over eigenvalue pairs i < j of (lambda_i + lambda_j) of dF/du.
+
+    A complex-conjugate pair contributes its own factor 2 Re(lambda); every other complex factor comes
+    with its conjugate (a positive product); so the sign is (-1) to the number of complex pairs in the
+    left half-plane plus the number of real pairs with a negative sum. It changes only where the
+    product passes through zero: at Hopf points and neutral saddles, not where eigenvalues collide.
+
+    Returns:
+        +1, -1, or 0 (a pair sums to zero exactly).
+    """
+    eigenvalues = np.linalg.eigvals(state_jacobian)
+    upper = eigenvalues.imag > 0.0
+    real = eigenvalues.real[eigenvalues.imag == 0.0]
+    pair_real = eigenvalues.real[upper]
+    if np.any(pair_real == 0.0):
+        return 0
+    negative = int(np.count_nonzero(pair_real < 0.0))
+    if real.size > 1:
+        sums = real[:, None] + real[None, :]
+        upper_sums = sums[np.triu_indices(real.size, 1)]
+        if np.any(upper_sums == 0.0):
+            return 0
+        negative += int(np.count_nonzero(upper_sums < 0.0))
+    return -1 if negative & 1 else 1
+
+
+def _pair_sums(state_jacobian: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(eigenvalues, pair indices (i, j) with i < j, lambda_i + lambda_j)."""
+    eigenvalues = np.linalg.eigvals(state_jacobian)
+    i, j = np.triu_indices(eigenvalues.size, 1)
+    return eigenvalues, np.stack([i, j]), eigenvalues[i] + eigenvalues[j]
+
+
+def _hopf_test(state_jacobian: np.ndarray, log_scale: float | None) -> tuple[float, float]:
+    """(the scaled pair product, its log magnitude): sign * exp(sum log|lambda_i + lambda_j| - log_scale)."""
+    _, _, sums = _pair_sums(state_jacobian)
+    magnitudes = np.abs(sums)
+    if np.any(magnitudes == 0.0):
+        return 0.0, -math.inf
+    logarithm = float(np.log(magnitudes).sum())
+    # The product is real: its phase is a multiple of pi.
+    sign = 1.0 if math.cos(float(np.angle(sums).sum())) > 0.0 else -1.0
+    scale = logarithm if log_scale is None else log_scale
+    return sign * math.exp(min(logarithm - scale, 700.0)), logarithm
+
+
+def classify_pair_zero(state_jacobian: np.ndarray) -> dict:
+    """What makes the pair product vanish at a located point: a Hopf pair or a neutral saddle.
+
+    Returns:
+        ``{"kind": "hopf", "angular_frequency": w, "period": 2 pi / w}`` for a complex pair
+        lambda = +-i w (to rounding), else ``{"kind": "neutral_saddle", "eigenvalues": (a, b)}``
+        for the real pair whose sum is nearest zero.
+    """
+    eigenvalues, pairs, sums = _pair_sums(state_jacobian)
+    k = int(np.argmin(np.abs(sums)))
+    first, second = eigenvalues[pairs[0, k]], eigenvalues[pairs[1, k]]
+    frequency = 0.5 * abs(first.imag - second.imag)
+    scale = max(1.0, float(np.abs(eigenvalues).max()))
+    if frequency > 1e-8 * scale and abs(first.imag + second.imag) <= 1e-8 * scale:
+        return {"kind": "hopf", "angular_frequency": float(frequency), "period": float(2.0 * math.pi / frequency)}
+    pair = sorted((float(first.real), float(second.real)))
+    return {"kind": "neutral_saddle", "eigenvalues": (pair[0], pair[1])}
+
+
+def locate_hopf(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
+                options) -> tuple[Located, dict] | None:
+    """The zero of the eigenvalue-pair product between accepted points ``a`` and ``b`` = (x, tangent).
+
+    Located by :func:`contin._locate.locate_zero` (Illinois method, every trial on the branch) on the
+    product of (lambda_i + lambda_j) of dF/du evaluated exactly at each trial, scaled by its
+    magnitude at ``a``; the eigenvalues at the zero then tell a Hopf point from a neutral saddle.
+
+    Returns:
+        (located point, :func:`classify_pair_zero` of it), or None if the exact Jacobians at a and b
+        show no sign change or a correction fails.
+    """
+    (xa, ta), (xb, tb) = a, b
+    n = extended.n
+    _, jacobian_a = extended.linearise(xa)
+    _, jacobian_b = extended.linearise(xb)
+    f_a, log_scale = _hopf_test(jacobian_a[:, :n], None)
+    f_b, _ = _hopf_test(jacobian_b[:, :n], log_scale)
+    if not (f_a * f_b < 0.0):
+        return None
+
+    def test(x: np.ndarray, t: np.ndarray) -> float:
+        _, jacobian = extended.linearise(x)
+        return _hopf_test(jacobian[:, :n], log_scale)[0]
+
+    located = locate_zero(extended, (xa, ta, f_a), (xb, tb, f_b), test, options)
+    if located is None:
+        return None
+    _, jacobian = extended.linearise(located.x)
+    return located, classify_pair_zero(jacobian[:, :n])
+
+
+# -- branch switching ------------------------------------------------------------------------------
+def _trace_keyword_names() -> tuple[str, ...]:
+    from ._trace import trace
+
+    return tuple(name for name, parameter in inspect.signature(trace).parameters.items()
+                 if parameter.kind is inspect.Parameter.KEYWORD_ONLY)
+
+
+def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords):
+    """Trace the other branch through a simple branch point found on ``branch``.
+
+    At a simple branch point the null space of dG/dx (n x (n + 1)) is two-dimensional: it holds the
+    tangents of both crossing branches. The new trace starts one ``step`` (the trace keyword, 0.01 by
+    default) from the branch point along the null vector orthogonal to the traced branch's tangent,
+    and corrects that guess on the hyperplane orthogonal to the same vector (Keller 1977, section 6;
+    Seydel 2010, section 5.6). This is the simple perpendicular guess: the algebraic bifurcation
+    equation is not solved, so where the second branch crosses at a shallow angle the guess may fall
+    back onto the first branch (the new branch then looks like the old one: compare them), and a
+    branch point where more than two branches meet is not resolved.
+
+    Args:
+        branch: the :class:`~contin.Branch` the branch point was found on.
+        point: the :class:`~contin.SpecialPoint` of kind ``branch_point`` (from ``branch.special("branch_point")``).
+        system: the system that was traced (the same unknowns and free parameter).
+        direction: +1 or -1, which way along the new branch: +1 moves the free parameter up, or, where
+            the perpendicular direction leaves it fixed (a vertical branch, as at a pitchfork), the
+            first unknown that moves.
+        trace_keywords: passed on to :func:`contin.trace` (``step``, ``max_step``, ``bounds``,
+            ``events``, ...); ``start``, ``free``, ``parameters`` and ``tangent`` are set here.
+
+    Returns:
+        The new :class:`~contin.Branch`, starting next to the branch point.
+
+    Raises:
+        InputError: ``point`` is not a branch point of ``branch``, ``system`` does not match the
+            branch's columns, the Jacobian there is not singular (not a branch point of this system),
+            a bad ``direction``, or a keyword that :func:`contin.trace` does not take or that is set here.
+    """
+    from ._branch import Branch, SpecialPoint
+    from ._system import System
+    from ._trace import trace
+
+    if not isinstance(branch, Branch):
+        raise InputError(f"branch must be a contin Branch (from contin.trace), got {type(branch).__name__}")
+    if not isinstance(point, SpecialPoint) or point.kind != "branch_point":
+        found = type(point).__name__ if not isinstance(point, SpecialPoint) else f"a {point.kind!r} point"
+        raise InputError(f"point must be a branch point of the branch (from branch.special('branch_point')), "
+                         f"got {found}")
+    if not isinstance(system, System):
+        raise InputError(f"system must be a contin System, got {type(system).__name__}")
+    if isinstance(direction, bool) or direction not in (1, -1):
+        raise InputError(f"direction={direction!r} must be 1 or -1")
+    columns = tuple(system.unknowns) + (branch.free,)
+    if branch.free not in system.parameters or columns != tuple(branch.columns):
+        raise InputError(f"system does not match the branch: the branch has columns {', '.join(branch.columns)}, "
+                         f"the system gives {', '.join(tuple(system.unknowns) + (branch.free,))}; pass the "
+                         "system that was traced")
+    allowed = _trace_keyword_names()
+    for name in sorted(trace_keywords):
+        if name in ("start", "free", "parameters", "tangent"):
+            raise InputError(f"switch_branch sets {name!r} itself (from the branch point); leave it out")
+        if name not in allowed:
+            raise InputError(f"switch_branch got the keyword {name!r}, which contin.trace does not take"
+                             f"{suggest(name, allowed)}")
+
+    x_star = np.asarray(point.point, dtype=float)
+    n = system.size
+    free_index = system.parameters.index(branch.free)
+    parameters = dict(branch.parameters)
+    parameters[branch.free] = float(x_star[n])
+    extended = Extended(system, system.parameter_vector(parameters), free_index, Counters())
+    _, jacobian = extended.linearise(x_star)
+    _, singular_values, right = np.linalg.svd(jacobian)
+    scale = max(1.0, float(singular_values[0])) if n > 1 else 1.0
+    smallest = float(singular_values[-1])
+    if not smallest <= 1e-6 * scale:
+        raise InputError(f"the Jacobian dF/dx is not singular at the given point (smallest singular value "
+                         f"{smallest:.3g}): it is not a branch point of this system; pass the system that was traced")
+    null = right[-2:]  # rows: an orthonormal basis of the two-dimensional null space
+
+    # The traced branch's direction through the point: its neighbours' tangents (the tangent computed
+    # at the singular point itself is ill-defined).
+    rows = [k for k in (point.index - 1, point.index + 1) if 0 <= k < len(branch.tangents) and k != point.index]
+    reference = sum((branch.tangents[k] for k in rows), np.zeros(n + 1)) if rows else np.asarray(point.tangent)
+    if not np.any(reference):
+        reference = np.asarray(point.tangent, dtype=float)
+    along = null @ reference  # coefficients of the old tangent in the null basis
+    if not float(np.linalg.norm(along)) > 0.0:
+        along = np.array([1.0, 0.0])
+    perpendicular = np.array([-along[1], along[0]]) @ null
+    perpendicular /= np.linalg.norm(perpendicular)
+    largest = float(np.abs(perpendicular).max())
+    order = [n] + list(range(n))  # the free parameter first, then the unknowns in order
+    leading = next(k for k in order if abs(perpendicular[k]) >= 1e-3 * largest)
+    if perpendicular[leading] < 0.0:
+        perpendicular = -perpendicular
+    perpendicular *= direction
+
+    step = float(trace_keywords.get("step", 0.01))
+    if not (math.isfinite(step) and step > 0.0):
+        raise InputError(f"step={trace_keywords.get('step')!r} must be a positive finite number")
+    x0 = x_star + step * perpendicular
+    return trace(system, x0[:n], free=branch.free, parameters={**parameters, branch.free: float(x0[n])},
+                 tangent=perpendicular, direction=1, **trace_keywords)
