@@ -148,3 +148,25 @@ def test_bad_input(gas, kwargs, message):
     z = kwargs.pop("z")
     with pytest.raises(InputError, match=message.replace("(", r"\(")):
         trace_envelope(mixture, z, **kwargs)
+
+
+def test_two_components_with_identical_constants_give_the_pure_curve():
+    # Issue 5 check: two "different" components with identical constants (and kij = 0) are one fluid
+    # to the model, so the envelope is that fluid's saturation curve, ending at its critical point,
+    # which the cubic reproduces exactly (Tc, Pc of propane: Poling et al. 5th ed.; memory).
+    import dataclasses
+
+    from contin_thermo._binary import _start
+
+    propane = lookup("propane")
+    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
+                    family("pr"))
+    envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
+    assert envelope.success and envelope.notes
+    reference = Mixture((lookup("n-butane"), propane), family("pr"))  # x1 = 0 end: pure propane
+    for row in envelope.rows:
+        assert row[6] == pytest.approx(1.0, abs=1e-10) and row[7] == pytest.approx(1.0, abs=1e-10)
+        assert row[1] == pytest.approx(math.exp(_start(reference, "pxy", row[0])[2]), rel=1e-9)
+    critical = envelope.special("critical")["values"]
+    assert critical["T"] == pytest.approx(propane.Tc, rel=1e-9)
+    assert critical["P"] == pytest.approx(propane.Pc, rel=1e-9)

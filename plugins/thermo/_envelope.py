@@ -266,7 +266,10 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
         v_incipient = mixture.volume(T, pressure, y, "vapour") * float(y.sum())
     x0 = np.concatenate([lnK, [lnT, math.log(v_feed), math.log(v_incipient), math.log(pressure)]])
     x, norm, ok = _newton(system, x0, x0.size - 1, math.log(pressure))
-    if not ok or float(np.max(np.abs(x[: mixture.size]))) < 1e-4:
+    n = mixture.size
+    # K = 1 with equal volumes is the trivial solution; K = 1 with distinct volumes is a feed whose
+    # components the model cannot tell apart (it boils like one fluid).
+    if not ok or (float(np.max(np.abs(x[:n]))) < 1e-4 and abs(x[n + 1] - x[n + 2]) < 1e-3):
         raise InputError(
             f"--from-pressure {pressure:g} Pa: no two-phase point found from Wilson's K-values "
             f"(residual {norm:.2g}); try another pressure"
@@ -591,9 +594,11 @@ def trace_envelope(
     # start) falls to _NEAR_CRITICAL in size: a bound on that coordinate is landed on exactly by one
     # correction at fixed ln K, and no long step can jump over it.
     start_key = _key_component(x0, n)
+    setup = time.perf_counter() - began
+    if float(np.max(np.abs(x0[:n]))) < 1e-8:
+        return _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability)
     hand_over = f"lnK_{mixture.names[start_key]}"
     limit = (-1e3, -_NEAR_CRITICAL) if x0[start_key] < 0 else (_NEAR_CRITICAL, 1e3)
-    setup = time.perf_counter() - began
     first = _run(system, x0, 1, lnP0, max_points, {hand_over: limit})
     near_critical = (first.status == contin.Status.BOUND_REACHED and bool(first.special_points)
                      and first.special_points[-1].info.get("coordinate") == hand_over)
@@ -731,6 +736,52 @@ def trace_envelope(
     stats["jacobian_evaluations_per_point"] = system.evaluations / max(1, len(points) - 1)
     return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
                     residual_norms, lines, tuple(pieces), tuple(notes))
+
+
+def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability) -> Envelope:
+    """The envelope of a feed whose components the model cannot tell apart (K = 1 at every point).
+
+    With identical critical constants, acentric factors and zero kij the mixture is one fluid: its
+    dew and bubble curves coincide with that fluid's saturation curve, which is traced (in the same
+    variables, ln K staying 0) until the phase volumes are within _NEAR_CRITICAL of each other in
+    ln v; the critical point (Heidemann-Khalil, here the fluid's own) ends it.
+    """
+    from ._mixture_critical import critical_point
+
+    n = mixture.size
+    closing = contin.Event("near critical point",
+                           lambda u, p: float(u[n + 1] - u[n + 2]) - _NEAR_CRITICAL, direction=-1,
+                           terminal=True, kind="near_critical")
+    branch = contin.trace(
+        system, x0[:-1], free="lnP", parameters={"lnP": float(x0[-1])}, direction=1, step=_STEP,
+        max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
+        bounds={"lnP": (lnP0, math.log(1e10))}, events=[closing], corrector="local",
+    )
+    traced = time.perf_counter()
+    points = branch.points
+    T, P = np.exp(points[:, n]), np.exp(points[:, -1])
+    specials, notes = [], ["the components cannot be told apart by the model: dew and bubble curves coincide "
+                           "with the saturation curve of one fluid"]
+    success, status, message = branch.success, branch.status.label, branch.message
+    if branch.status == contin.Status.TERMINAL_EVENT:
+        critical = critical_point(mixture, z, near=(float(T[-1]), float(P[-1])))
+        specials.append(_special("critical", len(points) - 1, critical.T, critical.P, 0.0,
+                                 {"v": critical.v, "note": "the critical point of the one fluid (Heidemann-Khalil)"}))
+        status, message = "terminal_event", "completed: the saturation curve ends at the critical point"
+    stable = [None] * len(points)
+    if check_stability:
+        from ._stability import check_points
+
+        stable = check_points(mixture, z, T, P, np.exp(points[:, :n]) * z)
+    rows = [[float(T[i]), float(P[i]), "dew", float(math.exp(points[i, n + 1])), float(math.exp(points[i, n + 2])),
+             stable[i], *[float(v) for v in np.exp(points[i, :n])]] for i in range(len(points))]
+    columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
+    stats = {k: v for k, v in branch.stats.items() if isinstance(v, (int, float))}
+    stats.update(setup_seconds=setup, trace_seconds=traced - began - setup, points=len(points),
+                 jacobian_evaluations=system.evaluations,
+                 jacobian_evaluations_per_point=system.evaluations / max(1, len(points) - 1))
+    return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
+                    np.asarray(branch.residual_norms), (), (branch,), tuple(notes))
 
 
 def _special(kind: str, index: int, T: float, P: float, located: float, info: dict) -> dict:
