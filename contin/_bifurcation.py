@@ -33,6 +33,8 @@ __all__ = [
     "DETECTABLE",
     "bordered_sign",
     "check_detect",
+    "classify_pair_zero",
+    "determinant_sign",
     "hopf_sign",
     "locate_branch_point",
     "locate_hopf",
