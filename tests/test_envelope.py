@@ -164,9 +164,13 @@ def test_two_components_with_identical_constants_give_the_pure_curve():
     envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
     assert envelope.success and envelope.notes
     reference = Mixture((lookup("n-butane"), propane), family("pr"))  # x1 = 0 end: pure propane
+    checked = 0
     for row in envelope.rows:
         assert row[6] == pytest.approx(1.0, abs=1e-10) and row[7] == pytest.approx(1.0, abs=1e-10)
-        assert row[1] == pytest.approx(math.exp(_start(reference, "pxy", row[0])[2]), rel=1e-9)
+        if row[0] < 0.99 * propane.Tc:  # the reference solve starts from Wilson's estimate: not too near Tc
+            assert row[1] == pytest.approx(math.exp(_start(reference, "pxy", row[0])[2]), rel=1e-9)
+            checked += 1
+    assert checked >= 5
     critical = envelope.special("critical")["values"]
     assert critical["T"] == pytest.approx(propane.Tc, rel=1e-9)
     assert critical["P"] == pytest.approx(propane.Pc, rel=1e-9)
