@@ -27,6 +27,11 @@ class _Factored:
         solution, info = dgetrs(self._lu[0], self._lu[1], rhs)
         return solution
 
+    @property
+    def factors(self) -> tuple:
+        """The LAPACK LU factors ``(lu, piv)`` (e.g. for the sign of the determinant)."""
+        return self._lu
+
 
 def from_factors(factors: tuple, row: np.ndarray) -> "_Factored":
     """Wrap LAPACK LU factors ``(lu, piv)`` of [dG/dx; row] so :func:`tangent` can use them."""
@@ -61,6 +66,11 @@ class Bordered:
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         solution, info = dgetrs(self._lu[0], self._lu[1], rhs)
         return solution
+
+    @property
+    def factors(self) -> tuple:
+        """The LAPACK LU factors ``(lu, piv)`` (e.g. for the sign of the determinant)."""
+        return self._lu
 
 
 def tangent(bordered: Bordered, previous: np.ndarray) -> np.ndarray:

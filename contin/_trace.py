@@ -346,7 +346,7 @@ class _Run:
             t = reference.copy()
         self.jacobian = correction.jacobian
         self.index = np.arange(n + 1)
-        self.signs = self.test_signs(bordered._lu, float(row @ t), t, correction.jacobian)
+        self.signs = self.test_signs(bordered.factors, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
         for coordinate, values in self.at:
@@ -453,7 +453,7 @@ class _Run:
             self.extended.counters.accepted_steps += 1
             x_new = correction.x
             self.jacobian = correction.jacobian
-            signs = self.test_signs(factored._lu, cosine if row is t else float(row @ t_new), t_new,
+            signs = self.test_signs(factored.factors, cosine if row is t else float(row @ t_new), t_new,
                                     correction.jacobian)
             stop = self._special_points((x, t), (x_new, t_new), correction, signs)
             if stop:
