@@ -49,7 +49,8 @@ from ._symbolic import SymbolicSystem, compile_expression
 __all__ = ["Problem", "load_problem", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS"]
 
 TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
-TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
+TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
+              "folds", "detect", "corrector")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
 _REQUIRED = ("unknowns", "parameters", "equations", "trace")
 
@@ -269,6 +270,22 @@ class _Reader:
         for key in ("bounds", "at"):
             if key in table:
                 options[key] = self.coordinate_table(key, table[key], coordinates, system)
+        for key, choices, example in (("folds", coordinates, '["x"]'),
+                                      ("detect", ("fold", "branch_point", "hopf"), '["fold", "branch_point"]')):
+            if key in table:
+                names = table[key]
+                if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
+                    raise self.fail("trace", key, f"{key} = {names!r}; give a list of names, e.g. {key} = {example}")
+                for name in names:
+                    if name not in choices:
+                        raise self.fail("trace", key, f"{key} names {name!r} (choose from {', '.join(choices)})"
+                                                      f"{suggest(name, choices)}")
+                options[key] = tuple(names)
+        if "corrector" in table:
+            corrector = table["corrector"]
+            if corrector not in ("arclength", "local"):
+                raise self.fail("trace", "corrector", f"corrector = {corrector!r}; use \"arclength\" or \"local\"")
+            options["corrector"] = corrector
         return options
 
     def coordinate_table(self, key: str, value: object, coordinates: tuple[str, ...], system: SymbolicSystem) -> dict:

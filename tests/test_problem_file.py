@@ -63,7 +63,9 @@ def fails(tmp_path, text) -> str:
 
 def test_public_keys_are_exactly_those_of_the_format():
     assert TOP_KEYS == ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
-    assert TRACE_KEYS == ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
+    # The keys of the published format (issue 3), unchanged, then the optional ones added since.
+    assert TRACE_KEYS[:9] == ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
+    assert TRACE_KEYS[9:] == ("folds", "detect", "corrector")
     assert EVENT_KEYS == ("name", "expression", "terminal", "direction")
 
 
@@ -232,3 +234,38 @@ def test_ode_file_traces_equilibria(tmp_path):
     folds = sorted(sp.values["p"] for sp in branch.special_points if sp.kind == "fold")
     # Equilibria of du/dt = -(u^3 - u + p): the same folds, p = -+2/(3 sqrt 3) (exact).
     np.testing.assert_allclose(folds, [-2 / (3 * math.sqrt(3)), 2 / (3 * math.sqrt(3))], atol=1e-9)
+
+
+# -- optional [trace] keys: folds, detect, corrector -----------------------------------------------
+
+def test_optional_folds_detect_and_corrector_keys(tmp_path):
+    from contin import load_problem, run_problem
+
+    path = tmp_path / "pitchfork.toml"
+    path.write_text(
+        'kind = "algebraic"\n[unknowns]\nu = 0.0\n[parameters]\np = -1.0\n[equations]\nf = "u*(p - u**2)"\n'
+        '[trace]\nfree = "p"\nbounds = { p = [-1.0, 1.0] }\nfolds = ["u"]\ndetect = ["fold", "branch_point"]\n'
+        'corrector = "arclength"\n'
+    )
+    problem = load_problem(path)
+    assert problem.options["detect"] == ("fold", "branch_point")
+    branch = run_problem(problem)
+    # u(p - u^2) traced along u = 0 meets the pitchfork at p = 0 (Kuznetsov, ch. 3).
+    (point,) = branch.special("branch_point")
+    assert point.values["p"] == pytest.approx(0.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("line, message", [
+    ('detect = ["branch point"]', "detect names 'branch point'"),
+    ('detect = "fold"', "give a list of names"),
+    ('folds = ["w"]', "folds names 'w'"),
+    ('corrector = "secant"', "corrector = 'secant'; use \"arclength\" or \"local\""),
+])
+def test_bad_optional_trace_keys(tmp_path, line, message):
+    from contin import InputError, load_problem
+
+    path = tmp_path / "bad.toml"
+    path.write_text('[unknowns]\nu = 0.0\n[parameters]\np = -1.0\n[equations]\nf = "u*(p - u**2)"\n'
+                    f'[trace]\nfree = "p"\n{line}\n')
+    with pytest.raises(InputError, match=message.replace("(", r"\(").replace(")", r"\)").replace("[", r"\[")):
+        load_problem(path)
