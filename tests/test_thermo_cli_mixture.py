@@ -73,3 +73,37 @@ def test_critical_json(capsys):
     assert document["special_points"][0]["kind"] == "critical"
     # Between the pure critical temperatures of methane (190.56 K) and ethane (305.32 K) (Poling et al., memory)
     assert 190.56 < document["special_points"][0]["values"]["T"] < 305.32
+
+
+def test_pxy_temperature_with_a_unit_and_a_plot(capsys, tmp_path):
+    picture = tmp_path / "pxy.png"
+    code, out, _ = run(["pxy", "--mixture", "propane,n-butane", "--temperature", "30 degC", "--eos", "pr",
+                        "--json", "--plot", str(picture)], capsys)
+    assert code == 0
+    document = json.loads(out)
+    assert document["columns"] == ["x1", "y1", "P", "v_liquid", "v_vapour"]
+    assert picture.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # 30 degC = 303.15 K exactly (definition of the Celsius scale): the pure n-butane end sits at that T,
+    # where its PR vapour pressure lies between 2 and 4 bar (NIST WebBook about 2.8 bar; memory).
+    assert 2e5 < document["points"][0][2] < 4e5
+
+
+def test_txy_pressure_in_bar(capsys):
+    code, out, _ = run(["txy", "--mixture", "propane,n-butane", "--pressure", "5 bar", "--eos", "pr", "--json"], capsys)
+    assert code == 0
+    rows = json.loads(out)["points"]
+    # 5 bar is 5e5 Pa (definition): the pure propane end boils near 273 K there (common practice: about 0 degC).
+    assert 265.0 < rows[-1][2] < 280.0
+
+
+def test_unknown_temperature_unit(capsys):
+    code, _, err = run(["pxy", "--mixture", "propane,n-butane", "--temperature", "30 degF", "--eos", "pr"], capsys)
+    assert code != 0 and "unknown temperature unit 'degF'" in err and "did you mean 'degC'" in err
+
+
+def test_from_pressure_with_a_unit(capsys):
+    code, out, _ = run(["envelope", "--mixture", "methane=0.8,ethane=0.1,propane=0.06,n-butane=0.04", "--eos", "pr",
+                        "--from-pressure", "2 bar", "--json"], capsys)
+    assert code == 0
+    points = json.loads(out)["points"]
+    assert points[0][1] == pytest.approx(2e5, rel=1e-9) and points[-1][1] == pytest.approx(2e5, rel=1e-9)

@@ -138,15 +138,18 @@ def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
     envelope = thermo_subparsers.add_parser("envelope", help="phase envelope of a mixture")
     _common(envelope)
-    envelope.add_argument("--from-pressure", type=float, default=1e5, metavar="PA",
-                          help="pressure of the low-pressure dew and bubble points (default 1e5 Pa)")
+    envelope.add_argument("--from-pressure", default="1e5", metavar="PA",
+                          help="pressure of the low-pressure dew and bubble points (default 1e5 Pa; units "
+                               "such as '1 bar' or '100 kPa' allowed)")
     envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
     envelope.set_defaults(handler=run_envelope)
     for name, option, unit in (("pxy", "--temperature", "K"), ("txy", "--pressure", "PA")):
         parser = thermo_subparsers.add_parser(name, help=f"binary {name} diagram")
         _common(parser, fractions=False)
-        parser.add_argument(option, type=float, required=True, metavar=unit)
+        parser.add_argument(option, required=True, metavar=unit,
+                            help=f"fixed {option[2:]} ({unit} if bare; units such as '30 degC' or '5 bar' allowed)")
+        parser.add_argument("--plot", default=None, metavar="FILE", help=f"draw the {name} diagram")
         parser.set_defaults(handler=run_binary, diagram=name)
 
 
@@ -168,7 +171,10 @@ def run_envelope(args) -> int:
                     quality.append(float(q))
                 except ValueError:
                     raise InputError(f"--quality {q.strip()!r} is not a number") from None
-        envelope = trace_envelope(mixture, z, from_pressure=args.from_pressure, quality=quality)
+        from ._units import parse_pressure
+
+        from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+        envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality)
     except InputError as error:
         return _fail(error)
     if args.csv:
@@ -188,13 +194,22 @@ def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ._binary import pxy, txy
 
+    from ._units import parse_pressure, parse_temperature
+
     try:
         mixture, _ = build_mixture(args, fractions=False)
-        diagram = pxy(mixture, args.temperature) if args.diagram == "pxy" else txy(mixture, args.pressure)
+        if args.diagram == "pxy":
+            diagram = pxy(mixture, parse_temperature(args.temperature, "--temperature"))
+        else:
+            diagram = txy(mixture, parse_pressure(args.pressure, "--pressure"))
     except InputError as error:
         return _fail(error)
     if args.csv:
         diagram.to_csv(args.csv)
+    if getattr(args, "plot", None):
+        from ._plot_envelope import plot_binary
+
+        plot_binary(diagram, args.plot)
     if args.json:
         print(json.dumps(diagram.to_dict()))
     else:

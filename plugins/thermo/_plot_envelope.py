@@ -1,4 +1,4 @@
-"""P-T plot of a phase envelope with the critical point, cricondenbar and cricondentherm marked."""
+"""P-T plot of a phase envelope with its special points marked; Pxy and Txy plots of binary diagrams."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import numpy as np
 
 from ._caution import CAUTION
 
-__all__ = ["plot_envelope"]
+__all__ = ["plot_binary", "plot_envelope"]
 
 _MARKERS = {"critical": ("o", "critical point"), "cricondenbar": ("^", "cricondenbar"),
             "cricondentherm": (">", "cricondentherm")}
@@ -46,5 +46,37 @@ def plot_envelope(envelope, path) -> None:
     caption = f"Feed: {feed}. " + CAUTION
     figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
     figure.subplots_adjust(bottom=0.2)
+    figure.savefig(path, dpi=120)
+    plt.close(figure)
+
+
+def plot_binary(diagram, path) -> None:
+    """Draw a Pxy (bar) or Txy (K) diagram: bubble curve against x1, dew curve against y1, to ``path``."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    rows = np.array(diagram.rows, dtype=float)
+    x1, y1 = rows[:, 0], rows[:, 1]
+    pxy = diagram.kind == "pxy"
+    other = rows[:, 2] / 1e5 if pxy else rows[:, 2]
+    first, second = diagram.mixture.names
+    figure, axes = plt.subplots(figsize=(7.0, 5.2))
+    axes.plot(x1, other, "-", color="tab:blue", label="bubble curve (liquid x1)")
+    axes.plot(y1, other, "--", color="tab:orange", label="dew curve (vapour y1)")
+    for sp in diagram.special_points:
+        value = sp["values"]["P"] / 1e5 if pxy else sp["values"]["T"]
+        axes.plot([sp["values"]["x1"]], [value], "o", color="tab:red", markersize=7)
+        axes.annotate(sp["kind"], (sp["values"]["x1"], value), textcoords="offset points", xytext=(6, 6), fontsize=8)
+    axes.set_xlim(0.0, 1.0)
+    axes.set_xlabel(f"mole fraction of {first}")
+    axes.set_ylabel("pressure P / bar" if pxy else "temperature T / K")
+    fixed = f"T = {diagram.fixed:.2f} K" if pxy else f"P = {diagram.fixed / 1e5:.4g} bar"
+    axes.set_title(f"{first} / {second} at {fixed} ({diagram.mixture.family.label})", fontsize=11)
+    axes.legend(fontsize=8)
+    axes.grid(alpha=0.3)
+    figure.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 130)), fontsize=6.5, va="bottom")
+    figure.subplots_adjust(bottom=0.18)
     figure.savefig(path, dpi=120)
     plt.close(figure)
