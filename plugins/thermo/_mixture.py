@@ -45,9 +45,10 @@ class _Compiled:
 
 @functools.lru_cache(maxsize=None)
 def _compiled(delta1: float, delta2: float) -> _Compiled:
-    first = derivatives(delta1, delta2, order=1)
+    # One compilation serves both paths: the residual-only path reads its four values from the
+    # second-order tuple (a microsecond more per call, but a tenth of a second less at start-up).
     second = derivatives(delta1, delta2, order=2)
-    return _Compiled(first._scalar, second._scalar, operator.itemgetter(*(first.names.index(k) for k in _FIRST)),
+    return _Compiled(second._scalar, second._scalar, operator.itemgetter(*(second.names.index(k) for k in _FIRST)),
                      operator.itemgetter(*(second.names.index(k) for k in _SECOND)))
 
 
