@@ -10,10 +10,15 @@ volumes; the free parameter is ln P. The equations are
 
 with F_i = dF/dn_i of the residual Helmholtz energy. Carrying the volumes as unknowns removes all
 root selection, so the branch passes smoothly from the dew side (feed vapour, incipient liquid)
-through the critical point to the bubble side (feed liquid). The trace uses Rheinboldt's local
-parametrisation, which near the critical point fixes an ln K at a non-zero value and so excludes
-the trivial solution K = 1; the critical point itself is then pinned down by extrapolating the
-branch, parametrised by the key ln K, to ln K = 0 from well-conditioned points on both sides.
+through the critical point to the bubble side (feed liquid). The engine traces the dew side with
+Rheinboldt's local parametrisation until the ln K of an outer component falls to _NEAR_CRITICAL in
+size (a bound, landed on exactly). Near the critical point the equations are intrinsically
+ill-conditioned, so the passage is a controlled step: Newton solves at fixed ln K_key on levels
+between 0.1 and 0.02 in size on both sides (never on K = 1); the branch is analytic in ln K_key, so
+a least-squares polynomial through those points gives the critical point at ln K_key = 0, and the
+folds of T and P inside the step. The engine then carries on from the far side to the bubble point.
+Should one long engine step jump the whole region, the crossing (the phase volumes change order
+only at the critical point) is found afterwards and the controlled step there only pins it down.
 
 A constant vapour fraction beta generalises the same system (x = z / (1 + beta (K - 1)),
 y = K x); beta = 0 is the envelope and 0 < beta < 1 gives the quality lines inside it.
@@ -558,11 +563,12 @@ def trace_envelope(
 ) -> Envelope:
     """Trace the phase envelope of feed ``z`` from the dew point at ``from_pressure`` to the bubble point.
 
-    The engine traces the dew side (Rheinboldt's local parametrisation) until the key ln K falls to
-    0.1 in size; a controlled step at fixed ln K_key values crosses the critical point (and pins it
-    down); the engine then carries on, in the same direction along the same branch, to the bubble
-    point at ``from_pressure``. Cricondentherm and cricondenbar are the engine's located folds of
-    ln T and ln P with the largest T and P.
+    The engine traces the dew side (Rheinboldt's local parametrisation) until the ln K of an outer
+    component falls to 0.1 in size; a controlled step at fixed ln K_key values crosses the critical
+    point (and pins it down); the engine then carries on, in the same direction along the same
+    branch, to the bubble point at ``from_pressure``. Cricondentherm and cricondenbar are the located
+    folds of ln T and ln P with the largest T and P. A feed the model cannot tell from one fluid
+    (identical constants, kij = 0) gives that fluid's saturation curve up to its critical point.
 
     Args:
         mixture: the mixture (components, cubic family, kij).
