@@ -37,11 +37,19 @@ class StepController:
         return turn <= self.max_turn
 
     def after_success(self, step: float, iterations: int, turn: float) -> float:
-        """Next step length after an accepted step of length ``step``."""
-        if iterations <= self.fast_iterations and turn <= 0.5 * self.max_turn:
-            factor = self.grow
-        elif iterations >= self.slow_iterations or turn > 0.5 * self.max_turn:
+        """Next step length after an accepted step of length ``step``.
+
+        At most ``fast_iterations`` Newton iterations: grow by ``grow``; one more than that: grow
+        gently (the corrector evaluates a Jacobian only when another iteration is needed, so such a
+        step still costs few Jacobians); ``slow_iterations`` or more, or a turn above half of
+        ``max_turn``: shrink to 0.7; otherwise keep the length.
+        """
+        if turn > 0.5 * self.max_turn or iterations >= self.slow_iterations:
             factor = 0.7
+        elif iterations <= self.fast_iterations:
+            factor = self.grow
+        elif iterations == self.fast_iterations + 1:
+            factor = 1.0 + 0.4 * (self.grow - 1.0)
         else:
             factor = 1.0
         return min(self.max_step, max(self.min_step, step * factor))

@@ -72,15 +72,18 @@ def test_every_flag_agrees_with_an_exhaustive_grid_of_trial_phases(split_envelop
     z = np.array([0.5, 0.5])
     # On the envelope the incipient phase itself touches the tangent plane (tm = 0), so a stable row
     # has a grid minimum at round-off, an unstable one a clearly negative one.
-    unstable = 0
+    unstable = []
     for row in split_envelope.rows:
         minimum = grid_minimum(SPLIT, z, row[0], row[1])
         if row[5] is False:
             assert minimum < -1e-6, (row[0], row[1], minimum)
-            unstable += 1
+            unstable.append(row[0])
         else:
             assert minimum > -1e-6, (row[0], row[1], minimum)
-    assert unstable >= 10
+    # A genuine metastable stretch, measured in temperature (the row count depends on the step length):
+    # it spans about 224 K to 288 K on this envelope.
+    assert len(unstable) >= 5
+    assert max(unstable) - min(unstable) > 40.0
 
 
 def test_batched_fugacities_match_the_single_phase_ones():
