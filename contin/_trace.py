@@ -450,12 +450,18 @@ class _Run:
                     return
                 h = shorter
                 continue
-            self.extended.counters.accepted_steps += 1
             x_new = correction.x
-            self.jacobian = correction.jacobian
             signs = self.test_signs(factored.factors, cosine if row is t else float(row @ t_new), t_new,
                                     correction.jacobian)
-            stop = self._special_points((x, t), (x_new, t_new), correction, signs)
+            at_min_step = step_now <= options.min_step * (1.0 + 1e-12)
+            stop = self._special_points((x, t), (x_new, t_new), correction, signs, force=at_min_step)
+            if stop is None:
+                # A special point in this step could not be located: retry the step shorter.
+                self.extended.counters.reject("special point not located")
+                h = max(options.min_step, step_now * self.controller.shrink)
+                continue
+            self.extended.counters.accepted_steps += 1
+            self.jacobian = correction.jacobian
             if stop:
                 return
             farthest = max(farthest, _length(x_new - x_start))
@@ -504,12 +510,28 @@ class _Run:
         hopf = hopf_sign(jacobian[:, : self.extended.n]) if self.hopf else 0
         return branch_sign, hopf
 
-    def _special_points(self, a, b, correction, signs=(0, 0)) -> bool:
-        """Locate what lies between accepted points a and b, append them and b; True if the trace stops."""
+    def _special_points(self, a, b, correction, signs=(0, 0), force: bool = False) -> bool | None:
+        """Locate what lies between accepted points a and b, append them and b.
+
+        Returns True if the trace stops, False if it goes on, and None — with nothing changed — if a
+        special point could not be located (the caller retries a shorter step). With ``force`` (the
+        step is already at min_step) such a point is reported at the nearer bracketing point instead,
+        with ``located_to`` the length of the step.
+        """
         (xa, ta), (xb, tb) = a, b
         found: list[tuple[float, str, object, Located]] = []  # (fraction, kind, payload, located)
         options = self.options
-        before, self.signs = self.signs, signs
+        before = self.signs
+        length = _length(xb - xa)
+
+        def unlocated(f_a: float, f_b: float, prefer_inside: bool = False) -> Located | None:
+            """None (retry a shorter step), or with force the nearer bracketing point."""
+            if not force:
+                return None
+            use_a = prefer_inside or abs(f_a) < abs(f_b)
+            x, t = (xa, ta) if use_a else (xb, tb)
+            return Located(0.0 if use_a else 1.0, x.copy(), t.copy(), float(correction.residual_norm),
+                           int(correction.iterations), length, f_a if use_a else f_b)
         if before[0] * signs[0] < 0:
             located = locate_branch_point(self.extended, a, b, options)
             if located is not None:
@@ -531,18 +553,21 @@ class _Run:
             if crossed(ta[coordinate], tb[coordinate]):
                 located = locate_zero(self.extended, (xa, ta, ta[coordinate]), (xb, tb, tb[coordinate]),
                                       lambda x, t, c=coordinate: t[c], options)
-                if located is not None:
-                    found.append((located.fraction, "fold", coordinate, located))
+                located = located or unlocated(ta[coordinate], tb[coordinate])
+                if located is None:
+                    return None
+                found.append((located.fraction, "fold", coordinate, located))
         new_values = []
         for k, event in enumerate(self.events):
-            before, after = self.event_values[k], self.event_value(event, xb)
-            new_values.append(after)
-            if crossed(before, after, event.direction):
-                located = locate_zero(self.extended, (xa, ta, before), (xb, tb, after),
+            value_a, value_b = self.event_values[k], self.event_value(event, xb)
+            new_values.append(value_b)
+            if crossed(value_a, value_b, event.direction):
+                located = locate_zero(self.extended, (xa, ta, value_a), (xb, tb, value_b),
                                       lambda x, t, e=event: self.event_value(e, x), options)
-                if located is not None:
-                    found.append((located.fraction, "event", event, located))
-        self.event_values = new_values
+                located = located or unlocated(value_a, value_b)
+                if located is None:
+                    return None
+                found.append((located.fraction, "event", event, located))
         at_b = []
         for coordinate, values in self.at:
             a_value, b_value = xa[coordinate], xb[coordinate]
@@ -555,16 +580,23 @@ class _Run:
                     at_b.append((coordinate, float(value)))  # the step landed on it
                     continue
                 located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, float(value), options)
-                if located is not None:
-                    found.append((located.fraction, "at", (coordinate, float(value)), located))
+                located = located or unlocated(xa[coordinate] - value, xb[coordinate] - value)
+                if located is None:
+                    return None
+                found.append((located.fraction, "at", (coordinate, float(value)), located))
         for coordinate, low, high in self.bounds:
             for level in (low, high):
                 if (xa[coordinate] - level) * (xb[coordinate] - level) < 0 or (
                     xb[coordinate] == level and xa[coordinate] != level
                 ):
                     located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, level, options)
-                    if located is not None:
-                        found.append((located.fraction, "bound", (coordinate, level), located))
+                    located = located or unlocated(xa[coordinate] - level, xb[coordinate] - level, True)
+                    if located is None:
+                        return None
+                    found.append((located.fraction, "bound", (coordinate, level), located))
+        # Everything between a and b is located: from here on the branch changes.
+        self.signs = signs
+        self.event_values = new_values
         if len(self.rows) == 1:
             # A start on a special point (e.g. a restart from a fold) is not a new special point.
             near = 1e-9 * (1.0 + float(np.linalg.norm(xa)))
@@ -576,7 +608,10 @@ class _Run:
                 index = len(self.rows) - 1
                 self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
                 continue
-            index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
+            if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
+                index = len(self.rows) - 1  # reported on the point before the step (not located closer)
+            else:
+                index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
             if kind == "fold":
                 name = self.columns[payload]
                 self.special.append(self.special_point("fold", f"fold in {name}", index, located, {"coordinate": name}))
