@@ -1,6 +1,5 @@
 """Command line of the mixture tools: bad input messages and the JSON contract."""
 
-import argparse
 import json
 
 import pytest
@@ -8,16 +7,11 @@ import pytest
 from contin_thermo import _cli_mixture as cli
 
 
-def parser():
-    top = argparse.ArgumentParser(prog="contin thermo")
-    sub = top.add_subparsers(dest="command")
-    cli.register(sub)
-    return top
-
-
 def run(argv, capsys):
-    args = parser().parse_args(argv)
-    code = args.handler(args)
+    """Through the real entry point: `contin thermo ...` (errors come out as one 'contin: error:' line)."""
+    from contin._cli import main
+
+    code = main(["thermo", *argv])
     out = capsys.readouterr()
     return code, out.out, out.err
 
@@ -66,10 +60,9 @@ def test_envelope_json_contract(capsys, tmp_path):
 
 
 def test_critical_json(capsys):
-    args = argparse.Namespace(mixture="methane=0.8,ethane=0.2", kij=None, component=[], eos="pr", json=True,
-                              csv=None, plot=None, normalise=False)
-    assert cli.run_critical(args) == 0
-    document = json.loads(capsys.readouterr().out)
+    code, out, _ = run(["critical", "--mixture", "methane=0.8,ethane=0.2", "--eos", "pr", "--json"], capsys)
+    assert code == 0
+    document = json.loads(out)
     assert document["special_points"][0]["kind"] == "critical"
     # Between the pure critical temperatures of methane (190.56 K) and ethane (305.32 K) (Poling et al., memory)
     assert 190.56 < document["special_points"][0]["values"]["T"] < 305.32
@@ -107,3 +100,44 @@ def test_from_pressure_with_a_unit(capsys):
     assert code == 0
     points = json.loads(out)["points"]
     assert points[0][1] == pytest.approx(2e5, rel=1e-9) and points[-1][1] == pytest.approx(2e5, rel=1e-9)
+
+
+# -- output units, run records, readable status, notebook methods -----------------------------------
+
+LEAN = "methane=0.8,ethane=0.1,propane=0.06,n-butane=0.04"  # invented lean gas
+
+
+def test_envelope_units_and_record(tmp_path, capsys):
+    record = tmp_path / "record.json"
+    code, out, _ = run(["envelope", "--mixture", LEAN, "--eos", "pr", "--units", "engineering",
+                        "--kij", "methane-n-butane=0.02", "--record", str(record)], capsys)
+    assert code == 0
+    assert "degC" in out and "bar" in out
+    assert "completed: from the dew point at 100000 Pa through the" in out and "critical point" in out
+    saved = json.loads(record.read_text())
+    assert saved["input"]["command"] == "envelope" and saved["input"]["eos"] == "pr"
+    assert [c["name"] for c in saved["input"]["components"]] == ["methane", "ethane", "propane", "n-butane"]
+    assert saved["input"]["kij"][0][3] == 0.02 and saved["input"]["feed"] == [0.8, 0.1, 0.06, 0.04]
+    assert {sp["kind"] for sp in saved["result"]["special_points"]} == {"critical", "cricondenbar", "cricondentherm"}
+
+
+def test_missing_output_folder_refused_before_work(tmp_path, capsys):
+    code, out, err = run(["envelope", "--mixture", LEAN, "--eos", "pr", "--csv", str(tmp_path / "no" / "x.csv")], capsys)
+    assert code == 2 and "does not exist" in err and out == ""
+
+
+def test_result_objects_in_a_notebook():
+    import contin_thermo
+
+    mixture = contin_thermo.mixture(["methane", "ethane", "propane", "n-butane"], "pr")
+    envelope = contin_thermo.trace_envelope(mixture, [0.8, 0.1, 0.06, 0.04], check_stability=False)
+    assert repr(envelope).startswith("<Envelope of 4 components (Peng-Robinson)") and "critical" in repr(envelope)
+    axes = envelope.plot()
+    assert axes.get_xlabel().startswith("temperature") and len(axes.lines) >= 2
+    frame = envelope.to_dataframe()
+    assert list(frame.columns[:3]) == ["T", "P", "side"] and len(frame) == len(envelope.rows)
+    diagram = contin_thermo.pxy(contin_thermo.mixture(["propane", "n-butane"], "pr"), 300.0)
+    assert repr(diagram).startswith("<pxy diagram of propane + n-butane at T = 300 K")
+    assert diagram.message == "completed: from pure n-butane (x1 = 0) to pure propane (x1 = 1)"
+    assert diagram.plot().get_xlabel() == "mole fraction of propane"
+    assert list(diagram.to_dataframe().columns) == ["x1", "y1", "P", "v_liquid", "v_vapour"]

@@ -72,7 +72,7 @@ def test_pressure_given_as_a_temperature_is_refused(capsys):
     assert code == 2 and "'300 K' is a temperature, but a pressure is needed" in err
 
 
-@pytest.mark.parametrize("command", ["saturation", "spinodal", "critical", "components"])
+@pytest.mark.parametrize("command", ["saturation", "spinodal", "critical", "components", "envelope", "pxy", "txy"])
 def test_every_thermo_command_help_has_an_example(command, capsys):
     code, out, _ = run(capsys, "thermo", command, "--help")
     assert code == 0

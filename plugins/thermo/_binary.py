@@ -63,23 +63,48 @@ class BinaryDiagram:
                                     self.stats, caution=CAUTION, model=self.mixture.family.label,
                                     components=list(self.mixture.names))
 
-    def to_csv(self, path):
-        """Write the rows as CSV with the caution and units header."""
+    def to_csv(self, path, units: str = "si"):
+        """Write the rows as CSV with the caution and units header (``units``: ``si`` or ``engineering``)."""
         from ._report import write_csv
+        from ._units import convert_rows, output_units
 
-        units = {"x1": "", "y1": "", "P": "Pa", "T": "K", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}
+        names = {"x1": "", "y1": "", "P": "Pa", "T": "K", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}
+        rows, names = convert_rows(self.columns, self.rows, names, output_units(units))
         fixed = f"T = {self.fixed} K" if self.kind == "pxy" else f"P = {self.fixed} Pa"
-        return write_csv(path, self.columns, self.rows, units, title=f"{self.kind} diagram at {fixed}",
+        return write_csv(path, self.columns, rows, names, title=f"{self.kind} diagram at {fixed}",
                          notes=[f"model: {self.mixture.family.label}; components: {', '.join(self.mixture.names)}"])
 
-    def summary(self) -> list[str]:
-        """Human summary lines with the caution."""
+    def summary(self, units: str = "si") -> list[str]:
+        """Human summary lines with the caution (temperatures and pressures in ``units``)."""
         from ._report import summary_lines
+        from ._units import convert_rows, output_units
 
+        shown = output_units(units)
         items = [("model", self.mixture.family.label), ("status", self.message), ("points", str(len(self.rows)))]
         for sp in self.special_points:
-            items.append((sp["kind"], ", ".join(f"{k} = {v:.6g}" for k, v in sp["values"].items())))
+            keys = list(sp["values"])
+            (values,), names = convert_rows(keys, [list(sp["values"].values())], {}, shown)
+            items.append((sp["kind"], ", ".join(
+                f"{k} = {v:.6g}" + (f" {names[k]}" if names[k] else "") for k, v in zip(keys, values))))
         return summary_lines(f"{self.kind} diagram", items)
+
+    def plot(self, axes=None):
+        """Draw the diagram (bubble and dew curves, special points); returns the matplotlib axes."""
+        from ._plot_envelope import draw_binary
+
+        return draw_binary(self, axes)
+
+    def to_dataframe(self):
+        """The rows as a pandas DataFrame in SI units (needs pandas, which contin does not install)."""
+        from ._report import table_frame
+
+        return table_frame(self.columns, self.rows)
+
+    def __repr__(self) -> str:
+        fixed = f"T = {self.fixed:.6g} K" if self.kind == "pxy" else f"P = {self.fixed:.6g} Pa"
+        kinds = ", ".join(sp["kind"] for sp in self.special_points) or "no special points"
+        return (f"<{self.kind} diagram of {' + '.join(self.mixture.names)} at {fixed} "
+                f"({self.mixture.family.label}): {len(self.rows)} points; {kinds}; status {self.status}>")
 
 
 class _BinarySystem(contin.CallableSystem):
@@ -184,6 +209,9 @@ def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
         specials.append({"kind": sp.kind, "name": sp.name, "index": sp.index, "values": values,
                          "located_to": sp.located_to, "info": {}})
     status, message, success = branch.status.label, branch.message, branch.success
+    if branch.status == contin.Status.BOUND_REACHED and pts.size and pts[-1][-1] >= 1.0 - 1e-12:
+        first, second = mixture.names
+        message = f"completed: from pure {second} (x1 = 0) to pure {first} (x1 = 1)"
     if closing:
         last = pts[-1]
         guess = (float(last[-1]), math.exp(float(last[2])), 0.5 * float(last[3] + last[4]))

@@ -134,10 +134,32 @@ def _common(parser, *, fractions: bool = True) -> None:
         parser.add_argument("--normalise", action="store_true", help="scale the mole fractions to sum to 1")
 
 
+_EXAMPLES = {
+    "envelope": "examples:\n"
+                "  contin thermo envelope --mixture 'methane=0.82,ethane=0.09,propane=0.05,n-butane=0.03,n-pentane=0.01' "
+                "--eos pr --plot envelope.png\n"
+                "  contin thermo envelope --mixture 'methane=0.7,carbon dioxide=0.2,n-hexane=0.1' --kij "
+                "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units engineering --csv env.csv\n"
+                "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json",
+    "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
+           "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
+    "txy": "examples:\n  contin thermo txy --mixture 'propane,n-butane' --pressure '5 bar' --eos pr --plot txy.png\n"
+           "  contin thermo txy --mixture 'methane,ethane' --pressure 2MPa --eos pr --csv txy.csv",
+}
+
+
 def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
-    envelope = thermo_subparsers.add_parser("envelope", help="phase envelope of a mixture")
+    from ._caution import CAUTION
+    from ._cli_common import add_output_options
+
+    envelope = thermo_subparsers.add_parser(
+        "envelope", help="phase envelope of a mixture", epilog=_EXAMPLES["envelope"],
+        description="Trace the dew and bubble curves of a feed in one run, from the dew point at "
+                    "--from-pressure through the cricondentherm, the critical point and the cricondenbar "
+                    "to the bubble point; check every point for stability. " + CAUTION)
     _common(envelope)
+    add_output_options(envelope)
     envelope.add_argument("--from-pressure", default="1e5", metavar="PA",
                           help="pressure of the low-pressure dew and bubble points (default 1e5 Pa; units "
                                "such as '1 bar' or '100 kPa' allowed)")
@@ -145,75 +167,90 @@ def register(thermo_subparsers) -> None:
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
     envelope.set_defaults(handler=run_envelope)
     for name, option, unit in (("pxy", "--temperature", "K"), ("txy", "--pressure", "PA")):
-        parser = thermo_subparsers.add_parser(name, help=f"binary {name} diagram")
+        parser = thermo_subparsers.add_parser(
+            name, help=f"binary {name} diagram", epilog=_EXAMPLES[name],
+            description=f"Trace the {name} diagram of a binary by continuation in composition, from one pure "
+                        "component to the other or to where the two-phase region closes; azeotropes are "
+                        "reported. " + CAUTION)
         _common(parser, fractions=False)
+        add_output_options(parser)
         parser.add_argument(option, required=True, metavar=unit,
                             help=f"fixed {option[2:]} ({unit} if bare; units such as '30 degC' or '5 bar' allowed)")
         parser.add_argument("--plot", default=None, metavar="FILE", help=f"draw the {name} diagram")
         parser.set_defaults(handler=run_binary, diagram=name)
 
 
-def _fail(error: Exception) -> int:
-    print(f"error: {error}", file=sys.stderr)
-    return 2
+def _mixture_input(args, mixture, z=None) -> dict:
+    """What a run record keeps of a mixture command: components as used, kij, feed, model."""
+    from ._cli_common import component_data
+
+    data = {"command": getattr(args, "thermo_command", None), "eos": mixture.family.name,
+            "components": [component_data(c) for c in mixture.components],
+            "kij": [[float(v) for v in row] for row in mixture.kij]}
+    if z is not None:
+        data["feed"] = [float(v) for v in z]
+    return data
 
 
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
+    from ._cli_common import check_destinations, write_run_record
     from ._envelope import trace_envelope
+    from ._units import parse_pressure
 
-    try:
-        mixture, z = build_mixture(args)
-        quality = []
-        if args.quality:
-            for q in str(args.quality).split(","):
-                try:
-                    quality.append(float(q))
-                except ValueError:
-                    raise InputError(f"--quality {q.strip()!r} is not a number") from None
-        from ._units import parse_pressure
-
-        from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
-        envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality)
-    except InputError as error:
-        return _fail(error)
+    check_destinations(args)
+    mixture, z = build_mixture(args)
+    quality = []
+    if args.quality:
+        for q in str(args.quality).split(","):
+            try:
+                quality.append(float(q))
+            except ValueError:
+                raise InputError(f"--quality {q.strip()!r} is not a number") from None
+    from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+    envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality)
+    document = envelope.to_dict()
     if args.csv:
-        envelope.to_csv(args.csv)
+        envelope.to_csv(args.csv, units=args.units)
     if getattr(args, "plot", None):
         from ._plot_envelope import plot_envelope
 
         plot_envelope(envelope, args.plot)
+    write_run_record(args, document, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure,
+                                      "quality": quality})
     if args.json:
-        print(json.dumps(envelope.to_dict()))
+        print(json.dumps(document))
     else:
-        print("\n".join(envelope.summary()))
+        print("\n".join(envelope.summary(args.units)))
     return 0 if envelope.success else 1
 
 
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ._binary import pxy, txy
-
+    from ._cli_common import check_destinations, write_run_record
     from ._units import parse_pressure, parse_temperature
 
-    try:
-        mixture, _ = build_mixture(args, fractions=False)
-        if args.diagram == "pxy":
-            diagram = pxy(mixture, parse_temperature(args.temperature, "--temperature"))
-        else:
-            diagram = txy(mixture, parse_pressure(args.pressure, "--pressure"))
-    except InputError as error:
-        return _fail(error)
+    check_destinations(args)
+    mixture, _ = build_mixture(args, fractions=False)
+    if args.diagram == "pxy":
+        fixed = parse_temperature(args.temperature, "--temperature")
+        diagram = pxy(mixture, fixed)
+    else:
+        fixed = parse_pressure(args.pressure, "--pressure")
+        diagram = txy(mixture, fixed)
+    document = diagram.to_dict()
     if args.csv:
-        diagram.to_csv(args.csv)
+        diagram.to_csv(args.csv, units=args.units)
     if getattr(args, "plot", None):
         from ._plot_envelope import plot_binary
 
         plot_binary(diagram, args.plot)
+    write_run_record(args, document, {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed})
     if args.json:
-        print(json.dumps(diagram.to_dict()))
+        print(json.dumps(document))
     else:
-        print("\n".join(diagram.summary()))
+        print("\n".join(diagram.summary(args.units)))
     return 0 if diagram.success else 1
 
 
@@ -225,11 +262,11 @@ def run_critical(args) -> int:
     from ._mixture_critical import critical_point
     from ._report import summary_lines, write_csv
 
-    try:
-        mixture, z = build_mixture(args)
-        point = critical_point(mixture, z)
-    except InputError as error:
-        return _fail(error)
+    from ._cli_common import check_destinations, write_run_record
+
+    check_destinations(args)
+    mixture, z = build_mixture(args)
+    point = critical_point(mixture, z)
     columns = ("T", "P", "v")
     row = [point.T, float(point.P), point.v]
     special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
@@ -237,14 +274,20 @@ def run_critical(args) -> int:
     if getattr(args, "csv", None):
         write_csv(args.csv, columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, title="mixture critical point",
                   notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
+                                    [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
+                                                         "newton_iterations": 0, "jacobian_evaluations": 0},
+                                    caution=CAUTION, model=mixture.family.label)
+    write_run_record(args, document, _mixture_input(args, mixture, z))
     if getattr(args, "json", False):
-        document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
-                                        [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
-                                                             "newton_iterations": 0, "jacobian_evaluations": 0},
-                                        caution=CAUTION, model=mixture.family.label)
         print(json.dumps(document))
     else:
+        from ._units import output_units
+
+        shown = output_units(getattr(args, "units", "si"))
         print("\n".join(summary_lines("mixture critical point", [
-            ("model", mixture.family.label), ("T", f"{point.T:.6f} K"), ("P", f"{point.P:.6e} Pa"),
+            ("model", mixture.family.label),
+            ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),
+            ("P", f"{shown.pressure_from_si(point.P):.6g} {shown.pressure}"),
             ("v", f"{point.v:.6e} m3/mol")])))
     return 0

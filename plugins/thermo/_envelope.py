@@ -370,26 +370,61 @@ class Envelope:
         return contin.json_document(self.status, self.message, self.columns, self.rows, self.special_points,
                                     [], self.stats, **extra)
 
-    def to_csv(self, path) -> object:
-        """Write the rows as CSV with the caution, units and model in the header; returns the path."""
-        from ._report import write_csv
+    def to_csv(self, path, units: str = "si") -> object:
+        """Write the rows as CSV with the caution, units and model in the header; returns the path.
 
-        units = dict(ENVELOPE_UNITS)
-        units.update({c: "" for c in self.columns if c.startswith("K_")})
+        Args:
+            path: the file.
+            units: ``"si"`` (K, Pa) or ``"engineering"`` (degC, bar) for temperatures and pressures.
+        """
+        from ._report import write_csv
+        from ._units import convert_rows, output_units
+
+        system = output_units(units)
+        names = dict(ENVELOPE_UNITS)
+        names.update({c: "" for c in self.columns if c.startswith("K_")})
+        rows, names = convert_rows(self.columns, self.rows, names, system)
         feed = ", ".join(f"{n}={v:.6g}" for n, v in zip(self.mixture.names, self.z))
         notes = [f"model: {self.mixture.family.label}; feed: {feed}"]
         for sp in self.special_points:
             notes.append(f"{sp['kind']}: T = {sp['values']['T']!r} K, P = {sp['values']['P']!r} Pa")
-        return write_csv(path, self.columns, self.rows, units, title="phase envelope", notes=notes)
+        return write_csv(path, self.columns, rows, names, title="phase envelope", notes=notes)
 
-    def summary(self) -> list[str]:
+    def plot(self, axes=None):
+        """Draw the envelope in the P-T plane with its special points; returns the matplotlib axes."""
+        from ._plot_envelope import draw_envelope
+
+        return draw_envelope(self, axes)
+
+    def to_dataframe(self):
+        """The rows as a pandas DataFrame in SI units (needs pandas, which contin does not install)."""
+        from ._report import table_frame
+
+        return table_frame(self.columns, self.rows)
+
+    def __repr__(self) -> str:
+        found = ", ".join(f"{sp['kind']} T = {sp['values']['T']:.5g} K, P = {sp['values']['P']:.5g} Pa"
+                          for sp in self.special_points) or "no special points"
+        return (f"<Envelope of {len(self.mixture.names)} components ({self.mixture.family.label}): "
+                f"{len(self.rows)} points; {found}; status {self.status}>")
+
+    def summary(self, units: str = "si") -> list[str]:
         """Human summary lines: special points, extent, metastable stretches, then the caution."""
         from ._report import summary_lines
+        from ._units import output_units
+
+        shown = output_units(units)
+
+        def t(kelvin: float) -> str:
+            return f"{shown.temperature_from_si(kelvin):.6f} {shown.temperature}"
+
+        def p(pascal: float) -> str:
+            return f"{shown.pressure_from_si(pascal):.6g} {shown.pressure}"
 
         items = [("model", self.mixture.family.label), ("status", self.message), ("points", str(len(self.rows)))]
         for kind in ("cricondentherm", "critical", "cricondenbar"):
             sp = self.special(kind)
-            text = "not found" if sp is None else f"T = {sp['values']['T']:.6f} K, P = {sp['values']['P']:.6e} Pa"
+            text = "not found" if sp is None else f"T = {t(sp['values']['T'])}, P = {p(sp['values']['P'])}"
             items.append((kind, text))
         stretches = self.metastable_stretches()
         k = self.columns.index("stable")
@@ -399,8 +434,8 @@ class Envelope:
             items.append(("stability", "every traced point passed the tangent-plane test"))
         for first, last in stretches:
             a, b = self.rows[first], self.rows[last]
-            items.append(("metastable", f"{a[2]} side from T = {a[0]:.2f} K, P = {a[1]:.4g} Pa to "
-                                        f"T = {b[0]:.2f} K, P = {b[1]:.4g} Pa (another phase split is more stable)"))
+            items.append(("metastable", f"{a[2]} side from T = {t(a[0])}, P = {p(a[1])} to "
+                                        f"T = {t(b[0])}, P = {p(b[1])} (another phase split is more stable)"))
         for note in self.notes:
             items.append(("note", note))
         return summary_lines("phase envelope", items)
@@ -734,6 +769,13 @@ def trace_envelope(
         end = (math.exp(critical[1][n]), math.exp(critical[1][-1]))
     lines = tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points, end) for beta in betas)
 
+    if success and critical is not None and status == contin.Status.BOUND_REACHED.label:
+        passed = [kind for kind in ("cricondentherm", "cricondenbar", "critical")
+                  if any(sp["kind"] == kind for sp in specials)]
+        order = sorted(passed, key=lambda kind: next(sp["index"] for sp in specials if sp["kind"] == kind))
+        words = [("critical point" if kind == "critical" else kind) for kind in order]
+        message = (f"completed: from the dew point at {from_pressure:g} Pa through the {', the '.join(words)} "
+                   f"to the bubble point at {from_pressure:g} Pa")
     stats["setup_seconds"] = setup + float(first.stats.get("setup_seconds", 0.0))
     stats["trace_seconds"] = traced - began - setup
     stats["stability_seconds"] = stability_seconds

@@ -8,23 +8,31 @@ import numpy as np
 
 from ._caution import CAUTION
 
-__all__ = ["plot_binary", "plot_envelope"]
+__all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope"]
 
 _MARKERS = {"critical": ("o", "critical point"), "cricondenbar": ("^", "cricondenbar"),
             "cricondentherm": (">", "cricondentherm")}
 
 
-def plot_envelope(envelope, path) -> None:
-    """Draw ``envelope`` in the P-T plane (bar against K) to ``path`` (format from the suffix), Agg backend."""
-    import matplotlib
+def plot_envelope(envelope, path):
+    """Draw ``envelope`` in the P-T plane into ``path`` (PNG, SVG or PDF by the suffix)."""
+    from contin._plot import _pyplot, save_figure
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    _pyplot(headless=True)
+    return save_figure(draw_envelope(envelope).figure, path)
 
+
+def draw_envelope(envelope, axes=None):
+    """Draw ``envelope`` in the P-T plane (bar against K) on ``axes`` (a new figure if None); returns the axes."""
+    from contin._plot import _pyplot
+
+    plt = _pyplot()
     T = envelope.column("T")
     P = envelope.column("P") / 1e5
     side = envelope.column("side")
-    figure, axes = plt.subplots(figsize=(7.5, 5.5))
+    if axes is None:
+        figure, axes = plt.subplots(figsize=(7.5, 5.5))
+    figure = axes.figure
     for name, style in (("dew", "-"), ("bubble", "--")):
         mask = side == name
         axes.plot(np.where(mask, T, np.nan), np.where(mask, P, np.nan), style, color="tab:blue", label=f"{name} curve")
@@ -46,23 +54,30 @@ def plot_envelope(envelope, path) -> None:
     caption = f"Feed: {feed}. " + CAUTION
     figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
     figure.subplots_adjust(bottom=0.2)
-    figure.savefig(path, dpi=120)
-    plt.close(figure)
+    return axes
 
 
-def plot_binary(diagram, path) -> None:
-    """Draw a Pxy (bar) or Txy (K) diagram: bubble curve against x1, dew curve against y1, to ``path``."""
-    import matplotlib
+def plot_binary(diagram, path):
+    """Draw a Pxy or Txy diagram into ``path`` (PNG, SVG or PDF by the suffix)."""
+    from contin._plot import _pyplot, save_figure
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    _pyplot(headless=True)
+    return save_figure(draw_binary(diagram).figure, path)
 
+
+def draw_binary(diagram, axes=None):
+    """Draw a Pxy (bar) or Txy (K) diagram: bubble curve against x1, dew curve against y1; returns the axes."""
+    from contin._plot import _pyplot
+
+    plt = _pyplot()
     rows = np.array(diagram.rows, dtype=float)
     x1, y1 = rows[:, 0], rows[:, 1]
     pxy = diagram.kind == "pxy"
     other = rows[:, 2] / 1e5 if pxy else rows[:, 2]
     first, second = diagram.mixture.names
-    figure, axes = plt.subplots(figsize=(7.0, 5.2))
+    if axes is None:
+        figure, axes = plt.subplots(figsize=(7.0, 5.2))
+    figure = axes.figure
     axes.plot(x1, other, "-", color="tab:blue", label="bubble curve (liquid x1)")
     axes.plot(y1, other, "--", color="tab:orange", label="dew curve (vapour y1)")
     for sp in diagram.special_points:
@@ -78,5 +93,4 @@ def plot_binary(diagram, path) -> None:
     axes.grid(alpha=0.3)
     figure.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 130)), fontsize=6.5, va="bottom")
     figure.subplots_adjust(bottom=0.18)
-    figure.savefig(path, dpi=120)
-    plt.close(figure)
+    return axes

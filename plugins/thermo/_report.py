@@ -12,7 +12,7 @@ from contin._output import write_text_atomically
 
 from ._caution import CAUTION, caution_comment
 
-__all__ = ["atomic_write_text", "csv_text", "write_csv", "summary_lines", "format_value"]
+__all__ = ["atomic_write_text", "csv_text", "write_csv", "summary_lines", "format_value", "table_frame"]
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:
@@ -79,3 +79,14 @@ def summary_lines(title: str, items: Sequence[tuple[str, str]]) -> list[str]:
     lines += [f"  {label.ljust(width)} : {value}" for label, value in items]
     lines.append(CAUTION)
     return lines
+
+
+def table_frame(columns, rows):
+    """A pandas DataFrame of ``rows`` (pandas is not a dependency of contin: install it to use this)."""
+    try:
+        import pandas
+    except ImportError as error:
+        from contin import InputError
+
+        raise InputError("to_dataframe needs pandas, which contin does not install: pip install pandas") from error
+    return pandas.DataFrame([list(row) for row in rows], columns=list(columns))
