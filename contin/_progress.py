@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import TextIO
 
 import numpy as np
@@ -27,11 +27,16 @@ class Progress:
         delay: seconds before the first line.
         interval: least seconds between updates.
         label: a word or two naming the run.
+        describe: optional ``describe(x) -> text`` for the current point in the user's terms (e.g.
+            ``"T = 301.2 K, P = 4.1e6 Pa"`` from internal log coordinates); default: the last three
+            coordinates by name.
     """
 
     def __init__(self, columns: Sequence[str], *, stream: TextIO | None = None, quiet: bool = False,
-                 delay: float = 1.0, interval: float = 0.2, label: str = "tracing") -> None:
+                 delay: float = 1.0, interval: float = 0.2, label: str = "tracing",
+                 describe: Callable[[np.ndarray], str] | None = None) -> None:
         self.columns = tuple(columns)
+        self.describe = describe
         self.stream = stream if stream is not None else sys.stderr
         is_terminal = getattr(self.stream, "isatty", lambda: False)
         self.enabled = not quiet and bool(is_terminal())
@@ -44,7 +49,10 @@ class Progress:
 
     def line(self, index: int, x: np.ndarray, special_points: Sequence) -> str:
         """The text of the progress line (also used by tests)."""
-        shown = ", ".join(f"{name} = {value:.6g}" for name, value in list(zip(self.columns, x))[-3:])
+        if self.describe is not None:
+            shown = self.describe(x)
+        else:
+            shown = ", ".join(f"{name} = {value:.6g}" for name, value in list(zip(self.columns, x))[-3:])
         kinds: dict[str, int] = {}
         for point in special_points:
             kinds[point.kind] = kinds.get(point.kind, 0) + 1

@@ -77,3 +77,31 @@ def test_every_thermo_command_help_has_an_example(command, capsys):
     code, out, _ = run(capsys, "thermo", command, "--help")
     assert code == 0
     assert "examples:" in out and f"contin thermo {command}" in out
+
+
+# -- Ctrl-C: what was traced so far is written, with status interrupted ---------------------------
+
+@pytest.fixture
+def ctrl_c_at_point_5(monkeypatch):
+    import contin
+
+    def interrupt(self, index, x, special_points):
+        if index == 5:
+            raise KeyboardInterrupt
+
+    monkeypatch.setattr(contin.Progress, "__call__", interrupt)
+
+
+@pytest.mark.parametrize("command", [
+    ["saturation", "--fluid", "propane", "--eos", "pr"],
+    ["envelope", "--mixture", "methane=0.8,ethane=0.1,propane=0.06,n-butane=0.04", "--eos", "pr"],
+])
+def test_ctrl_c_writes_what_was_traced(command, ctrl_c_at_point_5, tmp_path, capsys):
+    table = tmp_path / "partial.csv"
+    code, out, _ = run(capsys, "thermo", *command, "--csv", str(table), "--json")
+    assert code == 1
+    document = json.loads(out)
+    assert document["status"] == "interrupted"
+    assert 1 <= len(document["points"]) <= 7
+    assert len(data_rows(table)) == len(document["points"]) + 1  # header + the rows traced so far
+    assert "Caution" in table.read_text()

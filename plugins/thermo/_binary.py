@@ -169,7 +169,7 @@ def _start(mixture: Mixture, kind: str, fixed: float) -> np.ndarray:
     return np.array([solution[0], solution[1], solution[2], solution[3], solution[4]])
 
 
-def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
+def _diagram(mixture: Mixture, kind: str, fixed: float, on_point=None) -> BinaryDiagram:
     if mixture.size != 2:
         raise InputError(f"--mixture must name exactly two components for {kind}, not {mixture.size}")
     if isinstance(fixed, bool) or not (isinstance(fixed, (int, float)) and math.isfinite(fixed) and fixed > 0):
@@ -181,7 +181,7 @@ def _diagram(mixture: Mixture, kind: str, fixed: float) -> BinaryDiagram:
                            kind="closing")]
     branch = contin.trace(system, u0, free="x1", parameters={"x1": 0.0}, direction=1, step=0.02, max_step=0.05,
                           min_step=1e-10, tolerance=1e-10, events=events, max_points=600, corrector="local",
-                          bounds={"x1": (0.0, 1.0)})
+                          bounds={"x1": (0.0, 1.0)}, on_point=on_point)
     pts = branch.points
     keep = np.ones(len(pts), dtype=bool)
     keep[1:] = np.abs(np.diff(pts[:, -1])) > 1e-13  # a bound landed on a point already there
@@ -291,19 +291,19 @@ def _critical_end(mixture: Mixture, kind: str, fixed: float, guess: tuple[float,
     return float(x[0]), float(other), float(v), float(np.max(np.abs(r)))
 
 
-def pxy(mixture: Mixture, temperature: float) -> BinaryDiagram:
+def pxy(mixture: Mixture, temperature: float, *, on_point=None) -> BinaryDiagram:
     """Pxy diagram of a binary at ``temperature`` (K): bubble pressure and vapour composition against x1.
 
     Raises:
         InputError: not a binary; temperature not positive or above the second component's Tc.
     """
-    return _diagram(mixture, "pxy", temperature)
+    return _diagram(mixture, "pxy", temperature, on_point)
 
 
-def txy(mixture: Mixture, pressure: float) -> BinaryDiagram:
+def txy(mixture: Mixture, pressure: float, *, on_point=None) -> BinaryDiagram:
     """Txy diagram of a binary at ``pressure`` (Pa): bubble temperature and vapour composition against x1.
 
     Raises:
         InputError: not a binary; pressure not positive or above the second component's Pc.
     """
-    return _diagram(mixture, "txy", pressure)
+    return _diagram(mixture, "txy", pressure, on_point)

@@ -215,10 +215,21 @@ def run_pure(args) -> int:
         return _emit(critical_point(fluid), args)
     start = _single(args.from_temperature, "temperature", "--from-temperature")
     temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
-    if args.curve == "spinodal":
-        return _emit(spinodal_curve(fluid, from_temperature=start, at_temperatures=temperatures), args)
-    pressures = _values(args.at_pressures, "pressure", "--at-pressures")
-    return _emit(saturation_curve(fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures), args)
+    import contin
+
+    tc = fluid.component.Tc
+    progress = contin.Progress((), quiet=args.quiet or args.json, label=f"{args.curve} of {fluid.component.name}",
+                               describe=lambda x: f"T = {x[-1] * tc:.6g} K")
+    try:
+        if args.curve == "spinodal":
+            result = spinodal_curve(fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
+        else:
+            pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+            result = saturation_curve(fluid, from_temperature=start, at_temperatures=temperatures,
+                                      at_pressures=pressures, on_point=progress)
+    finally:
+        progress.close()
+    return _emit(result, args)
 
 
 def _run_critical(args) -> int:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 import sys
 
 import numpy as np
@@ -208,7 +209,15 @@ def run_envelope(args) -> int:
             except ValueError:
                 raise InputError(f"--quality {q.strip()!r} is not a number") from None
     from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
-    envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality)
+    import contin
+
+    n = mixture.size
+    progress = contin.Progress((), quiet=args.quiet or args.json, label="envelope",
+                               describe=lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa")
+    try:
+        envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality, on_point=progress)
+    finally:
+        progress.close()
     document = envelope.to_dict()
     if args.csv:
         envelope.to_csv(args.csv, units=args.units)
@@ -233,12 +242,19 @@ def run_binary(args) -> int:
 
     check_destinations(args)
     mixture, _ = build_mixture(args, fractions=False)
-    if args.diagram == "pxy":
-        fixed = parse_temperature(args.temperature, "--temperature")
-        diagram = pxy(mixture, fixed)
-    else:
-        fixed = parse_pressure(args.pressure, "--pressure")
-        diagram = txy(mixture, fixed)
+    import contin
+
+    progress = contin.Progress((), quiet=args.quiet or args.json, label=args.diagram,
+                               describe=lambda x: f"x1 = {x[-1]:.6g}")
+    try:
+        if args.diagram == "pxy":
+            fixed = parse_temperature(args.temperature, "--temperature")
+            diagram = pxy(mixture, fixed, on_point=progress)
+        else:
+            fixed = parse_pressure(args.pressure, "--pressure")
+            diagram = txy(mixture, fixed, on_point=progress)
+    finally:
+        progress.close()
     document = diagram.to_dict()
     if args.csv:
         diagram.to_csv(args.csv, units=args.units)

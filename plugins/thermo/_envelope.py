@@ -577,13 +577,13 @@ def _fold_value(sp) -> tuple[float, float]:
     return math.exp(sp.values["lnT"]), math.exp(sp.values["lnP"])
 
 
-def _run(system, x, direction, lnP0, max_points, extra_bounds=None, folds=("lnT",)):
+def _run(system, x, direction, lnP0, max_points, extra_bounds=None, folds=("lnT",), on_point=None):
     bounds = {"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))}
     bounds.update(extra_bounds or {})
     return contin.trace(
         system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=_STEP,
         max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
-        bounds=bounds, folds=folds, corrector="local",
+        bounds=bounds, folds=folds, corrector="local", on_point=on_point,
     )
 
 
@@ -595,6 +595,7 @@ def trace_envelope(
     quality: Sequence[float] = (),
     check_stability: bool = True,
     max_points: int = 2000,
+    on_point=None,
 ) -> Envelope:
     """Trace the phase envelope of feed ``z`` from the dew point at ``from_pressure`` to the bubble point.
 
@@ -613,6 +614,7 @@ def trace_envelope(
         quality: vapour fractions (strictly between 0 and 1) of lines of constant quality to add.
         check_stability: run Michelsen's tangent-plane test at every point (``stable`` column).
         max_points: most points on each traced piece.
+        on_point: passed to :func:`contin.trace` for each traced piece (e.g. a :class:`contin.Progress`).
 
     Returns:
         An :class:`Envelope`.
@@ -640,7 +642,7 @@ def trace_envelope(
         return _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability)
     hand_over = f"lnK_{mixture.names[start_key]}"
     limit = (-1e3, -_NEAR_CRITICAL) if x0[start_key] < 0 else (_NEAR_CRITICAL, 1e3)
-    first = _run(system, x0, 1, lnP0, max_points, {hand_over: limit})
+    first = _run(system, x0, 1, lnP0, max_points, {hand_over: limit}, on_point=on_point)
     near_critical = (first.status == contin.Status.BOUND_REACHED and bool(first.special_points)
                      and first.special_points[-1].info.get("coordinate") == hand_over)
     pieces = [first]
@@ -675,7 +677,7 @@ def trace_envelope(
             if np.sign(t_b[key]) != np.sign(x_b[key]):
                 t_b = -t_b
             offset = sum(len(r) for r in rows_x)
-            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points)
+            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points, on_point=on_point)
             pieces.append(second)
             # The second piece starts on the last bridge point: drop the duplicate.
             rows_x.append(second.points[1:])
@@ -758,7 +760,12 @@ def trace_envelope(
         from ._stability import check_points
 
         began_stability = time.perf_counter()
-        stable = check_points(mixture, z, T, P, y)
+        try:
+            stable = check_points(mixture, z, T, P, y)
+        except KeyboardInterrupt:
+            # Ctrl-C during the check: keep the traced points, unchecked, and say so.
+            status, success = contin.Status.INTERRUPTED.label, False
+            message = "interrupted: the stability check was stopped; the traced points are kept, unchecked"
         stability_seconds = time.perf_counter() - began_stability
 
     rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), stable[i],
@@ -767,7 +774,9 @@ def trace_envelope(
     end = None
     if critical is not None:
         end = (math.exp(critical[1][n]), math.exp(critical[1][-1]))
-    lines = tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points, end) for beta in betas)
+    interrupted = status == contin.Status.INTERRUPTED.label
+    lines = () if interrupted else tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points, end)
+                                         for beta in betas)
 
     if success and critical is not None and status == contin.Status.BOUND_REACHED.label:
         passed = [kind for kind in ("cricondentherm", "cricondenbar", "critical")

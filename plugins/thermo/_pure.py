@@ -750,10 +750,10 @@ def _polish_critical(system: _CurveSystem, u: np.ndarray, theta: float, toleranc
     return u, float(p[0]), iterations, residual
 
 
-def _trace(system: _CurveSystem, u0, theta0, at, tolerance, max_step):
+def _trace(system: _CurveSystem, u0, theta0, at, tolerance, max_step, on_point=None):
     return contin.trace(
         system, np.asarray(u0, dtype=float), free=FREE, parameters={FREE: theta0}, events=[_CRITICAL_EVENT],
-        at=at, step=0.05, max_step=max_step, tolerance=tolerance, max_points=5000,
+        at=at, step=0.05, max_step=max_step, tolerance=tolerance, max_points=5000, on_point=on_point,
     )
 
 
@@ -833,6 +833,7 @@ def saturation_curve(
     at_pressures: Sequence[float] = (),
     tolerance: float = 1e-12,
     max_step: float = 0.5,
+    on_point=None,
 ) -> CurveResult:
     """The vapour-liquid coexistence curve of a pure fluid, from a low temperature to the critical point.
 
@@ -849,6 +850,7 @@ def saturation_curve(
             boiling point), between the pressure at ``from_temperature`` and Pc.
         tolerance: Newton tolerance on the residuals (scaled to order one).
         max_step: longest continuation step.
+        on_point: passed to :func:`contin.trace` (e.g. a :class:`contin.Progress`).
 
     Returns:
         :class:`CurveResult` with columns T, P, v_liquid, v_vapour, rho_liquid, rho_vapour,
@@ -892,7 +894,7 @@ def saturation_curve(
         at["log_pressure"] = inner_p
     system = SaturationSystem(pure)
     setup = time.perf_counter() - began
-    branch = _trace(system, u0, theta0, at, tolerance, max_step)
+    branch = _trace(system, u0, theta0, at, tolerance, max_step, on_point)
     row = lambda x: _saturation_row(pure, x)  # noqa: E731
     points = [row(x) for x in branch.points]
     special, extra_iterations, critical_row = _pin_critical(system, branch, points, row, {"T": 0, "P": 1, "v": 2})
@@ -946,6 +948,7 @@ def spinodal_curve(
     at_temperatures: Sequence[float] = (),
     tolerance: float = 1e-12,
     max_step: float = 0.5,
+    on_point=None,
 ) -> CurveResult:
     """Liquid and vapour spinodals (dP/dv = 0 at fixed T) of a pure fluid, meeting at the critical point.
 
@@ -973,7 +976,7 @@ def spinodal_curve(
     inner = [T / pure.component.Tc for T in temperatures if T < pure.component.Tc]
     system = SpinodalSystem(pure)
     setup = time.perf_counter() - began
-    branch = _trace(system, u0, theta0, {FREE: inner} if inner else {}, tolerance, max_step)
+    branch = _trace(system, u0, theta0, {FREE: inner} if inner else {}, tolerance, max_step, on_point)
     row = lambda x: _spinodal_row(pure, x)  # noqa: E731
     points = [row(x) for x in branch.points]
     special, extra_iterations, critical_row = _pin_critical(system, branch, points, row, {"T": 0, "P": 2, "v": 1})
