@@ -11,7 +11,7 @@ import numpy as np
 from ._errors import InputError
 from ._names import suggest
 
-__all__ = ["plot_branch", "save_figure", "FIGURE_FORMATS", "KIND_STYLES", "describe_kind"]
+__all__ = ["plot_branch", "save_figure", "smooth_path", "FIGURE_FORMATS", "KIND_STYLES", "describe_kind"]
 
 FIGURE_FORMATS = (".png", ".svg", ".pdf")
 
@@ -84,7 +84,8 @@ def plot_branch(branch, x: str | None = None, y: str | None = None, *, ax=None, 
         figure, ax = plt.subplots(figsize=(7.0, 5.0), layout="constrained")
     units = units or {}
     ix, iy = columns.index(x), columns.index(y)
-    ax.plot(branch.points[:, ix], branch.points[:, iy], "-", lw=1.6, label=label)
+    xs, ys = smooth_path(branch.points, branch.tangents, ix, iy)
+    ax.plot(xs, ys, "-", lw=1.6, label=label)
     seen: set[str] = set()
     for point in branch.special_points:
         marker, words = KIND_STYLES.get(point.kind, ("o", point.kind.replace("_", " ")))
@@ -109,6 +110,37 @@ def plot_branch(branch, x: str | None = None, y: str | None = None, *, ax=None, 
             engine.set(rect=(0.0, 0.025 * lines + 0.01, 1.0, 1.0 - 0.025 * lines - 0.01))
         figure.text(0.01, 0.005, caption, fontsize=7, ha="left", va="bottom")
     return ax
+
+
+def smooth_path(points: np.ndarray, tangents: np.ndarray, ix: int, iy: int, samples: int = 8):
+    """Coordinates ``ix`` and ``iy`` along the branch, drawn as cubic Hermite segments between points.
+
+    Every point is a converged solution and every tangent the branch's own, so the segment from one
+    point to the next, x(s) = h00 x_i + h10 h t_i + h01 x_i+1 + h11 h t_i+1 with h the chord length,
+    follows the curve to third order; straight chords would show corners where steps are long.
+    Falls back to straight lines where a tangent is missing (zero or not finite).
+    """
+    if len(points) < 2 or tangents.shape != points.shape:
+        return points[:, ix], points[:, iy]
+    s = np.linspace(0.0, 1.0, samples, endpoint=False)
+    h00, h10, h01, h11 = 2 * s**3 - 3 * s**2 + 1, s**3 - 2 * s**2 + s, -2 * s**3 + 3 * s**2, s**3 - s**2
+    xs, ys = [], []
+    for i in range(len(points) - 1):
+        a, b = points[i], points[i + 1]
+        ta, tb = tangents[i], tangents[i + 1]
+        h = float(np.linalg.norm(b - a))
+        if h == 0.0:
+            continue
+        good = np.all(np.isfinite(ta)) and np.all(np.isfinite(tb)) and np.any(ta) and np.any(tb)
+        if not good:
+            xs.append(np.array([a[ix]]))
+            ys.append(np.array([a[iy]]))
+            continue
+        for k, out in ((ix, xs), (iy, ys)):
+            out.append(h00 * a[k] + h10 * h * ta[k] + h01 * b[k] + h11 * h * tb[k])
+    xs.append(points[-1:, ix])
+    ys.append(points[-1:, iy])
+    return np.concatenate(xs), np.concatenate(ys)
 
 
 def save_figure(figure, path: str | os.PathLike, argument: str = "--plot") -> Path:

@@ -84,14 +84,20 @@ _MARKERS = {"cricondentherm": ">", "critical": "*", "cricondenbar": "^"}
 def _draw_envelopes(ax, envelopes, labels, *, split_sides: bool, annotate: bool) -> None:
     from contin._plot import describe_kind
 
+    from ._plot_envelope import smooth_curve
+
     for envelope, label in zip(envelopes, labels):
         T, P = envelope.column("T"), envelope.column("P") / 1e5
         if split_sides:
             dew = np.array([side == "dew" for side in envelope.column("side")], dtype=bool)
-            line, = ax.plot(T[dew], P[dew], "-", lw=2.0, label="dew curve")
-            ax.plot(T[~dew], P[~dew], "--", color=line.get_color(), lw=1.8, label="bubble curve")
+            critical = envelope.special("critical")
+            tc, pc = (critical["values"]["T"], critical["values"]["P"] / 1e5) if critical else (None, None)
+            t_dew, p_dew = (np.append(T[dew], tc), np.append(P[dew], pc)) if critical else (T[dew], P[dew])
+            t_bub, p_bub = (np.insert(T[~dew], 0, tc), np.insert(P[~dew], 0, pc)) if critical else (T[~dew], P[~dew])
+            line, = ax.plot(*smooth_curve(t_dew, p_dew), "-", lw=2.0, label="dew curve")
+            ax.plot(*smooth_curve(t_bub, p_bub), "--", color=line.get_color(), lw=1.8, label="bubble curve")
         else:
-            ax.plot(T, P, "-", lw=1.5, label=label)
+            ax.plot(*smooth_curve(T, P), "-", lw=1.5, label=label)
     for k, envelope in enumerate(envelopes):
         for kind in SPECIAL_KINDS:
             sp = envelope.special(kind)

@@ -8,10 +8,31 @@ import numpy as np
 
 from ._caution import CAUTION
 
-__all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope"]
+__all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope", "smooth_curve"]
 
 _MARKERS = {"critical": ("o", "critical point"), "cricondenbar": ("^", "cricondenbar"),
             "cricondentherm": (">", "cricondentherm")}
+
+
+def smooth_curve(T: np.ndarray, P: np.ndarray, samples: int = 10):
+    """A curve through the points (T, P), drawn smooth: a cubic spline in (ln T, ln P) against chord length.
+
+    Every traced point is exact; only the drawing between them is interpolated (straight chords show
+    corners where the steps are long). Falls back to the points themselves for fewer than four.
+    """
+    from scipy.interpolate import CubicSpline
+
+    keep = np.isfinite(T) & np.isfinite(P) & (T > 0) & (P > 0)
+    x, y = np.log(T[keep]), np.log(P[keep])
+    if x.size < 4:
+        return T[keep], P[keep]
+    chord = np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(x), np.diff(y)))])
+    distinct = np.concatenate([[True], np.diff(chord) > 1e-12 * max(chord[-1], 1e-300)])
+    chord, x, y = chord[distinct], x[distinct], y[distinct]
+    if chord.size < 4:
+        return np.exp(x), np.exp(y)
+    s = np.linspace(0.0, chord[-1], samples * chord.size)
+    return np.exp(CubicSpline(chord, x)(s)), np.exp(CubicSpline(chord, y)(s))
 
 
 def plot_envelope(envelope, path):
@@ -33,9 +54,18 @@ def draw_envelope(envelope, axes=None):
     if axes is None:
         figure, axes = plt.subplots(figsize=(7.5, 5.5))
     figure = axes.figure
+    critical = envelope.special("critical")
     for name, style in (("dew", "-"), ("bubble", "--")):
-        mask = side == name
-        axes.plot(np.where(mask, T, np.nan), np.where(mask, P, np.nan), style, color="tab:blue", label=f"{name} curve")
+        mask = np.array([value == name for value in side], dtype=bool)
+        t_side, p_side = T[mask], P[mask]
+        if critical is not None and mask.any():
+            # Both curves run into the critical point: draw them to it.
+            tc, pc = critical["values"]["T"], critical["values"]["P"] / 1e5
+            at_end = np.flatnonzero(mask)[0] > critical["index"]  # the bubble side starts there
+            t_side = np.concatenate([[tc], t_side]) if at_end else np.concatenate([t_side, [tc]])
+            p_side = np.concatenate([[pc], p_side]) if at_end else np.concatenate([p_side, [pc]])
+        xs, ys = smooth_curve(t_side, p_side)
+        axes.plot(xs, ys, style, color="tab:blue", label=f"{name} curve")
     for line in envelope.quality_lines:
         axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
     for sp in envelope.special_points:
@@ -43,8 +73,10 @@ def draw_envelope(envelope, axes=None):
         t, p = sp["values"]["T"], sp["values"]["P"] / 1e5
         axes.plot([t], [p], marker, color="tab:red", markersize=8)
         right = t > 0.5 * (np.nanmin(T) + np.nanmax(T))
+        below = sp["kind"] == "cricondenbar"  # the top of the envelope: label it under the marker
         axes.annotate(f"{label}\n{t:.2f} K, {p:.2f} bar", (t, p), textcoords="offset points",
-                      xytext=(-10, 6) if right else (8, 6), ha="right" if right else "left", fontsize=8)
+                      xytext=(10, -30) if below else (-10, 6) if right else (8, 6),
+                      ha="left" if below else "right" if right else "left", fontsize=8)
     axes.set_xlabel("temperature T / K")
     axes.set_ylabel("pressure P / bar")
     feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
