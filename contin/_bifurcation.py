@@ -25,7 +25,7 @@ import numpy as np
 from ._corrector import Correction, correct
 from ._errors import InputError
 from ._extended import Counters, Extended
-from ._locate import Located, locate_zero
+from ._locate import IllinoisBracket, Located, locate_zero
 from ._names import suggest
 from ._tangent import Bordered, SingularMatrix, tangent
 
@@ -201,44 +201,25 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
     f_high = _scaled_determinant(jacobian_b, unit, log_scale)
     if not (f_low * f_high < 0.0):
         return None
-    low, high = 0.0, 1.0
-    side = 0
-    previous = -1.0
-    moved = math.inf
+    bracket = IllinoisBracket(f_low, f_high, length, options.location_tolerance)
     best: Located | None = None
     for _ in range(100):
-        trial = (low * f_high - high * f_low) / (f_high - f_low) if f_high != f_low else 0.5 * (low + high)
-        if not low < trial < high:
-            trial = 0.5 * (low + high)
+        trial = bracket.trial()
         correction, jacobian = _settle(extended, xa + trial * chord, unit, options)
         if correction is None:
             return best
         value = _scaled_determinant(jacobian, unit, log_scale)
         t = _tangent_or(jacobian, unit, ta)
-        width = (high - low) * length
         best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
-                       0.0 if value == 0.0 else width, value)
+                       0.0 if value == 0.0 else bracket.width, value)
         if value == 0.0:
             return best
-        if (value < 0.0) == (f_low < 0.0):
-            low, f_low = trial, value
-            if side == -1:
-                f_high *= 0.5
-            side = -1
-        else:
-            high, f_high = trial, value
-            if side == 1:
-                f_low *= 0.5
-            side = 1
-        width = (high - low) * length
-        moved = abs(trial - previous) * length
-        previous = trial
-        if width <= options.location_tolerance or moved <= options.location_tolerance:
+        if bracket.update(trial, value):
             break
     if best is None:
         return None
-    located_to = min((high - low) * length, moved)
-    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to, best.value)
+    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, bracket.located_to,
+                   best.value)
 
 
 # -- Hopf points -----------------------------------------------------------------------------------

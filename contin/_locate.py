@@ -11,7 +11,7 @@ from ._corrector import Correction, correct
 from ._extended import Extended
 from ._tangent import Bordered, SingularMatrix, tangent
 
-__all__ = ["Located", "locate_zero", "locate_level"]
+__all__ = ["IllinoisBracket", "Located", "locate_zero", "locate_level"]
 
 
 @dataclass(frozen=True)
@@ -59,6 +59,51 @@ def _tangent_at(correction: Correction, row: np.ndarray, reference: np.ndarray) 
         return reference.copy()
 
 
+class IllinoisBracket:
+    """The bracket of the Illinois method on the chord fraction [0, 1] (Dowell & Jarratt, BIT 11, 1971).
+
+    Regula falsi whose stale end has its value halved when the same end is kept twice, so the bracket
+    shrinks from both sides. ``trial()`` gives the next fraction to try, ``update(trial, value)``
+    takes the test value there and says whether the zero is located to ``tolerance`` (a distance
+    along a chord of ``length``); ``located_to`` is how well it is known.
+    """
+
+    __slots__ = ("low", "high", "f_low", "f_high", "side", "previous", "moved", "length", "tolerance")
+
+    def __init__(self, f_low: float, f_high: float, length: float, tolerance: float) -> None:
+        self.low, self.high, self.f_low, self.f_high = 0.0, 1.0, f_low, f_high
+        self.side, self.previous, self.moved = 0, -1.0, np.inf
+        self.length, self.tolerance = length, tolerance
+
+    def trial(self) -> float:
+        low, high, f_low, f_high = self.low, self.high, self.f_low, self.f_high
+        trial = (low * f_high - high * f_low) / (f_high - f_low) if f_high != f_low else 0.5 * (low + high)
+        return trial if low < trial < high else 0.5 * (low + high)
+
+    @property
+    def width(self) -> float:
+        return (self.high - self.low) * self.length
+
+    def update(self, trial: float, value: float) -> bool:
+        if (value < 0.0) == (self.f_low < 0.0):
+            self.low, self.f_low = trial, value
+            if self.side == -1:
+                self.f_high *= 0.5
+            self.side = -1
+        else:
+            self.high, self.f_high = trial, value
+            if self.side == 1:
+                self.f_low *= 0.5
+            self.side = 1
+        self.moved = abs(trial - self.previous) * self.length
+        self.previous = trial
+        return self.width <= self.tolerance or self.moved <= self.tolerance
+
+    @property
+    def located_to(self) -> float:
+        return min(self.width, self.moved)
+
+
 def locate_zero(
     extended: Extended,
     a: tuple[np.ndarray, np.ndarray, float],
@@ -90,48 +135,25 @@ def locate_zero(
     if length == 0.0:
         return None
     unit = chord / length
-    low, high = 0.0, 1.0
-    f_low, f_high = fa, fb
-    side = 0
-    previous = -1.0
-    moved = np.inf
+    bracket = IllinoisBracket(fa, fb, length, options.location_tolerance)
     best: Located | None = None
     for _ in range(100):
-        if f_high != f_low:
-            trial = (low * f_high - high * f_low) / (f_high - f_low)
-        else:
-            trial = 0.5 * (low + high)
-        if not low < trial < high:
-            trial = 0.5 * (low + high)
+        trial = bracket.trial()
         correction = _point_at(extended, xa, chord, trial, options)
         if not correction.converged:
             return best
         t = _tangent_at(correction, unit, ta)
         value = float(test(correction.x, t))
-        width = (high - low) * length
         best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
-                       0.0 if value == 0.0 else width, value)
+                       0.0 if value == 0.0 else bracket.width, value)
         if value == 0.0:  # an exact zero of the test function: located exactly
             return best
-        if (value < 0.0) == (f_low < 0.0):
-            low, f_low = trial, value
-            if side == -1:
-                f_high *= 0.5
-            side = -1
-        else:
-            high, f_high = trial, value
-            if side == 1:
-                f_low *= 0.5
-            side = 1
-        width = (high - low) * length
-        moved = abs(trial - previous) * length
-        previous = trial
-        if width <= options.location_tolerance or moved <= options.location_tolerance:
+        if bracket.update(trial, value):
             break
     if best is None:
         return None
-    located_to = min((high - low) * length, moved)
-    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to, best.value)
+    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, bracket.located_to,
+                   best.value)
 
 
 def locate_level(

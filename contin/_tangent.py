@@ -38,7 +38,7 @@ def from_factors(factors: tuple, row: np.ndarray) -> "_Factored":
     return _Factored(factors, row)
 
 
-class Bordered:
+class Bordered(_Factored):
     """LU factorisation of the bordered matrix [dG/dx; row], shape (n + 1, n + 1).
 
     The same factorisation serves a Newton correction (right-hand side [-G; -c]) and the tangent
@@ -46,7 +46,7 @@ class Bordered:
     Jacobian (Keller 1977).
     """
 
-    __slots__ = ("jacobian", "row", "_lu")
+    __slots__ = ("jacobian",)
 
     def __init__(self, jacobian: np.ndarray, row: np.ndarray) -> None:
         self.jacobian = jacobian
@@ -61,16 +61,7 @@ class Bordered:
         largest = pivots.max()
         if info != 0 or not np.isfinite(largest) or pivots.min() <= 1e-13 * max(1.0, largest):
             raise SingularMatrix("the bordered Jacobian is singular")
-        self._lu = (lu, piv)
-
-    def solve(self, rhs: np.ndarray) -> np.ndarray:
-        solution, info = dgetrs(self._lu[0], self._lu[1], rhs)
-        return solution
-
-    @property
-    def factors(self) -> tuple:
-        """The LAPACK LU factors ``(lu, piv)`` (e.g. for the sign of the determinant)."""
-        return self._lu
+        super().__init__((lu, piv), row)
 
 
 def tangent(bordered: Bordered, previous: np.ndarray) -> np.ndarray:
