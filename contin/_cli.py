@@ -283,8 +283,13 @@ def _run(namespace: argparse.Namespace) -> int:
         _write_outputs(Path(namespace.out), name, branch.to_csv(), json.dumps(document, indent=1) + "\n")
     if namespace.record is not None:
         command = getattr(namespace, "argv", None)
+        from dataclasses import asdict
+
+        from ._options import TraceOptions
+
+        effective = {**asdict(TraceOptions()), **{k: v for k, v in problem.options.items() if k != "at"}}
         record = run_record(branch, input={"kind": "problem_file", "name": path.name, "text": text},
-                            command=command, options={k: v for k, v in problem.options.items() if k != "at"})
+                            command=command, options=effective)
         write_record(namespace.record, record)
     if namespace.plot is not None:
         from ._plot import _pyplot, plot_branch, save_figure

@@ -110,3 +110,13 @@ def test_bad_initial_tangent_is_refused():
     problem = cubic_s_curve()
     with pytest.raises(contin.InputError, match="tangent must be 2 finite numbers, not all zero"):
         contin.trace(problem.system, problem.start, free="p", tangent=[0.0, 0.0])
+
+
+def test_contin_run_record_holds_the_effective_tolerances(tmp_path, capsys):
+    from contin._cli import main
+
+    record = tmp_path / "r.json"
+    assert main(["run", "--example", "stirred_tank", "--record", str(record)]) == 0
+    options = json.loads(record.read_text())["options"]
+    assert options["tolerance"] == 1e-10 and options["max_step"] == 0.2  # from the file
+    assert options["max_iterations"] == 8 and options["corrector"] == "arclength"  # engine defaults

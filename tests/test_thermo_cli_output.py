@@ -105,3 +105,12 @@ def test_ctrl_c_writes_what_was_traced(command, ctrl_c_at_point_5, tmp_path, cap
     assert 1 <= len(document["points"]) <= 7
     assert len(data_rows(table)) == len(document["points"]) + 1  # header + the rows traced so far
     assert "Caution" in table.read_text()
+
+
+def test_thermo_records_hold_tolerances(tmp_path, capsys):
+    record = tmp_path / "r.json"
+    code, _, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--record", str(record))
+    assert code == 0
+    saved = json.loads(record.read_text())
+    assert saved["options"] == {"tolerance": 1e-12, "max_step": 0.5}
+    assert {"setup_seconds", "trace_seconds"} <= set(saved["result"]["stats"])

@@ -33,6 +33,8 @@ __all__ = ["BinaryDiagram", "pxy", "txy"]
 _CLOSING = 0.01
 # The trace hands over to the critical-point solve at this ln(v_vapour / v_liquid).
 _NEAR_CLOSING = 0.1
+# Newton tolerance and step lengths (in x1) of the trace along the composition.
+_TOLERANCE, _STEP, _MAX_STEP = 1e-10, 0.02, 0.05
 
 
 @dataclass(frozen=True)
@@ -179,8 +181,8 @@ def _diagram(mixture: Mixture, kind: str, fixed: float, on_point=None) -> Binary
     events = [contin.Event("azeotrope", lambda u, p: float(u[0]), kind="azeotrope"),
               contin.Event("closing", lambda u, p: float(u[4] - u[3]) - _NEAR_CLOSING, direction=-1, terminal=True,
                            kind="closing")]
-    branch = contin.trace(system, u0, free="x1", parameters={"x1": 0.0}, direction=1, step=0.02, max_step=0.05,
-                          min_step=1e-10, tolerance=1e-10, events=events, max_points=600, corrector="local",
+    branch = contin.trace(system, u0, free="x1", parameters={"x1": 0.0}, direction=1, step=_STEP, max_step=_MAX_STEP,
+                          min_step=1e-10, tolerance=_TOLERANCE, events=events, max_points=600, corrector="local",
                           bounds={"x1": (0.0, 1.0)}, on_point=on_point)
     pts = branch.points
     keep = np.ones(len(pts), dtype=bool)

@@ -194,8 +194,14 @@ def _emit(result: CurveResult, args) -> int:
         from ._plot_pure import plot_pure
 
         plot_pure(result, args.plot)
+    import inspect
+
+    defaults = {name: parameter.default for name, parameter in
+                inspect.signature(saturation_curve if args.curve != "spinodal" else spinodal_curve).parameters.items()
+                if name in ("tolerance", "max_step")}
     write_run_record(args, document, {"command": args.curve, "fluid": component_data(result.component),
-                                      "eos": result.family.name})
+                                      "eos": result.family.name},
+                     options=defaults if args.curve != "critical" else {"tolerance": 1e-15})
     if args.json:
         print(json.dumps(document))
     else:

@@ -45,11 +45,13 @@ def component_data(component) -> dict:
             "source": getattr(component, "source", "")}
 
 
-def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping) -> None:
-    """Write ``--record`` if asked: the command line, the input actually used, versions and the result."""
+def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping,
+                     options: Mapping | None = None) -> None:
+    """Write ``--record`` if asked: the command line, the input actually used, the tolerances and step
+    options, versions and the result (status and timings included)."""
     path = getattr(args, "record", None)
     if path is None:
         return
     record = contin.document_record(document, input={"kind": "thermo", **input},
-                                    command=getattr(args, "argv", None))
+                                    command=getattr(args, "argv", None), options=dict(options or {}))
     contin.write_record(path, record)

@@ -225,8 +225,11 @@ def run_envelope(args) -> int:
         from ._plot_envelope import plot_envelope
 
         plot_envelope(envelope, args.plot)
+    from ._envelope import _MAX_STEP, _STEP, _TOLERANCE
+
     write_run_record(args, document, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure,
-                                      "quality": quality})
+                                      "quality": quality},
+                     options={"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
     if args.json:
         print(json.dumps(document))
     else:
@@ -236,7 +239,7 @@ def run_envelope(args) -> int:
 
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
-    from ._binary import pxy, txy
+    from ._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
     from ._cli_common import check_destinations, write_run_record
     from ._units import parse_pressure, parse_temperature
 
@@ -262,7 +265,8 @@ def run_binary(args) -> int:
         from ._plot_envelope import plot_binary
 
         plot_binary(diagram, args.plot)
-    write_run_record(args, document, {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed})
+    write_run_record(args, document, {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
+                     options={"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
     if args.json:
         print(json.dumps(document))
     else:
