@@ -15,6 +15,7 @@ from ._plot import plot_branch
 from ._problem import Problem, load_problem, run_problem
 from ._progress import Progress
 from ._record import document_record, read_record, restart, run_record, write_record
+from ._sensitivity import Sensitivities, sensitivities
 from ._status import Status
 from ._structure import Structure, StructureWarning, analyse_structure
 from ._study import run_study
@@ -33,6 +34,7 @@ __all__ = [
     "InputError",
     "Problem",
     "Progress",
+    "Sensitivities",
     "SpecialPoint",
     "Status",
     "Structure",
@@ -55,6 +57,7 @@ __all__ = [
     "run_problem",
     "run_record",
     "run_study",
+    "sensitivities",
     "sweep",
     "switch_branch",
     "trace",
