@@ -15,7 +15,7 @@ import warnings
 from contin import InputError
 
 from ._caution import CAUTION
-from ._cli_common import add_output_options, check_destinations, component_data, write_run_record
+from ._cli_common import add_output_options, check_destinations, component_data, with_progress, write_run_record
 from ._components import all_components, custom_component, load_components, lookup
 from ._eos import FAMILIES, family
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
@@ -221,20 +221,15 @@ def run_pure(args) -> int:
         return _emit(critical_point(fluid), args)
     start = _single(args.from_temperature, "temperature", "--from-temperature")
     temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
-    import contin
-
     tc = fluid.component.Tc
-    progress = contin.Progress((), quiet=args.quiet or args.json, label=f"{args.curve} of {fluid.component.name}",
-                               describe=lambda x: f"T = {x[-1] * tc:.6g} K")
-    try:
-        if args.curve == "spinodal":
-            result = spinodal_curve(fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
-        else:
-            pressures = _values(args.at_pressures, "pressure", "--at-pressures")
-            result = saturation_curve(fluid, from_temperature=start, at_temperatures=temperatures,
-                                      at_pressures=pressures, on_point=progress)
-    finally:
-        progress.close()
+    if args.curve == "spinodal":
+        trace = lambda progress: spinodal_curve(  # noqa: E731
+            fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
+    else:
+        pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+        trace = lambda progress: saturation_curve(  # noqa: E731
+            fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures, on_point=progress)
+    result = with_progress(args, f"{args.curve} of {fluid.component.name}", lambda x: f"T = {x[-1] * tc:.6g} K", trace)
     return _emit(result, args)
 
 

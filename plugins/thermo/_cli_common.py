@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import argparse
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from pathlib import Path
 
 import contin
@@ -11,7 +11,7 @@ from contin import InputError
 
 from ._units import UNIT_SYSTEMS, output_units
 
-__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data"]
+__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress"]
 
 
 def add_output_options(parser: argparse.ArgumentParser) -> None:
@@ -55,3 +55,13 @@ def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping
     record = contin.document_record(document, input={"kind": "thermo", **input},
                                     command=getattr(args, "argv", None), options=dict(options or {}))
     contin.write_record(path, record)
+
+
+def with_progress(args: argparse.Namespace, label: str, describe: Callable, run: Callable):
+    """Call ``run(progress)`` with a progress line (silent with --quiet or --json, or off a terminal)."""
+    progress = contin.Progress((), quiet=bool(getattr(args, "quiet", False) or getattr(args, "json", False)),
+                               label=label, describe=describe)
+    try:
+        return run(progress)
+    finally:
+        progress.close()

@@ -195,7 +195,7 @@ def _mixture_input(args, mixture, z=None) -> dict:
 
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
-    from ._cli_common import check_destinations, write_run_record
+    from ._cli_common import check_destinations, with_progress, write_run_record
     from ._envelope import trace_envelope
     from ._units import parse_pressure
 
@@ -209,15 +209,10 @@ def run_envelope(args) -> int:
             except ValueError:
                 raise InputError(f"--quality {q.strip()!r} is not a number") from None
     from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
-    import contin
-
     n = mixture.size
-    progress = contin.Progress((), quiet=args.quiet or args.json, label="envelope",
-                               describe=lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa")
-    try:
-        envelope = trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality, on_point=progress)
-    finally:
-        progress.close()
+    envelope = with_progress(
+        args, "envelope", lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa",
+        lambda progress: trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality, on_point=progress))
     document = envelope.to_dict()
     if args.csv:
         envelope.to_csv(args.csv, units=args.units)
@@ -240,24 +235,18 @@ def run_envelope(args) -> int:
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
-    from ._cli_common import check_destinations, write_run_record
+    from ._cli_common import check_destinations, with_progress, write_run_record
     from ._units import parse_pressure, parse_temperature
 
     check_destinations(args)
     mixture, _ = build_mixture(args, fractions=False)
-    import contin
-
-    progress = contin.Progress((), quiet=args.quiet or args.json, label=args.diagram,
-                               describe=lambda x: f"x1 = {x[-1]:.6g}")
-    try:
-        if args.diagram == "pxy":
-            fixed = parse_temperature(args.temperature, "--temperature")
-            diagram = pxy(mixture, fixed, on_point=progress)
-        else:
-            fixed = parse_pressure(args.pressure, "--pressure")
-            diagram = txy(mixture, fixed, on_point=progress)
-    finally:
-        progress.close()
+    if args.diagram == "pxy":
+        fixed = parse_temperature(args.temperature, "--temperature")
+    else:
+        fixed = parse_pressure(args.pressure, "--pressure")
+    diagram_of = pxy if args.diagram == "pxy" else txy
+    diagram = with_progress(args, args.diagram, lambda x: f"x1 = {x[-1]:.6g}",
+                            lambda progress: diagram_of(mixture, fixed, on_point=progress))
     document = diagram.to_dict()
     if args.csv:
         diagram.to_csv(args.csv, units=args.units)
