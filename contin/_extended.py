@@ -6,6 +6,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ._errors import InputError
 from ._system import System
 
 __all__ = ["CallbackFailure", "Counters", "Extended"]
@@ -60,6 +61,8 @@ class Extended:
         self.counters.residual_evaluations += 1
         try:
             return self.system.residual(u, p)
+        except InputError:
+            raise  # the system refused what its callable returned: bad input, not a crash
         except Exception as error:  # noqa: BLE001 - any user failure is reported, with its cause
             raise CallbackFailure(f"the residual raised {type(error).__name__}: {error}") from error
 
@@ -70,6 +73,8 @@ class Extended:
         self.counters.jacobian_evaluations += 1
         try:
             f, ju, jp = self.system.linearise(u, p, self.free)
+        except InputError:
+            raise
         except Exception as error:  # noqa: BLE001
             raise CallbackFailure(f"the Jacobian raised {type(error).__name__}: {error}") from error
         jacobian = np.empty((self.n, self.n + 1))

@@ -190,15 +190,25 @@ class CallableSystem(System):
         if self.jacobian_function is None:
             ju = self._difference_jacobian(u, p, f0)
         else:
-            ju = np.asarray(self.jacobian_function(u, p), dtype=float).reshape(f0.size, u.size)
+            ju = _shaped(self.jacobian_function(u, p), (len(self.unknowns), u.size), "jacobian")
         if self.parameter_jacobian_function is None:
             jf = self._difference_parameter_column(u, p, free, f0)
         else:
-            jf = np.asarray(self.parameter_jacobian_function(u, p), dtype=float).reshape(f0.size, p.size)[:, free]
+            jf = self.parameter_jacobian(u, p)[:, free]
         return f0, ju, jf
 
     def parameter_jacobian(self, u: np.ndarray, p: np.ndarray) -> np.ndarray:
         if self.parameter_jacobian_function is None:
             return super().parameter_jacobian(u, p)
-        f_size = len(self.unknowns)
-        return np.asarray(self.parameter_jacobian_function(u, p), dtype=float).reshape(f_size, p.size)
+        return _shaped(self.parameter_jacobian_function(u, p), (len(self.unknowns), p.size), "parameter_jacobian")
+
+
+def _shaped(value, shape: tuple[int, int], argument: str) -> np.ndarray:
+    """A user's matrix as floats: exactly ``shape``, or flat with that many entries (row by row)."""
+    array = np.asarray(value, dtype=float)
+    if array.shape == shape:
+        return array
+    if array.ndim <= 1 and array.size == shape[0] * shape[1]:
+        return array.reshape(shape)
+    raise InputError(f"{argument} returned an array of shape {array.shape}; it must have shape {shape} "
+                     f"(equations x {'unknowns' if argument == 'jacobian' else 'parameters'})")

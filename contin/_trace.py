@@ -368,12 +368,7 @@ class _Run:
         if size != n:
             raise InputError(f"the residual returned {size} values but the system has {n} unknown{plural}; "
                              "give one equation per unknown")
-        try:
-            return self.extended.linearise(x0)
-        except ValueError as error:
-            if isinstance(error.__cause__, ValueError) and "reshape" in str(error.__cause__):
-                raise InputError(f"the Jacobian does not have the shape ({n}, {n}): {error.__cause__}") from None
-            raise
+        return self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
 
     def _notify(self, index: int, x: np.ndarray) -> None:
         try:

@@ -315,3 +315,13 @@ def test_bad_events_are_refused():
 def test_options_and_keywords_together_are_refused():
     with pytest.raises(contin.InputError, match="not both"):
         contin.trace(cubic_s_curve().system, {"u": 1.3}, free="p", step=0.2, options=contin.TraceOptions())
+
+
+def test_jacobian_of_the_wrong_shape_is_refused():
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["u"], {"p": 0.0}, jacobian=lambda u, p: [[1.0, 2.0]])
+    with pytest.raises(contin.InputError, match=r"jacobian returned an array of shape \(1, 2\); it must have shape \(1, 1\)"):
+        contin.trace(system, {"u": 0.0}, free="p")
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["u"], {"p": 0.0},
+                                   parameter_jacobian=lambda u, p: [[1.0], [2.0]])
+    with pytest.raises(contin.InputError, match=r"parameter_jacobian returned an array of shape \(2, 1\)"):
+        contin.trace(system, {"u": 0.0}, free="p")
