@@ -15,7 +15,7 @@ import warnings
 from contin import InputError
 
 from ._caution import CAUTION
-from ._cli_common import add_output_options, check_destinations, component_data, with_progress, write_run_record
+from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
 from ._components import all_components, custom_component, load_components, lookup
 from ._eos import FAMILIES, family
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
@@ -187,26 +187,16 @@ def _summary(result: CurveResult, units: str = "si") -> str:
 
 
 def _emit(result: CurveResult, args) -> int:
-    document = result.to_dict()
-    if args.csv:
-        result.to_csv(args.csv, units=args.units)
-    if args.plot:
-        from ._plot_pure import plot_pure
-
-        plot_pure(result, args.plot)
     import inspect
+
+    from ._plot_pure import plot_pure
 
     defaults = {name: parameter.default for name, parameter in
                 inspect.signature(saturation_curve if args.curve != "spinodal" else spinodal_curve).parameters.items()
                 if name in ("tolerance", "max_step")}
-    write_run_record(args, document, {"command": args.curve, "fluid": component_data(result.component),
-                                      "eos": result.family.name},
-                     options=defaults if args.curve != "critical" else {"tolerance": 1e-15})
-    if args.json:
-        print(json.dumps(document))
-    else:
-        print(_summary(result, args.units))
-    return 0 if result.success else 1
+    return emit(args, result, _summary(result, args.units), plot_pure,
+                {"command": args.curve, "fluid": component_data(result.component), "eos": result.family.name},
+                defaults if args.curve != "critical" else {"tolerance": 1e-15})
 
 
 def run_pure(args) -> int:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import json
 from collections.abc import Callable, Mapping
 from pathlib import Path
 
@@ -11,7 +12,7 @@ from contin import InputError
 
 from ._units import UNIT_SYSTEMS, output_units
 
-__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress"]
+__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit"]
 
 
 def add_output_options(parser: argparse.ArgumentParser) -> None:
@@ -65,3 +66,17 @@ def with_progress(args: argparse.Namespace, label: str, describe: Callable, run:
         return run(progress)
     finally:
         progress.close()
+
+
+def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, record_input: Mapping,
+         options: Mapping) -> int:
+    """Every tracing command's outputs, in one order: CSV (in ``--units``), plot, run record, then
+    the JSON document or the summary on stdout. Returns the exit status (0 success, 1 not)."""
+    document = result.to_dict()
+    if getattr(args, "csv", None):
+        result.to_csv(args.csv, units=args.units)
+    if plot is not None and getattr(args, "plot", None):
+        plot(result, args.plot)
+    write_run_record(args, document, record_input, options)
+    print(json.dumps(document) if args.json else summary)
+    return 0 if result.success else 1

@@ -195,7 +195,7 @@ def _mixture_input(args, mixture, z=None) -> dict:
 
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
-    from ._cli_common import check_destinations, with_progress, write_run_record
+    from ._cli_common import check_destinations, emit, with_progress
     from ._envelope import trace_envelope
     from ._units import parse_pressure
 
@@ -213,29 +213,18 @@ def run_envelope(args) -> int:
     envelope = with_progress(
         args, "envelope", lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa",
         lambda progress: trace_envelope(mixture, z, from_pressure=from_pressure, quality=quality, on_point=progress))
-    document = envelope.to_dict()
-    if args.csv:
-        envelope.to_csv(args.csv, units=args.units)
-    if getattr(args, "plot", None):
-        from ._plot_envelope import plot_envelope
-
-        plot_envelope(envelope, args.plot)
     from ._envelope import _MAX_STEP, _STEP, _TOLERANCE
+    from ._plot_envelope import plot_envelope
 
-    write_run_record(args, document, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure,
-                                      "quality": quality},
-                     options={"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
-    if args.json:
-        print(json.dumps(document))
-    else:
-        print("\n".join(envelope.summary(args.units)))
-    return 0 if envelope.success else 1
+    return emit(args, envelope, "\n".join(envelope.summary(args.units)), plot_envelope,
+                {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
 
 
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
-    from ._cli_common import check_destinations, with_progress, write_run_record
+    from ._cli_common import check_destinations, emit, with_progress
     from ._units import parse_pressure, parse_temperature
 
     check_destinations(args)
@@ -247,20 +236,11 @@ def run_binary(args) -> int:
     diagram_of = pxy if args.diagram == "pxy" else txy
     diagram = with_progress(args, args.diagram, lambda x: f"x1 = {x[-1]:.6g}",
                             lambda progress: diagram_of(mixture, fixed, on_point=progress))
-    document = diagram.to_dict()
-    if args.csv:
-        diagram.to_csv(args.csv, units=args.units)
-    if getattr(args, "plot", None):
-        from ._plot_envelope import plot_binary
+    from ._plot_envelope import plot_binary
 
-        plot_binary(diagram, args.plot)
-    write_run_record(args, document, {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
-                     options={"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
-    if args.json:
-        print(json.dumps(document))
-    else:
-        print("\n".join(diagram.summary(args.units)))
-    return 0 if diagram.success else 1
+    return emit(args, diagram, "\n".join(diagram.summary(args.units)), plot_binary,
+                {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
 
 
 def run_critical(args) -> int:
@@ -268,10 +248,9 @@ def run_critical(args) -> int:
     import contin
 
     from ._caution import CAUTION
+    from ._cli_common import check_destinations, write_run_record
     from ._mixture_critical import critical_point
     from ._report import summary_lines, write_csv
-
-    from ._cli_common import check_destinations, write_run_record
 
     check_destinations(args)
     mixture, z = build_mixture(args)
