@@ -36,6 +36,7 @@ __all__ = [
     "classify_pair_zero",
     "determinant_sign",
     "hopf_sign",
+    "hopf_signature",
     "locate_branch_point",
     "locate_hopf",
     "switch_branch",
@@ -234,7 +235,18 @@ def hopf_sign(state_jacobian: np.ndarray) -> int:
     Returns:
         +1, -1, or 0 (a pair sums to zero exactly).
     """
+    return _pair_product_sign(np.linalg.eigvals(state_jacobian))
+
+
+def hopf_signature(state_jacobian: np.ndarray) -> tuple[int, int]:
+    """(:func:`hopf_sign`, the number of eigenvalues of dF/du with positive real part), from one
+    eigen-decomposition. The count changes by two at a Hopf point and by one at a fold or a branch
+    point, so comparing it between two points tells whether every crossing between them was found."""
     eigenvalues = np.linalg.eigvals(state_jacobian)
+    return _pair_product_sign(eigenvalues), int(np.count_nonzero(eigenvalues.real > 0.0))
+
+
+def _pair_product_sign(eigenvalues: np.ndarray) -> int:
     upper = eigenvalues.imag > 0.0
     real = eigenvalues.real[eigenvalues.imag == 0.0]
     pair_real = eigenvalues.real[upper]

@@ -29,6 +29,9 @@ class TraceOptions:
         max_turn: largest angle (radians) between successive tangents before a step is retried shorter.
         location_tolerance: special points are located until their position along the branch is known
             to this distance.
+        max_correction: largest distance of the corrected point from the predicted one, as a fraction
+            of the step length; a step whose corrector moved farther is retried shorter. Together with
+            ``max_turn`` it keeps a step from jumping over a tight turn or onto a nearby branch.
 
     Raises:
         InputError: an option is not finite, not positive where it must be, or inconsistent.
@@ -44,9 +47,10 @@ class TraceOptions:
     corrector: str = "arclength"
     max_turn: float = 0.5
     location_tolerance: float = 1e-10
+    max_correction: float = 0.5
 
     def __post_init__(self) -> None:
-        for name in ("step", "min_step", "max_step", "tolerance", "max_turn", "location_tolerance"):
+        for name in ("step", "min_step", "max_step", "tolerance", "max_turn", "location_tolerance", "max_correction"):
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
                 raise InputError(f"{name}={value!r} must be a finite number")

@@ -8,7 +8,7 @@ from collections.abc import Callable, Mapping, Sequence
 
 import numpy as np
 
-from ._bifurcation import bordered_sign, check_detect, determinant_sign, hopf_sign, locate_branch_point, locate_hopf
+from ._bifurcation import bordered_sign, check_detect, determinant_sign, hopf_signature, locate_branch_point, locate_hopf
 from ._branch import Branch, SpecialPoint
 from ._corrector import correct
 from ._errors import InputError, TraceError
@@ -263,7 +263,12 @@ class _Run:
         self.branch_points = False  # look for simple branch points
         self.hopf = False  # look for Hopf points (ODE systems only)
         self.index = np.arange(0)  # 0 .. n, for the parity of LU row swaps
-        self.signs = (0, 0)  # (sign of det [dF/dx; t], sign of the Hopf test) at the last accepted point
+        # (sign of det [dF/dx; t], sign of the Hopf test, eigenvalues of dF/du with positive real part
+        # or -1 when not counted) at the last accepted point
+        self.signs = (0, 0, -1)
+        self.event_slopes: list[float] = []
+        # Coordinates with a bound or requested values: a turn of one inside a step splits the step.
+        self.watched = frozenset([index for index, _, _ in bounds] + [index for index, _ in at])
         self.notes: list[str] = []
 
     # -- bookkeeping -----------------------------------------------------------------------------
@@ -303,6 +308,12 @@ class _Run:
             return float(event.function(u, p))
         except Exception as error:  # noqa: BLE001
             raise CallbackFailure(f"event {event.name!r} raised {type(error).__name__}: {error}") from error
+
+    def event_slope(self, event: Event, x: np.ndarray, t: np.ndarray) -> float:
+        """Derivative of the event function along the branch at x: a central difference along the
+        tangent (the branch leaves x along t, so this is d g(x(s))/ds to O(h^2))."""
+        h = 6e-6 * (1.0 + float(np.abs(x).max()))
+        return (self.event_value(event, x + h * t) - self.event_value(event, x - h * t)) / (2.0 * h)
 
     # -- the three phases ------------------------------------------------------------------------
     def start(self, x0: np.ndarray) -> None:
@@ -348,6 +359,7 @@ class _Run:
         self.index = np.arange(n + 1)
         self.signs = self.test_signs(bordered.factors, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
+        self.event_slopes = [self.event_slope(event, correction.x, t) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
         for coordinate, values in self.at:
             for value in values[values == correction.x[coordinate]]:
@@ -388,6 +400,8 @@ class _Run:
         h = options.step
         farthest = 0.0
         last_reason = ""
+        if self._leaving_through_a_bound(x, t):
+            return
         while self.status is None:
             if len(self.rows) >= options.max_points:
                 self.finish(Status.MAX_POINTS, f"{Status.MAX_POINTS.message} ({options.max_points}) at {self.describe(x)}")
@@ -418,7 +432,10 @@ class _Run:
                                  max_iterations=options.max_iterations, jacobian=self.jacobian,
                                  max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
             accepted = False
-            if correction.converged:
+            if correction.converged and _length(correction.x - predicted) > options.max_correction * step_now:
+                last_reason = (f"corrector moved too far from the predictor (more than max_correction = "
+                               f"{options.max_correction:g} of the step)")
+            elif correction.converged:
                 try:
                     factored = (from_factors(correction.factors, row) if correction.factors is not None
                                 else Bordered(correction.jacobian, row))
@@ -460,7 +477,7 @@ class _Run:
             if stop:
                 return
             farthest = max(farthest, _length(x_new - x_start))
-            if self._closed(x, x_new, t_new, x_start, t_start, h, farthest):
+            if self._closed(x, t, x_new, t_new, x_start, t_start, h, farthest):
                 return
             travelled = _length(x_new - x)
             curvature = (t_new - t) / travelled if travelled > 0.0 and self.rows[-2] is x else None
@@ -494,109 +511,146 @@ class _Run:
         return best
 
     # -- special points between two accepted points ---------------------------------------------
-    def test_signs(self, factors: tuple, along: float, t: np.ndarray, jacobian: np.ndarray) -> tuple[int, int]:
-        """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off);
-        ``factors`` are the LU factors of [jacobian; row] and ``along`` is row . t."""
+    def test_signs(self, factors: tuple, along: float, t: np.ndarray, jacobian: np.ndarray) -> tuple[int, int, int]:
+        """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off), and
+        the number of eigenvalues of dF/du with positive real part (-1 when Hopf points are not looked
+        for); ``factors`` are the LU factors of [jacobian; row] and ``along`` is row . t."""
         branch_sign = 0
         if self.branch_points:
             branch_sign = bordered_sign(factors, along, self.index)
             if branch_sign == 0:
                 branch_sign = determinant_sign(jacobian, t)
-        hopf = hopf_sign(jacobian[:, : self.extended.n]) if self.hopf else 0
-        return branch_sign, hopf
+        hopf, unstable = hopf_signature(jacobian[:, : self.extended.n]) if self.hopf else (0, -1)
+        return branch_sign, hopf, unstable
 
-    def _special_points(self, a, b, correction, signs=(0, 0), force: bool = False) -> bool | None:
+    def _special_points(self, a, b, correction, signs=(0, 0, 0), force: bool = False) -> bool | None:
         """Locate what lies between accepted points a and b, append them and b.
 
+        The step is examined inside, not only at its ends: every coordinate with a bound or requested
+        values, and every event function, may turn inside the step and so cross a level twice. Where
+        its derivative along the branch changes sign between a and b, the turning point is located
+        (on Newton-converged points) and the step is split there; each piece is monotone in it, so
+        each level it crosses is crossed once and is located on that piece. Everything found is
+        ordered along the branch by its projection on the chord (the tangent turns by less than
+        ``max_turn`` over a step, so that order is the order along the arc), and a stop (a bound, a
+        terminal event) keeps every point before it and none after it.
+
         Returns True if the trace stops, False if it goes on, and None — with nothing changed — if a
-        special point could not be located (the caller retries a shorter step). With ``force`` (the
-        step is already at min_step) such a point is reported at the nearer bracketing point instead,
-        with ``located_to`` the length of the step.
+        special point could not be located, or the count of unstable eigenvalues changed by more than
+        the crossings located (the caller retries a shorter step). With ``force`` (the step is already
+        at min_step) such a point is reported at the nearer bracketing point instead, with
+        ``located_to`` the length of the step.
         """
         (xa, ta), (xb, tb) = a, b
-        found: list[tuple[float, str, object, Located]] = []  # (fraction, kind, payload, located)
+        found: list[tuple[float, str, object, Located]] = []  # (fraction along the chord, kind, payload, located)
         options = self.options
         before = self.signs
-        length = _length(xb - xa)
+        chord = xb - xa
+        length = _length(chord)
+        length2 = max(length * length, 1e-300)
 
-        def unlocated(f_a: float, f_b: float, prefer_inside: bool = False) -> Located | None:
+        def fraction_of(x: np.ndarray) -> float:
+            return min(1.0, max(0.0, float((x - xa) @ chord) / length2))
+
+        def unlocated(ends, f_a: float, f_b: float, prefer_first: bool = False) -> Located | None:
             """None (retry a shorter step), or with force the nearer bracketing point."""
             if not force:
                 return None
-            use_a = prefer_inside or abs(f_a) < abs(f_b)
-            x, t = (xa, ta) if use_a else (xb, tb)
-            return Located(0.0 if use_a else 1.0, x.copy(), t.copy(), float(correction.residual_norm),
-                           int(correction.iterations), length, f_a if use_a else f_b)
+            (x0, t0), (x1, t1) = ends
+            use_first = prefer_first or abs(f_a) < abs(f_b)
+            x, t = (x0, t0) if use_first else (x1, t1)
+            return Located(fraction_of(x), x, t, float(correction.residual_norm),
+                           int(correction.iterations), length, f_a if use_first else f_b)
+
         if before[0] * signs[0] < 0:
             located = locate_branch_point(self.extended, a, b, options)
             if located is not None:
-                found.append((located.fraction, "branch_point", None, located))
+                found.append((fraction_of(located.x), "branch_point", None, located))
             else:
                 self.notes.append(f"the branch-point test changed sign between {self.describe(xa)} and "
                                   f"{self.describe(xb)} but the point could not be located")
+        hopf_crossings = 0
         if before[1] * signs[1] < 0:
             result = locate_hopf(self.extended, a, b, options)
             if result is not None:
                 located, facts = result
                 if facts["kind"] == "hopf":
-                    found.append((located.fraction, "hopf", facts, located))
+                    found.append((fraction_of(located.x), "hopf", facts, located))
+                    hopf_crossings += 1
                 else:
                     low, high = facts["eigenvalues"]
                     self.notes.append(f"neutral saddle (real eigenvalues {low:.6g} and {high:.6g}) at "
                                       f"{self.describe(located.x)}: not a Hopf point, not reported")
-        for coordinate in self.folds:
-            if crossed(ta[coordinate], tb[coordinate]):
-                located = locate_zero(self.extended, (xa, ta, ta[coordinate]), (xb, tb, tb[coordinate]),
-                                      lambda x, t, c=coordinate: t[c], options)
-                located = located or unlocated(ta[coordinate], tb[coordinate])
-                if located is None:
-                    return None
-                found.append((located.fraction, "fold", coordinate, located))
-        new_values = []
+        # Turning points: reported folds, and the turns of watched coordinates and event functions
+        # that split the step into monotone pieces.
+        watched = self.watched
+        splits: list[Located] = []
+        free_folds = 0
+        for coordinate in sorted(set(self.folds) | watched):
+            if not crossed(ta[coordinate], tb[coordinate]):
+                continue
+            located = locate_zero(self.extended, (xa, ta, ta[coordinate]), (xb, tb, tb[coordinate]),
+                                  lambda x, t, c=coordinate: t[c], options)
+            located = located or unlocated((a, b), ta[coordinate], tb[coordinate])
+            if located is None:
+                return None
+            if coordinate in self.folds:
+                found.append((fraction_of(located.x), "fold", coordinate, located))
+                free_folds += coordinate == self.extended.n
+            if coordinate in watched:
+                splits.append(located)
+        slopes_b = [self.event_slope(event, xb, tb) for event in self.events]
         for k, event in enumerate(self.events):
-            value_a, value_b = self.event_values[k], self.event_value(event, xb)
-            new_values.append(value_b)
-            if crossed(value_a, value_b, event.direction):
-                located = locate_zero(self.extended, (xa, ta, value_a), (xb, tb, value_b),
-                                      lambda x, t, e=event: self.event_value(e, x), options)
-                located = located or unlocated(value_a, value_b)
-                if located is None:
+            slope_a, slope_b = self.event_slopes[k], slopes_b[k]
+            if crossed(slope_a, slope_b):
+                located = locate_zero(self.extended, (xa, ta, slope_a), (xb, tb, slope_b),
+                                      lambda x, t, e=event: self.event_slope(e, x, t), options)
+                if located is not None:
+                    splits.append(located)
+        if self.hopf and signs[2] >= 0 and before[2] >= 0:
+            # Each Hopf point moves two eigenvalues across the imaginary axis, each fold or branch point
+            # one: a larger change of the count means crossings inside the step that cancel in the test
+            # functions' signs (e.g. two Hopf points). Subdivide until they agree.
+            located_crossings = 2 * hopf_crossings + free_folds + sum(kind == "branch_point" for _, kind, _, _ in found)
+            change = abs(signs[2] - before[2])
+            if change > located_crossings:
+                if not force:
                     return None
-                found.append((located.fraction, "event", event, located))
+                self.notes.append(f"the number of eigenvalues with positive real part changed from {before[2]} to "
+                                  f"{signs[2]} between {self.describe(xa)} and {self.describe(xb)}, more than the "
+                                  f"{located_crossings} crossing(s) located there")
+        splits.sort(key=lambda located: fraction_of(located.x))
+        ends = [(xa, ta)] + [(s.x, s.tangent) for s in splits] + [(xb, tb)]
+        values = [list(self.event_values)] + [[self.event_value(e, s.x) for e in self.events] for s in splits]
+        values.append([self.event_value(e, xb) for e in self.events])
         at_b = []
-        for coordinate, values in self.at:
-            a_value, b_value = xa[coordinate], xb[coordinate]
-            if b_value >= a_value:  # values in (a, b]; values are sorted
-                inside = values[np.searchsorted(values, a_value, "right"):np.searchsorted(values, b_value, "right")]
-            else:  # values in [b, a)
-                inside = values[np.searchsorted(values, b_value, "left"):np.searchsorted(values, a_value, "left")]
-            for value in inside:
-                if abs(xb[coordinate] - value) <= 1e-12 * (1.0 + abs(value)):
-                    at_b.append((coordinate, float(value)))  # the step landed on it
-                    continue
-                located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, float(value), options)
-                located = located or unlocated(xa[coordinate] - value, xb[coordinate] - value)
-                if located is None:
-                    return None
-                found.append((located.fraction, "at", (coordinate, float(value)), located))
-        for coordinate, low, high in self.bounds:
-            for level in (low, high):
-                if (xa[coordinate] - level) * (xb[coordinate] - level) < 0 or (
-                    xb[coordinate] == level and xa[coordinate] != level
-                ):
-                    located = locate_level(self.extended, (xa, ta), (xb, tb), coordinate, level, options)
-                    located = located or unlocated(xa[coordinate] - level, xb[coordinate] - level, True)
-                    if located is None:
-                        return None
-                    found.append((located.fraction, "bound", (coordinate, level), located))
+        for piece in range(len(ends) - 1):
+            first, last = ends[piece], ends[piece + 1]
+            pieces = self._levels_in_piece(first, last, values[piece], values[piece + 1], last is ends[-1], unlocated)
+            if pieces is None:
+                return None
+            landed, located_here = pieces
+            at_b += landed
+            found += [(fraction_of(item[2].x), item[0], item[1], item[2]) for item in located_here]
+        strays = [item for item in found if not self._on_arc(item[3].x, a, b)]
+        if strays:
+            # A location that converged onto another solution family (e.g. the equal-phases set near a
+            # critical point) is not on this step's arc: retry a shorter step, where it cannot.
+            if not force:
+                return None
+            for item in strays:
+                self.notes.append(f"a {item[1]} located at {self.describe(item[3].x)} lies off the branch "
+                                  "between the points around it (another solution family nearby?)")
         # Everything between a and b is located: from here on the branch changes.
         self.signs = signs
-        self.event_values = new_values
+        self.event_values = values[-1]
+        self.event_slopes = slopes_b
         if len(self.rows) == 1:
             # A start on a special point (e.g. a restart from a fold) is not a new special point.
             near = 1e-9 * (1.0 + float(np.linalg.norm(xa)))
-            found = [item for item in found if item[1] == "at" or float(np.linalg.norm(item[3].x - xa)) > near]
-        found.sort(key=lambda item: item[0])
+            found = [item for item in found if item[1] in ("at", "bound") or float(np.linalg.norm(item[3].x - xa)) > near]
+        kinds_order = {"bound": 0, "event": 1}
+        found.sort(key=lambda item: (item[0], kinds_order.get(item[1], 2)))
         for fraction, kind, payload, located in found:
             if kind == "at":
                 coordinate, value = payload
@@ -623,9 +677,7 @@ class _Run:
                     return True
             else:
                 coordinate, level = payload
-                name = self.columns[coordinate]
-                self.special.append(self.special_point("bound", f"{name} = {level:g}", index, located, {"coordinate": name}))
-                self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {level:g} at {self.describe(located.x)}")
+                self._bound_reached(coordinate, level, index, located)
                 return True
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
@@ -635,17 +687,125 @@ class _Run:
             self._notify(index, xb)
         return False
 
-    def _closed(self, xa, xb, tb, x_start, t_start, h, farthest) -> bool:
-        """Whether the step from xa to xb passed the start point again, heading the same way."""
+    def _levels_in_piece(self, first, last, values_first, values_last, is_end, unlocated):
+        """Requested values, events and bounds crossed on one monotone piece of a step.
+
+        Returns (requested values the piece's end landed on exactly, [(kind, payload, located)]), or
+        None if one could not be located (and the step is not forced).
+        """
+        (x0, t0), (x1, t1) = first, last
+        options = self.options
+        found = []
+        landed = []
+        for k, event in enumerate(self.events):
+            value_a, value_b = values_first[k], values_last[k]
+            if crossed(value_a, value_b, event.direction):
+                located = locate_zero(self.extended, (x0, t0, value_a), (x1, t1, value_b),
+                                      lambda x, t, e=event: self.event_value(e, x), options)
+                located = located or unlocated((first, last), value_a, value_b)
+                if located is None:
+                    return None
+                found.append(("event", event, located))
+        for coordinate, values in self.at:
+            a_value, b_value = x0[coordinate], x1[coordinate]
+            if b_value >= a_value:  # values in (a, b]; values are sorted
+                inside = values[np.searchsorted(values, a_value, "right"):np.searchsorted(values, b_value, "right")]
+            else:  # values in [b, a)
+                inside = values[np.searchsorted(values, b_value, "left"):np.searchsorted(values, a_value, "left")]
+            for value in inside:
+                if is_end and abs(x1[coordinate] - value) <= 1e-12 * (1.0 + abs(value)):
+                    landed.append((coordinate, float(value)))  # the step landed on it
+                    continue
+                located = locate_level(self.extended, (x0, t0), (x1, t1), coordinate, float(value), options)
+                located = located or unlocated((first, last), x0[coordinate] - value, x1[coordinate] - value)
+                if located is None:
+                    return None
+                found.append(("at", (coordinate, float(value)), located))
+        for coordinate, low, high in self.bounds:
+            for level, outside in ((low, -1.0), (high, 1.0)):
+                start_side = (x0[coordinate] - level) * outside  # > 0: outside, 0: on the bound
+                end_side = (x1[coordinate] - level) * outside
+                if start_side > 0.0 or not (end_side > 0.0 or (end_side == 0.0 and start_side < 0.0)):
+                    continue
+                if start_side == 0.0:
+                    # On the bound already and leaving: the crossing is the piece's first point itself.
+                    located = Located(0.0, x0, t0, 0.0, 0, 0.0, 0.0)
+                    located = self._on_row(x0, t0) or located
+                else:
+                    located = locate_level(self.extended, (x0, t0), (x1, t1), coordinate, level, options)
+                    located = located or unlocated((first, last), x0[coordinate] - level, x1[coordinate] - level, True)
+                    if located is None:
+                        return None
+                found.append(("bound", (coordinate, level), located))
+        return landed, found
+
+    def _on_arc(self, x: np.ndarray, a, b) -> bool:
+        """Whether a point located inside the step from a to b lies on that step's arc.
+
+        The arc leaves a along ta and reaches b along tb; if its tangent stays within an angle phi of
+        the chord (phi: the larger of the end tangents' angles to the chord, which the turn limit keeps
+        small), it stays within L sin(phi) / 2 of the chord of length L. Twice that, plus the reach of
+        the Newton tolerance, is allowed.
+        """
+        (xa, ta), (xb, tb) = a, b
+        chord = xb - xa
+        length = _length(chord)
+        if length == 0.0:
+            return True
+        unit = chord / length
+        along = float((x - xa) @ unit)
+        phi = max(math.acos(min(1.0, abs(float(ta @ unit)))), math.acos(min(1.0, abs(float(tb @ unit)))))
+        reach = 1e3 * self.options.tolerance * (1.0 + float(np.abs(x).max())) + 1e-9 * length
+        if not -reach - 0.05 * length <= along <= 1.05 * length + reach:
+            return False
+        gap = _length(x - xa - along * unit)
+        return gap <= length * math.sin(min(phi, 0.5 * math.pi)) + 0.01 * length + reach
+
+    def _on_row(self, x: np.ndarray, t: np.ndarray) -> Located | None:
+        """The last accepted point as a Located, if ``x`` is that point (so it is not appended twice)."""
+        if self.rows and x is self.rows[-1]:
+            return Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0, 0.0)
+        return None
+
+    def _bound_reached(self, coordinate: int, level: float, index: int, located: Located) -> None:
+        name = self.columns[coordinate]
+        self.special.append(self.special_point("bound", f"{name} = {level:g}", index, located, {"coordinate": name}))
+        self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {level:g} at {self.describe(located.x)}")
+
+    def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
+        """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
+        for coordinate, low, high in self.bounds:
+            for level, outside in ((low, -1.0), (high, 1.0)):
+                if x[coordinate] == level and t[coordinate] * outside > 0.0:
+                    located = Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0, 0.0)
+                    self._bound_reached(coordinate, level, len(self.rows) - 1, located)
+                    return True
+        return False
+
+    def _closed(self, xa, ta, xb, tb, x_start, t_start, h, farthest) -> bool:
+        """Whether the step from xa to xb passed the start point again, heading the same way.
+
+        The arc of a step lies within its sagitta of the chord: for a step of length L whose tangent
+        turns by an angle theta, at most about L theta / 8 (a circular arc). The start counts as passed
+        when its projection falls on the chord, it lies within twice that distance (plus the Newton
+        tolerance's reach) of the chord, and the branch heads the same way there. The test scales with
+        the step's own geometry, not with the problem's units, so a tight first turn is seen on the
+        first return and a wiggling curve that comes near its start without passing it is not taken
+        for a loop.
+        """
         chord = xb - xa
         length2 = float(chord @ chord)
-        if length2 == 0.0 or farthest < 4.0 * h or float(tb @ t_start) < 0.9:
+        if length2 == 0.0 or farthest < 2.0 * math.sqrt(length2) or float(tb @ t_start) < 0.5 \
+                or float(ta @ t_start) < 0.5:
             return False
         along = float((x_start - xa) @ chord) / length2
         if not 0.0 <= along <= 1.0:
             return False
         gap = float(np.linalg.norm(xa + along * chord - x_start))
-        if gap > max(1e3 * self.options.tolerance, 0.05 * math.sqrt(length2)):
+        length = math.sqrt(length2)
+        turn = math.acos(min(1.0, max(-1.0, float(ta @ tb))))
+        reach = 1e3 * self.options.tolerance * (1.0 + float(np.abs(x_start).max()))
+        if gap > 0.25 * length * turn + 1e-6 * length + reach:
             return False
         # End the loop exactly on the start point, which is a converged solution already.
         self.rows[-1] = x_start.copy()
