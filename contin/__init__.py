@@ -6,6 +6,7 @@ The public face of the engine; everything not named here is private and free to 
 from ._bifurcation import switch_branch
 from ._branch import Branch, SpecialPoint
 from ._cache import CompileCache, default_cache
+from ._crossing import Crossing, Landing
 from ._errors import ContinError, InputError, TraceError
 from ._events import Event
 from ._natural import sweep
@@ -30,8 +31,10 @@ __all__ = [
     "CallableSystem",
     "CompileCache",
     "ContinError",
+    "Crossing",
     "Event",
     "InputError",
+    "Landing",
     "Problem",
     "Progress",
     "Sensitivities",

@@ -11,6 +11,7 @@ import numpy as np
 from ._bifurcation import bordered_sign, check_detect, determinant_sign, hopf_signature, locate_branch_point, locate_hopf
 from ._branch import Branch, SpecialPoint
 from ._corrector import correct
+from ._crossing import Crossing, Passage
 from ._errors import InputError, TraceError
 from ._events import Event, crossed
 from ._extended import CallbackFailure, Counters, Extended
@@ -23,6 +24,9 @@ from ._system import System
 from ._tangent import Bordered, SingularMatrix, from_factors, tangent
 
 __all__ = ["trace", "start_vector"]
+
+# _special_points' answer when the trace goes on from its last row rather than from the step's end.
+RESUME = "resume"
 
 
 def _length(v: np.ndarray) -> float:
@@ -117,6 +121,7 @@ def trace(
     folds: Sequence[str] = (),
     detect: Sequence[str] | None = None,
     corrector: str = "arclength",
+    crossing: Crossing | None = None,
     tangent: Sequence[float] | None = None,
     options: TraceOptions | None = None,
     on_point: Callable[[int, np.ndarray, Sequence[SpecialPoint]], None] | None = None,
@@ -156,6 +161,9 @@ def trace(
             Hopf points too for ODE systems. A neutral saddle (real eigenvalues +-a, where the Hopf
             test function also vanishes) is not reported as a Hopf point; a line in
             ``Branch.stats["notes"]`` says where it was.
+        crossing: a :class:`Crossing`: where a second solution family meets the branch (e.g. the
+            equal-phases set at a critical point), passed along one coordinate on the same branch and
+            reported as a special point of the crossing's kind; see :mod:`contin._crossing`.
         tangent: optional initial direction in coordinates (unknowns then free parameter), e.g. to
             restart from a saved point or a fold; the start is then corrected on the bordered system, so
             dF/du may be singular there. ``direction`` = -1 reverses it.
@@ -213,6 +221,11 @@ def trace(
                              f"{', '.join(columns)})")
         initial = options.direction * initial / np.linalg.norm(initial)
     run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
+    if crossing is not None:
+        if not isinstance(crossing, Crossing):
+            raise InputError(f"crossing must be a contin.Crossing, got {type(crossing).__name__}")
+        candidates = [_coordinate(name, columns, "crossing") for name in crossing.coordinates]
+        run.passage = Passage(crossing, candidates)
     run.branch_points = "branch_point" in kinds
     run.hopf = "hopf" in kinds
     run.initial_tangent = initial
@@ -269,6 +282,7 @@ class _Run:
         self.event_slopes: list[float] = []
         # Coordinates with a bound or requested values: a turn of one inside a step splits the step.
         self.watched = frozenset([index for index, _, _ in bounds] + [index for index, _ in at])
+        self.passage: Passage | None = None  # the passage of a singular crossing, if one is given
         self.notes: list[str] = []
 
     # -- bookkeeping -----------------------------------------------------------------------------
@@ -402,20 +416,32 @@ class _Run:
         last_reason = ""
         if self._leaving_through_a_bound(x, t):
             return
+        if self.passage is not None and self.passage.distance(x) <= self.passage.crossing.near:
+            self.passage.begin(x)  # the start is near the crossing already
         while self.status is None:
             if len(self.rows) >= options.max_points:
                 self.finish(Status.MAX_POINTS, f"{Status.MAX_POINTS.message} ({options.max_points}) at {self.describe(x)}")
                 return
-            aim = self._next_requested_value(x, t, h)
+            passage = self.passage if self.passage is not None and self.passage.active else None
+            jump = passage is not None and passage.jumping(x)
+            aim = None if passage is not None else self._next_requested_value(x, t, h)
             step_now = h if aim is None else aim[0]
+            if passage is not None:
+                step_now, row, target = passage.plan(x, t)
             predicted = x + step_now * t
-            if curvature is not None:
+            if passage is not None:
+                extrapolated = passage.predict(target)
+                if extrapolated is not None:
+                    predicted, step_now = extrapolated, max(_length(extrapolated - x), options.min_step)
+            if curvature is not None and passage is None:
                 # Second-order predictor x + h t + h^2/2 x'': its error is O(h^3), not O(h^2), so the
                 # corrector usually needs one Newton iteration fewer for the same step.
                 bend = 0.5 * step_now * step_now * curvature
                 if _length(bend) <= 0.25 * step_now:
                     predicted = predicted + bend
-            if aim is not None:
+            if passage is not None:
+                pass  # the passage fixes its coordinate (row and target planned above)
+            elif aim is not None:
                 # Land exactly on a requested value: fix that coordinate in the corrector, so the
                 # point costs one ordinary step and needs no separate location.
                 row = np.zeros(n + 1)
@@ -428,11 +454,20 @@ class _Run:
                 target = float(predicted[j])
             else:
                 row, target = t, float(t @ predicted)
-            correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
-                                 max_iterations=options.max_iterations, jacobian=self.jacobian,
-                                 max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
+            if passage is not None:
+                # Near the singular point Newton is ill-conditioned: the exact Jacobian, more
+                # iterations, no divergence guard (the fixed coordinate keeps it off the second family).
+                # The tangent comes from the Jacobian at the corrected point itself: there the near-null
+                # space turns quickly with the position, so one a Newton step away will not do.
+                correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
+                                     max_iterations=4 * options.max_iterations, max_distance=2.0 * _length(predicted - x),
+                                     guard_divergence=False, exact_jacobian=True)
+            else:
+                correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
+                                     max_iterations=options.max_iterations, jacobian=self.jacobian,
+                                     max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
             accepted = False
-            if correction.converged and _length(correction.x - predicted) > options.max_correction * step_now:
+            if correction.converged and not jump and _length(correction.x - predicted) > options.max_correction * step_now:
                 last_reason = (f"corrector moved too far from the predictor (more than max_correction = "
                                f"{options.max_correction:g} of the step)")
             elif correction.converged:
@@ -442,7 +477,7 @@ class _Run:
                     t_new = tangent(factored, t)
                     cosine = float(t_new @ t)
                     turn = math.acos(min(1.0, max(-1.0, cosine)))
-                    if self.controller.accepts(turn):
+                    if passage is not None or self.controller.accepts(turn):
                         accepted = True
                     else:
                         last_reason = f"large turn (the tangent turned by {turn:.3g} rad, more than max_turn)"
@@ -450,6 +485,16 @@ class _Run:
                     last_reason = "singular bordered Jacobian (at the corrected point)"
             else:
                 last_reason = correction.reason
+            if not accepted and jump and passage.shrink():
+                self.extended.counters.reject(f"jump across the {passage.crossing.name} failed")
+                continue  # approach closer and jump from there
+            if not accepted and passage is not None and not jump:
+                self.extended.counters.reject(last_reason.split(" (")[0])
+                if passage.failed():
+                    continue  # a shorter passage step
+                self.finish(Status.STEP_TOO_SMALL, f"{Status.STEP_TOO_SMALL.message}: the passage of the "
+                            f"{passage.crossing.name} failed after the point {self.describe(x)}: {last_reason}")
+                return
             if not accepted:
                 self.extended.counters.reject(last_reason.split(" (")[0])
                 shorter = self.controller.after_failure(h)
@@ -466,7 +511,12 @@ class _Run:
             signs = self.test_signs(factored.factors, cosine if row is t else float(row @ t_new), t_new,
                                     correction.jacobian)
             at_min_step = step_now <= options.min_step * (1.0 + 1e-12)
-            stop = self._special_points((x, t), (x_new, t_new), correction, signs, force=at_min_step)
+            if jump:
+                if any(crossed(t[c], t_new[c]) for c in self.folds) and passage.shrink():
+                    continue  # a fold straddles the jump: approach closer, so it falls on one side
+                stop = self._across((x, t), (x_new, t_new), correction, signs)
+            else:
+                stop = self._special_points((x, t), (x_new, t_new), correction, signs, force=at_min_step)
             if stop is None:
                 # A special point in this step could not be located: retry the step shorter.
                 self.extended.counters.reject("special point not located")
@@ -474,8 +524,15 @@ class _Run:
                 continue
             self.extended.counters.accepted_steps += 1
             self.jacobian = correction.jacobian
+            if stop is RESUME:
+                x, t = self.rows[-1], self.tangents[-1]
+                curvature = None
+                continue
             if stop:
                 return
+            if passage is not None:
+                passage.advance(x_new)
+                passage.succeeded()
             farthest = max(farthest, _length(x_new - x_start))
             if self._closed(x, t, x_new, t_new, x_start, t_start, h, farthest):
                 return
@@ -562,7 +619,10 @@ class _Run:
             return Located(fraction_of(x), x, t, float(correction.residual_norm),
                            int(correction.iterations), length, f_a if use_first else f_b)
 
-        if before[0] * signs[0] < 0:
+        near_crossing = self.passage is not None and self.passage.active
+        if before[0] * signs[0] < 0 and not near_crossing:
+            # (Beside a singular crossing the bordered determinant belongs to the crossing's
+            # singular structure, not to a branch point of this branch.)
             located = locate_branch_point(self.extended, a, b, options)
             if located is not None:
                 found.append((fraction_of(located.x), "branch_point", None, located))
@@ -661,6 +721,12 @@ class _Run:
                 index = len(self.rows) - 1  # reported on the point before the step (not located closer)
             else:
                 index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
+            if kind == "passage":
+                # From here on the steps fix the passage coordinate; the rest of this step is dropped.
+                self.passage.begin(located.x, payload)
+                if self.on_point is not None:
+                    self._notify(index, located.x)
+                return RESUME
             if kind == "fold":
                 name = self.columns[payload]
                 self.special.append(self.special_point("fold", f"fold in {name}", index, located, {"coordinate": name}))
@@ -683,6 +749,84 @@ class _Run:
         for coordinate, value in at_b:
             located = Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0)
             self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+        if self.on_point is not None:
+            self._notify(index, xb)
+        return False
+
+    def _across(self, a, b, correction, signs) -> bool:
+        """The jump of a passage across the singular point, from a (c = +gap) to b (c = -gap).
+
+        Inserts the singular point as a row between a and b (from the crossing's ``land``, else the
+        midpoint of a and b as an estimate), reports it, then b. Whatever else changed sign across
+        the jump (a fold when the gap could not be halved further, an event, a bound, a requested
+        value) is reported at the singular point with ``located_to`` the jump's length, and a note.
+        Returns True if the trace stops there.
+        """
+        (xa, ta), (xb, tb) = a, b
+        passage = self.passage
+        crossing = passage.crossing
+        chord = xb - xa
+        length = _length(chord)
+        key_name = self.columns[passage.key]
+        landing = None
+        if crossing.land is not None:
+            try:
+                landing = crossing.land(xa.copy(), xb.copy())
+            except Exception as error:  # noqa: BLE001 - a failed landing is an estimate, not a crash
+                self.notes.append(f"the {crossing.name} could not be solved ({type(error).__name__}: {error}); "
+                                  "its position is estimated")
+        info = {"coordinate": key_name, "gap": passage.gap}
+        if landing is not None:
+            x_c = np.asarray(landing.x, dtype=float).reshape(-1)
+            if x_c.shape != xa.shape or not np.all(np.isfinite(x_c)) or not self._on_arc(x_c, a, b):
+                self.notes.append(f"the {crossing.name} solved at {self.describe(x_c)} does not lie between the "
+                                  "points around it; its position is estimated")
+                landing = None
+        if landing is not None:
+            located_to = float(landing.located_to)
+            info.update(landing.info)
+        else:
+            x_c = 0.5 * (xa + xb)
+            x_c[passage.key] = 0.0
+            located_to = length
+            info["estimate"] = (f"midpoint of the two points at {key_name} = +-{passage.gap:g} on either side; "
+                                "give the crossing a land function to solve the point itself")
+        residual = self.extended.residual(x_c)
+        residual_norm = float(abs(residual).max()) if residual.size else 0.0
+        unit = chord / length if length > 0.0 else ta
+        info["tangent"] = "the chord between the points around it (the Jacobian is singular there)"
+        located = Located(0.5, x_c, unit, residual_norm, 0, located_to, 0.0)
+        index = self.append(x_c, unit.copy(), 0, residual_norm)
+        self.special.append(self.special_point(crossing.kind, crossing.name, index, located, info))
+        if self.on_point is not None:
+            self._notify(index, x_c)
+        across = Located(0.5, x_c, unit, residual_norm, 0, length, 0.0)
+        stop = False
+        for coordinate in self.folds:
+            if crossed(ta[coordinate], tb[coordinate]):
+                name = self.columns[coordinate]
+                self.special.append(self.special_point("fold", f"fold in {name}", index, across, {"coordinate": name}))
+                self.notes.append(f"the fold in {name} lies within {passage.gap:g} in {key_name} of the "
+                                  f"{crossing.name}: reported there, located to {length:.3g}")
+        values_b = [self.event_value(event, xb) for event in self.events]
+        for k, event in enumerate(self.events):
+            if crossed(self.event_values[k], values_b[k], event.direction):
+                self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": event.terminal}))
+                if event.terminal and not stop:
+                    self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at "
+                                                       f"{self.describe(x_c)}")
+                    stop = True
+        for coordinate, low, high in self.bounds:
+            for level in (low, high):
+                if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0 and not stop:
+                    self._bound_reached(coordinate, level, index, across)
+                    stop = True
+        self.signs = signs
+        self.event_values = values_b
+        self.event_slopes = [self.event_slope(event, xb, tb) for event in self.events]
+        if stop:
+            return True
+        index = self.append(xb, tb, correction.iterations, correction.residual_norm)
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -721,6 +865,20 @@ class _Run:
                 if located is None:
                     return None
                 found.append(("at", (coordinate, float(value)), located))
+        passage = self.passage
+        if passage is not None and not passage.active and not passage.done:
+            # The passage of the singular crossing begins where the last candidate coordinate enters
+            # [-near, near]: located exactly, like a bound, so no step can jump it.
+            entries = []
+            for key, level in passage.entries(x0, x1):
+                located = locate_level(self.extended, (x0, t0), (x1, t1), key, level, options)
+                located = located or unlocated((first, last), x0[key] - level, x1[key] - level, True)
+                if located is None:
+                    return None
+                entries.append((float((located.x - x0) @ (x1 - x0)), key, located))
+            if entries:
+                _, key, located = max(entries, key=lambda item: item[0])
+                found.append(("passage", key, located))
         for coordinate, low, high in self.bounds:
             for level, outside in ((low, -1.0), (high, 1.0)):
                 start_side = (x0[coordinate] - level) * outside  # > 0: outside, 0: on the bound

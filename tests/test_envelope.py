@@ -68,10 +68,14 @@ def test_critical_point_agrees_with_heidemann_khalil(gas):
     assert sp["P"] == pytest.approx(hk.P, rel=1e-6)
 
 
-def test_no_point_on_trivial_solution_and_residuals_small(gas):
+def test_no_point_on_trivial_solution_but_the_critical_point_and_residuals_small(gas):
     _, envelope = gas
     K = np.array([row[6:] for row in envelope.rows])
-    assert np.min(np.max(np.abs(np.log(K)), axis=1)) > 1e-3
+    distance = np.max(np.abs(np.log(K)), axis=1)
+    critical = envelope.special("critical")["index"]
+    assert distance[critical] == 0.0  # the critical point is a row: K = 1, both phases at v_c
+    assert envelope.rows[critical][3] == pytest.approx(envelope.rows[critical][4], rel=1e-12)
+    assert np.min(np.delete(distance, critical)) > 1e-3
     assert np.max(envelope.residual_norms) <= 1e-9
 
 

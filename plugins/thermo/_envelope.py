@@ -10,15 +10,13 @@ volumes; the free parameter is ln P. The equations are
 
 with F_i = dF/dn_i of the residual Helmholtz energy. Carrying the volumes as unknowns removes all
 root selection, so the branch passes smoothly from the dew side (feed vapour, incipient liquid)
-through the critical point to the bubble side (feed liquid). The engine traces the dew side with
-Rheinboldt's local parametrisation until the ln K of an outer component falls to _NEAR_CRITICAL in
-size (a bound, landed on exactly). Near the critical point the equations are intrinsically
-ill-conditioned, so the passage is a controlled step: Newton solves at fixed ln K_key on levels
-between 0.1 and 0.02 in size on both sides (never on K = 1); the branch is analytic in ln K_key, so
-a least-squares polynomial through those points gives the critical point at ln K_key = 0, and the
-folds of T and P inside the step. The engine then carries on from the far side to the bubble point.
-Should one long engine step jump the whole region, the crossing (the phase volumes change order
-only at the critical point) is found afterwards and the controlled step there only pins it down.
+through the critical point to the bubble side (feed liquid). The whole envelope is one engine
+trace (Rheinboldt's local parametrisation). At the critical point the branch meets the trivial
+solution K = 1 (equal phases), where the equations are intrinsically ill-conditioned; the engine
+passes it as a singular crossing (:class:`contin.Crossing`): from |ln K_key| = 0.1 of an outer
+component on, its steps fix ln K_key (so Newton cannot land on K = 1), jump from +0.02 to -0.02, and
+insert the critical point between as solved by the Heidemann-Khalil criterion. Folds of T and P on
+the passage are located by the engine like any other, on Newton-converged points.
 
 A constant vapour fraction beta generalises the same system (x = z / (1 + beta (K - 1)),
 y = K x); beta = 0 is the envelope and 0 < beta < 1 gives the quality lines inside it.
@@ -52,13 +50,13 @@ _TOLERANCE = 1e-10
 # 0.5/0.8 gives 2.7 at about the same wall time).
 _STEP = 0.5
 _MAX_STEP = 0.8
-# |ln K_key| at which the trace hands over to the controlled step across the critical point, and the
-# levels of ln K_key of that step (see _bridge).
+# |ln K_key| at which the engine's passage of the critical point begins (and ends on the far side),
+# the closest |ln K_key| of a passage point before the jump across K = 1, and how far that gap may be
+# halved when a fold straddles the jump (see contin.Crossing). Newton solves at fixed ln K_key stay
+# well conditioned down to about 0.005 in size (the smallest singular value falls like (ln K)^2).
 _NEAR_CRITICAL = 0.1
-_BRIDGE = (0.02, 0.04, 0.06, 0.08, 0.1)
-# Newton tolerance of the bridge solves, and the closest two bridge levels may come when halving.
-_BRIDGE_TOLERANCE = 1e-12
-_BRIDGE_SMALLEST = 1e-4
+_GAP = 0.02
+_SMALLEST_GAP = 0.005
 # A point whose ln K are all below this in size sits on the trivial solution K = 1.
 _TRIVIAL = 1e-7
 
@@ -447,144 +445,81 @@ def _key_component(x: np.ndarray, n: int) -> int:
     return int(np.argmax(np.abs(x[:n])))
 
 
-def _side_change(system: EnvelopeSystem, points: np.ndarray) -> int | None:
-    """Index of the last point before the feed's molar volume crosses the incipient phase's, or None.
+def _critical_landing(mixture: Mixture, z: np.ndarray):
+    """The engine's ``land`` for the envelope's crossing: the critical point by Heidemann-Khalil.
 
-    The two molar volumes are equal only at the critical point, so a sign change between two
-    accepted points means the step between them passed it.
+    From the two branch points that bracket the critical point (ln K_key = +-gap) the midpoint's T and
+    feed volume start a Newton solve of the Heidemann-Khalil conditions (AIChE J. 26 (1980) 769); where
+    that does not converge, the full search of :func:`critical_points` is used and the point nearest
+    the bracket taken. The row is the critical state itself: K = 1, both phases at the critical volume.
     """
-    n = system.n
-    incipient = points[:, n + 2] - np.log(np.exp(points[:, :n]) @ system.z)
-    sign = np.sign(points[:, n + 1] - incipient)
-    changes = np.flatnonzero(sign[1:] != sign[:-1])
-    return int(changes[0]) if changes.size else None
+    from ._mixture_critical import critical_points, polish_critical
 
+    n = mixture.size
 
-def _tangent(system: EnvelopeSystem, x: np.ndarray) -> np.ndarray:
-    """Unit tangent of the branch at x: the null vector of [dF/du, dF/dlnP]."""
-    r, J, dp = system.evaluate(x[:-1], x[-1])
-    return np.linalg.svd(np.column_stack([J, dp]))[2][-1]
-
-
-def _bridge_folds(system: EnvelopeSystem, points: np.ndarray, key: int) -> list[tuple[int, int, np.ndarray]]:
-    """Turning points of ln T and ln P between consecutive bridge points, on ln K_key.
-
-    Along the bridge the branch is parametrised by c = ln K_key; a fold of coordinate j is a zero of
-    dx_j/dc. The least-squares polynomial through the bridge points (as for the critical point) gives
-    the candidates; each is refined by the secant method on the exact slope t_j / t_key from the
-    tangent of a Newton-converged point, until c changes by less than 1e-10 (the values at a fold
-    are stationary, so T and P there are then known to round-off).
-
-    Returns:
-        list of (coordinate, index of the bridge point before it, the located point).
-    """
-    n = system.n
-    c = points[:, key]
-    order = np.argsort(c)
-    low, high = float(c[order[0]]), float(c[order[-1]])
-    degree = min(7, len(points) - 1)
-    found = []
-
-    def solve(level, guess):
-        x, _, ok = _newton(system, guess, key, level, iterations=40, tolerance=_BRIDGE_TOLERANCE, largest_step=0.1)
-        t = _tangent(system, x)
-        return x, t[j] / t[key]
-
-    for j in (n, n + 3):
-        polynomial = np.polynomial.Polynomial.fit(c, points[:, j], degree)
-        slope = polynomial.deriv()
-        roots = [float(r.real) for r in slope.roots() if abs(r.imag) < 1e-9 and low < r.real < high]
-        for root in sorted(roots):
-            guess = np.array([np.polynomial.Polynomial.fit(c, points[:, i], degree)(root) for i in range(points.shape[1])])
-            a, xa = root, None
-            xa, sa = solve(a, guess)
-            b = a + 1e-6 * (high - low)
-            xb, sb = solve(b, xa)
-            for _ in range(8):
-                if sb == sa:
-                    break
-                step = -sb * (b - a) / (sb - sa)
-                a, xa, sa = b, xb, sb
-                b = b + step
-                xb, sb = solve(b, xa)
-                # The value at a fold is stationary: an error d in c moves it by O(d^2) only.
-                if abs(step) < 1e-10:
-                    break
-            # index of the bridge point just before the fold, in the order the bridge was walked
-            same_side = np.flatnonzero(np.sign(c - b) == np.sign(c[0] - b))
-            found.append((j, int(same_side[-1]) if same_side.size else 0, xb))
-    return found
-
-
-def _bridge(system: EnvelopeSystem, xa: np.ndarray, ta: np.ndarray, key: int):
-    """Step across the critical point at fixed values of ln K_key, and pin the critical point down.
-
-    Near the critical point the two-phase equations are intrinsically ill-conditioned (the smallest
-    singular value of the Jacobian falls like (ln K)^2, as the position along the spinodal is fixed
-    only by the cubic-order balance of the Heidemann-Khalil criterion). So the passage is a controlled
-    step: points at ln K_key = s c for c in _BRIDGE (each a Newton solve with ln K_key fixed, which
-    excludes the trivial solution K = 1, converged to round-off), first on the near side and then on the
-    far side; a solve that fails is retried half as far (never closer than half the smallest level to
-    ln K_key = 0). The levels stay at |ln K_key| >= 0.02, where every solve is well conditioned; the
-    branch is analytic in ln K_key through the critical point, so the least-squares polynomial of
-    degree 7 through the bridge points, evaluated at ln K_key = 0, gives the critical point, and the
-    difference from degree 5 estimates its error. On lean gases the levels of the earlier design,
-    down to 0.005, stalled Newton at residuals near 1e-10.
-
-    Returns:
-        (bridge points (M, n + 1), critical x, error estimate) or None if a Newton solve failed.
-    """
-    sign = 1.0 if xa[key] > 0 else -1.0
-    pending = [-sign * c for c in _BRIDGE[::-1]] + [sign * c for c in _BRIDGE[:-1]]  # popped from the end
-    points = [np.array(xa, dtype=float)]
-    slope = ta / ta[key]
-    while pending:
-        level = pending[-1]
-        if len(points) >= 3:
-            nodes = np.array([p[key] for p in points[-4:]])
-            stack = np.array(points[-4:])
-            degree = min(len(nodes) - 1, 3)
-            guess = np.array([np.polyval(np.polyfit(nodes, stack[:, j], degree), level) for j in range(stack.shape[1])])
-        else:
-            guess = points[-1] + (level - points[-1][key]) * slope
-        x, norm, ok = _newton(system, guess, key, level, iterations=40, tolerance=_BRIDGE_TOLERANCE,
-                              largest_step=0.1)
-        if ok:
-            points.append(x)
-            pending.pop()
-            continue
-        # A failed (or trivial) solve: step half as far, unless the levels are already close.
-        here = points[-1][key]
-        if abs(level - here) < _BRIDGE_SMALLEST or len(points) + len(pending) > 60:
-            return None
-        middle = 0.5 * (here + level)
-        if abs(middle) < 0.5 * _BRIDGE[0]:  # never aim at the critical point itself
-            middle = math.copysign(0.5 * _BRIDGE[0], here)
-            if abs(middle - here) < _BRIDGE_SMALLEST:
+    def land(before: np.ndarray, after: np.ndarray) -> contin.Landing | None:
+        middle = 0.5 * (before + after)
+        T, v = math.exp(middle[n]), math.exp(middle[n + 1])
+        point, last_step = polish_critical(mixture, z, T, v)
+        if not math.isfinite(last_step):
+            found = critical_points(mixture, z)
+            if not found:
                 return None
-        pending.append(middle)
-    points = np.array(points)
-    nodes = points[:, key]
-    x_c = np.array([np.polyval(np.polyfit(nodes, points[:, j], 7), 0.0) for j in range(points.shape[1])])
-    x_low = np.array([np.polyval(np.polyfit(nodes, points[:, j], 5), 0.0) for j in range(points.shape[1])])
-    n = system.n
-    error = float(np.max(np.abs(x_c[[n, -1]] - x_low[[n, -1]])))
-    x_c[:n] = 0.0
-    return points[1:], x_c, error
+            point = min(found, key=lambda c: abs(math.log(c.T / T)) + abs(math.log(c.v / v)))
+            point, last_step = polish_critical(mixture, z, point.T, point.v)
+            if not math.isfinite(last_step):
+                return None
+        x = np.zeros(n + 4)
+        x[n], x[n + 1], x[n + 2], x[n + 3] = math.log(point.T), math.log(point.v), math.log(point.v), math.log(point.P)
+        info = {"v": point.v, "method": "Heidemann-Khalil criterion (AIChE J. 26 (1980) 769)",
+                "smallest_eigenvalue": point.eigenvalue, "cubic_form": point.cubic}
+        return contin.Landing(x, located_to=last_step, info=info)
+
+    return land
 
 
-def _fold_value(sp) -> tuple[float, float]:
-    return math.exp(sp.values["lnT"]), math.exp(sp.values["lnP"])
+def _trace_branch(mixture: Mixture, z: np.ndarray, system: EnvelopeSystem, x0: np.ndarray, lnP0: float,
+                  max_points: int, on_point) -> contin.Branch:
+    """The whole envelope as one engine trace: dew point, cricondentherm, critical point, bubble point.
 
-
-def _run(system, x, direction, lnP0, max_points, extra_bounds=None, folds=("lnT",), on_point=None):
-    bounds = {"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))}
-    bounds.update(extra_bounds or {})
-    return contin.trace(
-        system, x[:-1], free="lnP", parameters={"lnP": float(x[-1])}, direction=direction, step=_STEP,
-        max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
-        bounds=bounds, folds=folds, corrector="local", on_point=on_point,
+    Rheinboldt's local parametrisation follows the branch; folds of ln T and ln P are located by the
+    engine; the critical point is the engine's crossing of the trivial set K = 1 along the ln K of the
+    outer component largest at the dew point, landed on by Heidemann-Khalil. The bound on ln P at the
+    start pressure ends it at the bubble point.
+    """
+    crossing = contin.Crossing(
+        coordinates=[f"lnK_{name}" for name in mixture.names], near=_NEAR_CRITICAL, gap=_GAP,
+        smallest_gap=_SMALLEST_GAP, kind="critical", name="critical point", land=_critical_landing(mixture, z),
     )
+    bounds = {"lnP": (lnP0, math.log(1e10)), "lnT": (math.log(10.0), math.log(5000.0))}
+    return contin.trace(
+        system, x0[:-1], free="lnP", parameters={"lnP": float(x0[-1])}, direction=1, step=_STEP,
+        max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
+        bounds=bounds, folds=("lnT",), corrector="local", crossing=crossing, on_point=on_point,
+    )
+
+
+def _phase_sides(v_feed: np.ndarray, v_incipient: np.ndarray, T: np.ndarray, pseudo_critical: np.ndarray,
+                 critical: tuple[float, float] | None) -> np.ndarray:
+    """``dew``, ``bubble`` or ``liquid-liquid`` for each row, from the nature of the two phases.
+
+    The lighter phase (larger molar volume) is vapour-like unless, with the branch's critical point
+    (T_c, v_c) known, it is clearly denser than the critical fluid (v < 0.8 v_c), colder than it
+    (T < T_c) and colder than its own pseudo-critical temperature by Kay's rule, sum_i y_i Tc_i (Kay,
+    Ind. Eng. Chem. 28 (1936) 1014; ``pseudo_critical`` holds it for each row): then both phases are
+    liquids (liquid-liquid). A dense gas at high pressure fails the last test, and near the critical
+    point both phases are close to v_c, which the 0.8 allows for. Otherwise the row is a dew point when
+    the feed is the lighter phase and a bubble point when the incipient phase is. (Telling phases
+    apart by density and pseudo-critical temperature is common practice.)
+    """
+    feed_lighter = v_feed > v_incipient
+    sides = np.where(feed_lighter, "dew", "bubble")
+    if critical is None:
+        return sides
+    critical_T, critical_v = critical
+    light_volume = np.where(feed_lighter, v_feed, v_incipient)
+    liquid_light = (light_volume < 0.8 * critical_v) & (T < critical_T) & (T < pseudo_critical)
+    return np.where(liquid_light, "liquid-liquid", sides)
 
 
 def trace_envelope(
@@ -599,12 +534,13 @@ def trace_envelope(
 ) -> Envelope:
     """Trace the phase envelope of feed ``z`` from the dew point at ``from_pressure`` to the bubble point.
 
-    The engine traces the dew side (Rheinboldt's local parametrisation) until the ln K of an outer
-    component falls to 0.1 in size; a controlled step at fixed ln K_key values crosses the critical
-    point (and pins it down); the engine then carries on, in the same direction along the same
-    branch, to the bubble point at ``from_pressure``. Cricondentherm and cricondenbar are the located
-    folds of ln T and ln P with the largest T and P. A feed the model cannot tell from one fluid
-    (identical constants, kij = 0) gives that fluid's saturation curve up to its critical point.
+    One engine trace (Rheinboldt's local parametrisation) runs from the dew point through the
+    cricondentherm, the critical point and the cricondenbar to the bubble point at ``from_pressure``;
+    the critical point is passed by the engine's crossing of the trivial set K = 1 (see
+    :class:`contin.Crossing`) and solved there by Heidemann-Khalil. Cricondentherm and cricondenbar are
+    the located folds of ln T and ln P with the largest T and P, and are checked to be the highest
+    temperature and pressure traced. A feed the model cannot tell from one fluid (identical constants,
+    kij = 0) gives that fluid's saturation curve up to its critical point.
 
     Args:
         mixture: the mixture (components, cubic family, kij).
@@ -613,8 +549,8 @@ def trace_envelope(
             bubble point where it ends.
         quality: vapour fractions (strictly between 0 and 1) of lines of constant quality to add.
         check_stability: run Michelsen's tangent-plane test at every point (``stable`` column).
-        max_points: most points on each traced piece.
-        on_point: passed to :func:`contin.trace` for each traced piece (e.g. a :class:`contin.Progress`).
+        max_points: most points on the branch.
+        on_point: passed to :func:`contin.trace` (e.g. a :class:`contin.Progress`).
 
     Returns:
         An :class:`Envelope`.
@@ -622,7 +558,8 @@ def trace_envelope(
     Raises:
         InputError: bad composition, pressure or quality values; no dew point at ``from_pressure``.
 
-    Reference: Michelsen, Fluid Phase Equilibria 4 (1980) 1 (formulation); Wilson (1969) K-values.
+    Reference: Michelsen, Fluid Phase Equilibria 4 (1980) 1 (formulation); Wilson (1969) K-values;
+    Heidemann & Khalil, AIChE J. 26 (1980) 769 (the critical point).
     """
     began = time.perf_counter()
     z = _check_feed(mixture, z)
@@ -633,166 +570,126 @@ def trace_envelope(
     system = EnvelopeSystem(mixture, z, 0.0)
     x0 = dew_point(mixture, z, float(from_pressure))
     lnP0 = math.log(from_pressure)
-    # Hand over to the controlled step when the ln K of an outer component (largest in size at the
-    # start) falls to _NEAR_CRITICAL in size: a bound on that coordinate is landed on exactly by one
-    # correction at fixed ln K, and no long step can jump over it.
-    start_key = _key_component(x0, n)
     setup = time.perf_counter() - began
     if float(np.max(np.abs(x0[:n]))) < 1e-8:
         return _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability)
-    hand_over = f"lnK_{mixture.names[start_key]}"
-    limit = (-1e3, -_NEAR_CRITICAL) if x0[start_key] < 0 else (_NEAR_CRITICAL, 1e3)
-    first = _run(system, x0, 1, lnP0, max_points, {hand_over: limit}, on_point=on_point)
-    near_critical = (first.status == contin.Status.BOUND_REACHED and bool(first.special_points)
-                     and first.special_points[-1].info.get("coordinate") == hand_over)
-    pieces = [first]
-    rows_x = [first.points]
-    norms = [np.asarray(first.residual_norms)]
-    specials_raw = [(sp, 0) for sp in first.special_points if sp.kind == "fold"]
-    notes = []
-    critical = None
-    bridge_folds = []
-    status, message, success = first.status.label, first.message, first.status.success
-    stats = {k: v for k, v in first.stats.items() if isinstance(v, (int, float))}
-    key = _key_component(first.points[-1], n)
-    cut = None if near_critical else _side_change(system, first.points)
-    if near_critical:
-        bridge = _bridge(system, first.points[-1], first.tangents[-1], key)
-        if bridge is None:
-            status, success = "critical_not_passed", False
-            message = "stopped: the controlled step across the critical point did not converge"
-        else:
-            bridge_points, x_c, error = bridge
-            offset = len(first.points)
-            chain = np.vstack([first.points[-1:], bridge_points])
-            for j, k, x in _bridge_folds(system, chain, key):
-                bridge_folds.append((j, offset + k - 1, x))
-            before = int(np.sum(np.sign(bridge_points[:, key]) == np.sign(first.points[-1][key])))
-            critical = (offset + before - 1, x_c, error)
-            rows_x.append(bridge_points)
-            norms.append(np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0])))
-                                   for p in bridge_points]))
-            x_b = bridge_points[-1]
-            t_b = _tangent(system, x_b)
-            if np.sign(t_b[key]) != np.sign(x_b[key]):
-                t_b = -t_b
-            offset = sum(len(r) for r in rows_x)
-            second = _run(system, x_b, 1 if t_b[-1] >= 0 else -1, lnP0, max_points, on_point=on_point)
-            pieces.append(second)
-            # The second piece starts on the last bridge point: drop the duplicate.
-            rows_x.append(second.points[1:])
-            norms.append(np.asarray(second.residual_norms)[1:])
-            specials_raw += [(sp, offset - 1) for sp in second.special_points if sp.kind == "fold"]
-            status, message, success = second.status.label, second.message, second.status.success
-            for k, v in second.stats.items():
-                if isinstance(v, (int, float)):
-                    stats[k] = stats.get(k, 0) + v
-    elif cut is not None:
-        # One long step of the engine jumped over the whole near-critical region (the phase volumes
-        # changed order between rows cut and cut + 1). The branch is complete; the controlled step
-        # from row cut only pins the critical point down, and its points inside that step are added.
-        key = _key_component(first.points[cut], n)
-        bridge = _bridge(system, first.points[cut], first.tangents[cut], key)
-        if bridge is None:
-            status, success = "critical_not_located", False
-            message = "stopped: the critical point was passed but the controlled step there did not converge"
-        else:
-            bridge_points, x_c, error = bridge
-            c0, c1 = first.points[cut][key], first.points[cut + 1][key]
-            inside = (bridge_points[:, key] - c0) * (bridge_points[:, key] - c1) < 0
-            inner = bridge_points[inside]
-            inner = inner[np.argsort((inner[:, key] - c0) * np.sign(c1 - c0))]
-            rows_x = [first.points[: cut + 1], inner, first.points[cut + 1:]]
-            first_norms = norms[0]
-            norms = [first_norms[: cut + 1],
-                     np.array([float(np.max(np.abs(system.evaluate(p[:-1], p[-1], False)[0]))) for p in inner]),
-                     first_norms[cut + 1:]]
-            specials_raw = [(sp, len(inner) if sp.index > cut else 0) for sp, _ in specials_raw]
-            before = int(np.sum(np.sign(inner[:, key]) == np.sign(c0)))
-            critical = (cut + before, x_c, error)
+    branch = _trace_branch(mixture, z, system, x0, lnP0, max_points, on_point)
     traced = time.perf_counter()
-    points = np.vstack(rows_x)
-    residual_norms = np.concatenate(norms)
-    lnK, T, P = points[:, :n], np.exp(points[:, n]), np.exp(points[:, -1])
-    v_feed = np.exp(points[:, n + 1])
-    y = np.exp(lnK) * z
-    v_incipient = np.exp(points[:, n + 2]) / y.sum(axis=1)
-    side = np.where(v_feed > v_incipient, "dew", "bubble")
-
-    specials = []
-    if critical is not None:
-        index, x_c, error = critical
-        specials.append(_special("critical", index, math.exp(x_c[n]), math.exp(x_c[-1]), error,
-                                 {"v": float(math.exp(x_c[n + 1])), "key_component": mixture.names[key],
-                                  "note": "index is the last row before the critical point"}))
-    elif success:
-        notes.append("no critical point was passed on this branch")
-    folds_T = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnT"]
-    folds_P = [(sp, o) for sp, o in specials_raw if sp.info.get("coordinate") == "lnP"]
-    for j, index, x in bridge_folds:
-        name = "lnT" if j == n else "lnP"
-        t = _tangent(system, x)
-        located = contin.SpecialPoint("fold", f"fold in {name}", index - 0, {"lnT": float(x[n]), "lnP": float(x[-1])},
-                                      x, t, 0.0, 0, 1e-14, {"coordinate": name})
-        (folds_T if j == n else folds_P).append((located, 0))
-    if folds_T:
-        sp, o = max(folds_T, key=lambda item: item[0].values["lnT"])
-        slope = sp.tangent[n] / sp.tangent[-1] * math.exp(sp.values["lnT"] - sp.values["lnP"])
-        specials.append(_special("cricondentherm", sp.index + o, *_fold_value(sp), float(sp.located_to),
-                                 {"dT_dP": float(slope)}))
-    if folds_P:
-        sp, o = max(folds_P, key=lambda item: item[0].values["lnP"])
-        slope = sp.tangent[-1] / sp.tangent[n] * math.exp(sp.values["lnP"] - sp.values["lnT"])
-        specials.append(_special("cricondenbar", sp.index + o, *_fold_value(sp), float(sp.located_to),
-                                 {"dP_dT": float(slope)}))
-    specials.sort(key=lambda s: s["index"])
-
-    # Guard: no point may sit on the trivial solution K = 1 (the critical point itself is not a row).
-    trivial = [i for i in range(len(points)) if np.max(np.abs(lnK[i])) < _TRIVIAL]
-    if trivial:
-        status, success = "trivial_solution", False
-        message = (f"stopped: {len(trivial)} point(s) collapsed onto the trivial solution K = 1 "
-                   f"(first at T = {T[trivial[0]]:.3f} K)")
-
-    stable = [None] * len(points)
-    stability_seconds = 0.0
+    rows, columns, specials, outcome, notes = _assemble(mixture, z, branch, float(from_pressure))
+    status, message, success = outcome
+    stable, stability_seconds = [None] * len(rows), 0.0
     if check_stability:
-        from ._stability import check_points
-
-        began_stability = time.perf_counter()
-        try:
-            stable = check_points(mixture, z, T, P, y)
-        except KeyboardInterrupt:
-            # Ctrl-C during the check: keep the traced points, unchecked, and say so.
+        stable, stability_seconds, interrupted = _stability(mixture, z, rows)
+        if interrupted:
             status, success = contin.Status.INTERRUPTED.label, False
             message = "interrupted: the stability check was stopped; the traced points are kept, unchecked"
-        stability_seconds = time.perf_counter() - began_stability
+    for row, flag in zip(rows, stable, strict=True):
+        row[5] = flag
+    critical = next((sp for sp in specials if sp["kind"] == "critical"), None)
+    end = None if critical is None else (critical["values"]["T"], critical["values"]["P"])
+    lines = () if status == contin.Status.INTERRUPTED.label else tuple(
+        _quality_line(mixture, z, beta, float(from_pressure), max_points, end) for beta in betas)
+    stats = {k: v for k, v in branch.stats.items() if isinstance(v, (int, float))}
+    stats.update(setup_seconds=setup + float(branch.stats.get("setup_seconds", 0.0)),
+                 trace_seconds=traced - began - setup, stability_seconds=stability_seconds, points=len(rows),
+                 jacobian_evaluations=system.evaluations,
+                 jacobian_evaluations_per_point=system.evaluations / max(1, len(rows) - 1))
+    return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
+                    np.asarray(branch.residual_norms), lines, branch, tuple(notes))
 
-    rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), stable[i],
+
+def _stability(mixture: Mixture, z: np.ndarray, rows: list) -> tuple[list, float, bool]:
+    """Michelsen's tangent-plane test at every row: (flags, seconds, interrupted)."""
+    from ._stability import check_points
+
+    began = time.perf_counter()
+    T = np.array([row[0] for row in rows])
+    P = np.array([row[1] for row in rows])
+    y = np.array([row[6:] for row in rows]) * z
+    try:
+        return check_points(mixture, z, T, P, y), time.perf_counter() - began, False
+    except KeyboardInterrupt:
+        # Ctrl-C during the check: keep the traced points, unchecked, and say so.
+        return [None] * len(rows), time.perf_counter() - began, True
+
+
+def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_pressure: float):
+    """Rows, columns, special points (each a row), (status, message, success) and notes of a traced branch.
+
+    The claims of the result are checked before it may say "completed": the cricondentherm is the
+    highest temperature traced and the cricondenbar the highest pressure, no row but the critical
+    point lies on the trivial set K = 1, and a branch that turns into a liquid-liquid split does not
+    claim a bubble point.
+    """
+    n = mixture.size
+    points = branch.points
+    lnK, T, P = points[:, :n], np.exp(points[:, n]), np.exp(points[:, -1])
+    v_feed = np.exp(points[:, n + 1])
+    v_incipient = np.exp(points[:, n + 2]) / (np.exp(lnK) @ z)
+    critical = branch.special("critical")
+    w = np.exp(lnK) * z
+    light = np.where((v_feed > v_incipient)[:, None], z[None, :], w / w.sum(axis=1, keepdims=True))
+    side = _phase_sides(v_feed, v_incipient, T, light @ mixture.Tc, None if not critical else
+                        (float(T[critical[0].index]), float(v_feed[critical[0].index])))
+    rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), None,
              *[float(v) for v in np.exp(lnK[i])]] for i in range(len(points))]
     columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
-    end = None
-    if critical is not None:
-        end = (math.exp(critical[1][n]), math.exp(critical[1][-1]))
-    interrupted = status == contin.Status.INTERRUPTED.label
-    lines = () if interrupted else tuple(_quality_line(mixture, z, beta, float(from_pressure), max_points, end)
-                                         for beta in betas)
-
-    if success and critical is not None and status == contin.Status.BOUND_REACHED.label:
-        passed = [kind for kind in ("cricondentherm", "cricondenbar", "critical")
-                  if any(sp["kind"] == kind for sp in specials)]
-        order = sorted(passed, key=lambda kind: next(sp["index"] for sp in specials if sp["kind"] == kind))
+    notes = list(branch.stats.get("notes", ()))
+    specials = []
+    for sp in critical:
+        info = {key: value for key, value in sp.info.items() if key not in ("coordinate", "gap", "tangent")}
+        info["key_component"] = sp.info["coordinate"].removeprefix("lnK_")
+        specials.append(_special("critical", sp.index, T[sp.index], P[sp.index], sp.located_to, info,
+                                 sp.residual_norm))
+    folds = branch.special("fold")
+    folds_T = [sp for sp in folds if sp.info.get("coordinate") == "lnT"]
+    folds_P = [sp for sp in folds if sp.info.get("coordinate") == "lnP"]
+    if folds_T:
+        sp = max(folds_T, key=lambda s: s.values["lnT"])
+        slope = sp.tangent[n] / sp.tangent[-1] * math.exp(sp.values["lnT"] - sp.values["lnP"]) if sp.tangent[-1] else math.inf
+        specials.append(_special("cricondentherm", sp.index, T[sp.index], P[sp.index], sp.located_to,
+                                 {"dT_dP": float(slope)}, sp.residual_norm))
+    if folds_P:
+        sp = max(folds_P, key=lambda s: s.values["lnP"])
+        slope = sp.tangent[-1] / sp.tangent[n] * math.exp(sp.values["lnP"] - sp.values["lnT"]) if sp.tangent[n] else math.inf
+        specials.append(_special("cricondenbar", sp.index, T[sp.index], P[sp.index], sp.located_to,
+                                 {"dP_dT": float(slope)}, sp.residual_norm))
+    specials.sort(key=lambda s: (s["index"], s["kind"]))
+    status, message, success = branch.status.label, branch.message, branch.status.success
+    problems = []
+    critical_rows = {sp.index for sp in critical}
+    trivial = [i for i in range(len(points)) if i not in critical_rows and np.max(np.abs(lnK[i])) < _TRIVIAL]
+    if trivial:
+        problems.append(f"{len(trivial)} point(s) collapsed onto the trivial solution K = 1 (first at "
+                        f"T = {T[trivial[0]]:.3f} K)")
+    for kind, values, unit in (("cricondentherm", T, "K"), ("cricondenbar", P, "Pa")):
+        sp = next((s for s in specials if s["kind"] == kind), None)
+        highest = int(np.argmax(values))
+        interior = 0 < highest < len(values) - 1
+        if sp is None and interior:
+            problems.append(f"the highest {'temperature' if unit == 'K' else 'pressure'} traced "
+                            f"({values[highest]:.8g} {unit}, row {highest}) is not a located {kind}")
+        elif sp is not None and values[highest] > values[sp["index"]] * (1.0 + 1e-9):
+            problems.append(f"row {highest} lies beyond the {kind} ({values[highest]:.8g} against "
+                            f"{values[sp['index']]:.8g} {unit})")
+    liquid = np.flatnonzero(side == "liquid-liquid")
+    if problems:
+        status, success = "inconsistent", False
+        message = "stopped: the traced envelope fails its own checks: " + "; ".join(problems)
+    elif liquid.size and success:
+        first = int(liquid[0])
+        status, success = "liquid_liquid", False
+        message = (f"stopped short of the bubble point: from T = {T[first]:.6g} K, P = {P[first]:.6g} Pa on "
+                   f"(row {first}) both phases are liquid-like, a liquid-liquid split; a three-phase region "
+                   "is likely there")
+    elif success and critical and status == contin.Status.BOUND_REACHED.label:
+        order = [sp["kind"] for sp in specials if sp["kind"] in ("cricondentherm", "cricondenbar", "critical")]
         words = [("critical point" if kind == "critical" else kind) for kind in order]
         message = (f"completed: from the dew point at {from_pressure:g} Pa through the {', the '.join(words)} "
                    f"to the bubble point at {from_pressure:g} Pa")
-    stats["setup_seconds"] = setup + float(first.stats.get("setup_seconds", 0.0))
-    stats["trace_seconds"] = traced - began - setup
-    stats["stability_seconds"] = stability_seconds
-    stats["points"] = len(points)
-    stats["jacobian_evaluations"] = system.evaluations
-    stats["jacobian_evaluations_per_point"] = system.evaluations / max(1, len(points) - 1)
-    return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
-                    residual_norms, lines, tuple(pieces), tuple(notes))
+    elif success and not critical:
+        notes.append("no critical point was passed on this branch")
+    return rows, columns, specials, (status, message, success), notes
 
 
 def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability) -> Envelope:
@@ -841,9 +738,13 @@ def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_sta
                     np.asarray(branch.residual_norms), (), (branch,), tuple(notes))
 
 
-def _special(kind: str, index: int, T: float, P: float, located: float, info: dict) -> dict:
-    return {"kind": kind, "name": kind, "index": int(index), "values": {"T": float(T), "P": float(P)},
-            "located_to": float(located), "info": info}
+def _special(kind: str, index: int, T: float, P: float, located: float, info: dict,
+             residual_norm: float | None = None) -> dict:
+    special = {"kind": kind, "name": kind, "index": int(index), "values": {"T": float(T), "P": float(P)},
+               "located_to": float(located), "info": info}
+    if residual_norm is not None:
+        special["residual_norm"] = float(residual_norm)
+    return special
 
 
 def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float, max_points: int,
@@ -852,8 +753,8 @@ def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float,
 
     Every line of constant vapour fraction ends at the critical point, where the phases merge. As
     there, the equations grow ill-conditioned, so the trace stops on a bound of the key ln K at
-    _BRIDGE[0] in size (landed on exactly, phases still distinct) and the envelope's critical point,
-    located by the controlled step, is the last point of the line.
+    _GAP in size (landed on exactly, phases still distinct) and the envelope's critical point,
+    solved where the envelope crossed K = 1, is the last point of the line.
     """
     n = mixture.size
     system = EnvelopeSystem(mixture, z, beta)
@@ -864,7 +765,7 @@ def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float,
     key = _key_component(x0, n)
     lnP0 = math.log(pressure)
     name = f"lnK_{mixture.names[key]}"
-    limit = (-1e3, -_BRIDGE[0]) if x0[key] < 0 else (_BRIDGE[0], 1e3)
+    limit = (-1e3, -_GAP) if x0[key] < 0 else (_GAP, 1e3)
     branch = contin.trace(
         system, x0[:-1], free="lnP", parameters={"lnP": lnP0}, direction=1, step=0.05, max_step=_MAX_STEP,
         min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,

@@ -30,7 +30,8 @@ from contin import InputError
 
 from ._mixture import Mixture
 
-__all__ = ["CriticalPoint", "critical_conditions", "critical_point", "critical_points", "binary_critical_locus"]
+__all__ = ["CriticalPoint", "critical_conditions", "critical_point", "critical_points", "polish_critical",
+           "binary_critical_locus"]
 
 
 @dataclass(frozen=True)
@@ -110,27 +111,43 @@ def critical_points(mixture: Mixture, z: Sequence[float]) -> list[CriticalPoint]
 
 def _polish(mixture: Mixture, z: np.ndarray, T: float, v: float) -> CriticalPoint:
     """Two-dimensional Newton on (ln T, ln v) with a central-difference Jacobian, to round-off."""
+    return polish_critical(mixture, z, T, v)[0]
+
+
+def polish_critical(mixture: Mixture, z: np.ndarray, T: float, v: float,
+                    largest_step: float = 1e-3) -> tuple[CriticalPoint, float]:
+    """The critical point near (T, v) by Newton on the two Heidemann-Khalil conditions in (ln T, ln v).
+
+    Returns:
+        (the point, the size of the last Newton step in ln T and ln v: how well it is known); the step
+        is infinite when Newton stopped before converging (a step larger than ``largest_step``, a
+        singular or non-finite Jacobian).
+    """
     x = np.array([math.log(T), math.log(v)])
 
     def g(x):
         return np.array(critical_conditions(mixture, z, math.exp(x[0]), math.exp(x[1])))
 
-    for _ in range(4):
+    last = math.inf
+    for _ in range(6):
         r = g(x)
         h = 1e-6
         J = np.column_stack([(g(x + h * e) - g(x - h * e)) / (2 * h) for e in np.eye(2)])
         try:
             dx = np.linalg.solve(J, -r)
         except np.linalg.LinAlgError:
+            last = math.inf
             break
-        if not np.all(np.isfinite(dx)) or np.max(np.abs(dx)) > 1e-3:
+        if not np.all(np.isfinite(dx)) or np.max(np.abs(dx)) > largest_step:
+            last = math.inf
             break
         x = x + dx
-        if np.max(np.abs(dx)) < 1e-14:
+        last = float(np.max(np.abs(dx)))
+        if last < 1e-14:
             break
     T, v = math.exp(x[0]), math.exp(x[1])
     eigenvalue, cubic = critical_conditions(mixture, z, T, v)
-    return CriticalPoint(T, mixture.pressure(T, v, z), v, eigenvalue, cubic)
+    return CriticalPoint(T, mixture.pressure(T, v, z), v, eigenvalue, cubic), last
 
 
 def critical_point(mixture: Mixture, z: Sequence[float], near: tuple[float, float] | None = None) -> CriticalPoint:
