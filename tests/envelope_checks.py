@@ -334,10 +334,7 @@ def blas_info() -> dict:
         cores = sorted({f"{i.get('internal_api')} {i.get('architecture')}" for i in threadpoolctl.threadpool_info()})
     except ImportError:
         cores = _openblas_cores()
-    try:
-        from numpy._core import _multiarray_umath as umath
-    except ImportError:  # numpy < 2
-        from numpy.core import _multiarray_umath as umath
+    umath = _umath()
     active = [name for name in umath.__cpu_dispatch__ if umath.__cpu_features__.get(name)]
     return {"blas_cores": cores, "numpy_dispatch_active": active,
             "OPENBLAS_CORETYPE": os.environ.get("OPENBLAS_CORETYPE", ""),
@@ -367,6 +364,19 @@ def _openblas_cores() -> list[str]:
     return sorted(cores) or ["unknown"]
 
 
+def _umath():
+    try:
+        from numpy._core import _multiarray_umath as umath
+    except ImportError:  # numpy < 2
+        from numpy.core import _multiarray_umath as umath
+    return umath
+
+
+def dispatch_targets() -> list[str]:
+    """numpy's dispatched SIMD targets in this build (the names ``NPY_DISABLE_CPU_FEATURES`` accepts)."""
+    return list(_umath().__cpu_dispatch__)
+
+
 def kernel_settings() -> list[tuple[str, dict]]:
     """(name, environment) of the kernel settings this machine and numpy build accept, default first.
 
@@ -377,11 +387,7 @@ def kernel_settings() -> list[tuple[str, dict]]:
     AVX-512 targets off, every dispatched target off (baseline instructions only), and that with the
     oldest OpenBLAS core.
     """
-    try:
-        from numpy._core import _multiarray_umath as umath
-    except ImportError:  # numpy < 2
-        from numpy.core import _multiarray_umath as umath
-    features, dispatch = umath.__cpu_features__, list(umath.__cpu_dispatch__)
+    features, dispatch = _umath().__cpu_features__, dispatch_targets()
     settings = [("default", {})]
     if features.get("AVX2") and features.get("FMA3"):
         settings.append(("OPENBLAS_CORETYPE=Haswell", {"OPENBLAS_CORETYPE": "Haswell"}))

@@ -10,7 +10,7 @@ to 1e-7 relative) as the default run. The whole set (150 feeds, more settings) i
 """
 
 import pytest
-from envelope_checks import SAME, differences, kernel_settings, run_in_subprocess
+from envelope_checks import SAME, differences, dispatch_targets, kernel_settings, run_in_subprocess
 
 # r43: the 13-component SRK gas condensate nitrogen..n-decane, kij = 0, of the robustness set (issue 9,
 # finding 6); r00: an 11-component PR natural gas; from the benchmark set, four feeds whose outcome
@@ -19,12 +19,9 @@ from envelope_checks import SAME, differences, kernel_settings, run_in_subproces
 # 13 components).
 SUBSET = ("r43", "r00", "m005", "m066", "m086", "m127")
 PERTURB = 1e-9
-_ALL = dict(kernel_settings())
-SETTINGS = {name: (environment, 0.0) for name, environment in _ALL.items()
-            if name in ("OPENBLAS_CORETYPE=Haswell", "OPENBLAS_CORETYPE=Prescott")
-            or (name.startswith("NPY_DISABLE_CPU_FEATURES=")
-                and len(environment["NPY_DISABLE_CPU_FEATURES"].split(",")) == max(
-                    len(e.get("NPY_DISABLE_CPU_FEATURES", "").split(",")) for e in _ALL.values()))}
+_EVERY_TARGET_OFF = {"NPY_DISABLE_CPU_FEATURES": ",".join(dispatch_targets())}
+SETTINGS = {name: (environment, 0.0) for name, environment in kernel_settings()
+            if name in ("OPENBLAS_CORETYPE=Haswell", "OPENBLAS_CORETYPE=Prescott") or environment == _EVERY_TARGET_OFF}
 SETTINGS[f"start pressure x (1 + {PERTURB:g})"] = ({}, PERTURB)
 
 
