@@ -34,6 +34,29 @@ def _length(v: np.ndarray) -> float:
     return math.sqrt(float(v @ v))
 
 
+def _turns_twice(value_a: float, value_b: float, slope_a: float, slope_b: float, length: float) -> bool:
+    """Whether a coordinate seems to turn twice between two points where its slopes have one sign.
+
+    The cubic Hermite interpolant of the coordinate along the step (its values and its derivatives
+    along the arc at both ends, the arc taken as the chord's length) has a quadratic derivative; two
+    zeros of it inside the step mean two turns (two folds, or a fold and its return) that the end
+    slopes cannot show. This only decides whether to subdivide; the turns are then located on
+    Newton-converged points like any other.
+    """
+    if slope_a * slope_b <= 0.0 or length == 0.0:
+        return False
+    d0, d1, delta = slope_a * length, slope_b * length, value_b - value_a
+    # p'(s) = d0 + (6 delta - 4 d0 - 2 d1) s + (3 d0 + 3 d1 - 6 delta) s^2 on s in [0, 1]
+    a, b = 3.0 * (d0 + d1) - 6.0 * delta, 6.0 * delta - 4.0 * d0 - 2.0 * d1
+    if a == 0.0:
+        return False
+    vertex = -b / (2.0 * a)
+    if not 0.0 < vertex < 1.0:
+        return False
+    extreme = d0 + b * vertex + a * vertex * vertex
+    return extreme * d0 < 0.0
+
+
 def start_vector(system: System, start) -> np.ndarray:
     """Start values of the unknowns from a mapping, a sequence, or the system's defaults."""
     if start is None:
@@ -644,6 +667,8 @@ class _Run:
         # Turning points: reported folds, and the turns of watched coordinates and event functions
         # that split the step into monotone pieces.
         watched = self.watched
+        if not force and any(_turns_twice(xa[c], xb[c], ta[c], tb[c], length) for c in set(self.folds) | watched):
+            return None  # a coordinate seems to turn twice inside the step (its end slopes agree): subdivide
         splits: list[Located] = []
         free_folds = 0
         for coordinate in sorted(set(self.folds) | watched):
