@@ -738,16 +738,23 @@ def _polish_critical(system: _CurveSystem, u: np.ndarray, theta: float, toleranc
     u[1] = 0.0
     p = np.array([theta])
     iterations = 0
+    last = math.inf  # the last Newton step: how well the point is known
     for iterations in range(1, 11):
         f, jacobian, column = system.evaluate(u, p)
         matrix = np.column_stack([jacobian[:, keep], column])
-        step = np.linalg.solve(matrix, -f)
+        try:
+            step = np.linalg.solve(matrix, -f)
+        except np.linalg.LinAlgError:
+            break
+        if not np.all(np.isfinite(step)):
+            break
         u[keep] += step[:-1]
         p[0] += step[-1]
-        if np.max(np.abs(step)) < tolerance:
+        last = float(np.max(np.abs(step)))
+        if last < tolerance:
             break
     residual = float(np.max(np.abs(system.evaluate(u, p)[0])))
-    return u, float(p[0]), iterations, residual
+    return u, float(p[0]), iterations, residual, last
 
 
 def _trace(system: _CurveSystem, u0, theta0, at, tolerance, max_step, on_point=None):
@@ -922,14 +929,14 @@ def _pin_critical(system, branch: contin.Branch, points: list, row, columns: dic
     for sp in branch.special_points:
         if sp.kind != "critical":
             continue
-        u, theta, iterations, residual = _polish_critical(system, sp.point[:n], float(sp.point[n]))
+        u, theta, iterations, residual, last_step = _polish_critical(system, sp.point[:n], float(sp.point[n]))
         extra_iterations += iterations
         critical_row = row(np.append(u, theta))
         points[sp.index] = critical_row
         special.append({
             "kind": "critical", "name": "critical point", "index": sp.index,
             "values": {name: critical_row[k] for name, k in columns.items()},
-            "residual_norm": residual, "newton_iterations": iterations, "located_to": 0.0,
+            "residual_norm": residual, "newton_iterations": iterations, "located_to": last_step,
         })
     return special, extra_iterations, critical_row
 

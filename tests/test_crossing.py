@@ -1,0 +1,125 @@
+"""The engine's passage of a singular crossing: a second solution family meeting the branch.
+
+The model problem is exact: F = d * g(a, d, p) with g1 = a - p - d and g2 = a + p - 1 + d^2. Every
+point with d = 0 solves F = 0 (the second family, two-dimensional, like K = 1 at a mixture critical
+point), and the branch g = 0, a = p + d, p = (1 - d - d^2) / 2, crosses it at a = p = 1/2, where
+dF/dx vanishes altogether.
+"""
+
+import numpy as np
+import pytest
+
+import contin
+from contin import CallableSystem, Crossing, InputError, Landing, trace
+
+
+def residual(u, p):
+    a, d = u
+    return np.array([d * (a - p[0] - d), d * (a + p[0] - 1.0 + d * d)])
+
+
+def jacobian(u, p):
+    a, d = u
+    return np.array([[d, a - p[0] - 2.0 * d], [d, a + p[0] - 1.0 + 3.0 * d * d]])
+
+
+def parameter_jacobian(u, p):
+    a, d = u
+    return np.array([[-d], [d]])
+
+
+SYSTEM = CallableSystem(residual, ["a", "d"], {"p": 0.0}, jacobian=jacobian, parameter_jacobian=parameter_jacobian)
+
+
+def on_branch(d):
+    p = (1.0 - d - d * d) / 2.0
+    return np.array([p + d, d]), p
+
+
+def exact_land(before, after):
+    return Landing(np.array([0.5, 0.0, 0.5]), located_to=0.0, info={"method": "exact"})
+
+
+def start(d=-0.8):
+    u, p = on_branch(d)
+    return dict(start=u, parameters={"p": p})
+
+
+@pytest.mark.parametrize("max_step", [0.05, 0.3, 1.0])
+def test_the_branch_is_followed_across_the_second_family_on_one_branch(max_step):
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]},
+                   max_step=max_step, **start())
+    assert branch.status.label == "bound_reached"
+    d = branch.column("d")
+    assert d[0] < 0.0 < d[-1] and branch.special("bound")[0].values["d"] == pytest.approx(0.9)
+    (critical,) = branch.special("critical")
+    # The singular point is a row with exactly its values, between the rows on either side.
+    assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
+    assert d[critical.index - 1] < 0.0 < d[critical.index + 1]
+    assert critical.info["method"] == "exact" and critical.info["coordinate"] == "d"
+    assert critical.residual_norm == 0.0  # measured in the branch's equations: F = 0 on d = 0
+    # Every other row is on the branch g = 0, none on the second family.
+    others = np.delete(branch.points, critical.index, axis=0)
+    assert np.all(np.abs(others[:, 1]) >= 0.0025 * (1 - 1e-9))
+    assert others[:, 0] == pytest.approx(others[:, 2] + others[:, 1], abs=1e-8)
+    assert others[:, 2] == pytest.approx((1.0 - others[:, 1] - others[:, 1] ** 2) / 2.0, abs=1e-8)
+
+
+def test_without_a_land_function_the_singular_point_is_an_estimate_that_says_so():
+    branch = trace(SYSTEM, free="p", crossing=Crossing(["d"]), direction=1, bounds={"d": [-0.9, 0.9]},
+                   **start())
+    (crossing,) = branch.special("crossing")
+    assert "estimate" in crossing.info
+    assert crossing.values["d"] == 0.0
+    assert crossing.point == pytest.approx([0.5, 0.0, 0.5], abs=2e-3)  # the midpoint of d = +-gap
+    assert crossing.located_to > 0.0  # the jump's length, not a claim of exactness
+
+
+def test_a_land_function_that_fails_or_lands_elsewhere_leaves_an_estimate_and_a_note():
+    def far_away(before, after):
+        return Landing(np.array([3.0, 0.0, -2.0]), located_to=0.0)
+
+    def raising(before, after):
+        raise RuntimeError("no convergence")
+
+    for land in (far_away, raising):
+        branch = trace(SYSTEM, free="p", crossing=Crossing(["d"], land=land), direction=1,
+                       bounds={"d": [-0.9, 0.9]}, **start())
+        assert branch.status.label == "bound_reached"
+        assert "estimate" in branch.special("crossing")[0].info
+        assert any("estimated" in note for note in branch.stats["notes"])
+
+
+def test_folds_near_the_crossing_are_located_on_converged_points():
+    # On this branch p(d) = (1 - d - d^2)/2 has its fold at d = -1/2: a fold in p on the approach.
+    crossing = Crossing(["d"], near=0.6, gap=0.02, land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, **start())
+    (fold,) = branch.special("fold")
+    assert fold.values["d"] == pytest.approx(-0.5, abs=1e-7)
+    assert fold.values["p"] == pytest.approx(0.625, abs=1e-12)
+    assert fold.residual_norm <= 1e-10
+
+
+@pytest.mark.parametrize("arguments, message", [
+    (dict(coordinates=[]), "non-empty sequence"),
+    (dict(coordinates="d"), "non-empty sequence"),
+    (dict(coordinates=["d"], near=0.01, gap=0.02), "smallest_gap"),
+    (dict(coordinates=["d"], gap=float("nan")), "finite number"),
+    (dict(coordinates=["d"], land=3), "callable"),
+    (dict(coordinates=["d"], kind=""), "kind"),
+])
+def test_bad_crossings_are_refused(arguments, message):
+    with pytest.raises(InputError, match=message):
+        Crossing(**arguments)
+
+
+def test_a_crossing_coordinate_that_is_not_a_column_is_refused():
+    with pytest.raises(InputError, match="crossing names 'q'"):
+        trace(SYSTEM, free="p", crossing=Crossing(["q"]), **start())
+    with pytest.raises(InputError, match="must be a contin.Crossing"):
+        trace(SYSTEM, free="p", crossing={"coordinates": ["d"]}, **start())
+
+
+def test_crossing_is_public():
+    assert contin.Crossing is Crossing and contin.Landing is Landing
