@@ -22,7 +22,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ._corrector import Correction, correct
+from ._corrector import Correction, correct, residual_converged
 from ._errors import InputError
 from ._extended import Counters, Extended
 from ._locate import IllinoisBracket, Located, locate_zero
@@ -154,7 +154,7 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
         return None, None
     residual, jacobian = extended.linearise(guess)
     norm = float(abs(residual).max()) if residual.size else 0.0
-    if norm <= options.tolerance:
+    if residual_converged(residual, jacobian, guess, options.tolerance, extended.relative_tolerance, False):
         return Correction(True, guess.copy(), residual, jacobian, 0, norm), jacobian
     matrix = np.vstack([jacobian, unit])
     rhs = np.append(-residual, 0.0)

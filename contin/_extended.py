@@ -40,14 +40,18 @@ class Extended:
         parameters: all parameter values, array (m,); ``parameters[free]`` is overwritten by x[-1].
         free: index of the free parameter.
         counters: where evaluations are counted.
+        relative_tolerance: the scaled part of Newton's residual test for every correction of this
+            system (see :func:`contin._corrector.correct`); 0 keeps the absolute test alone.
     """
 
-    def __init__(self, system: System, parameters: np.ndarray, free: int, counters: Counters) -> None:
+    def __init__(self, system: System, parameters: np.ndarray, free: int, counters: Counters,
+                 relative_tolerance: float = 0.0) -> None:
         self.system = system
         self.parameters = np.array(parameters, dtype=float)
         self.free = free
         self.n = system.size
         self.counters = counters
+        self.relative_tolerance = float(relative_tolerance)
 
     def split(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(u, p) for coordinates x."""

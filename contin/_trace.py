@@ -110,6 +110,7 @@ def trace(
     max_step: float = 0.5,
     max_points: int = 2000,
     tolerance: float = 1e-10,
+    relative_tolerance: float = 1e-13,
     max_iterations: int = 8,
     bounds: Mapping[str, Sequence[float]] | None = None,
     events: Sequence[Event] = (),
@@ -144,8 +145,9 @@ def trace(
         start: start values of the unknowns (mapping name -> value, or array); the system's by default.
         free: name of the parameter that varies along the branch.
         parameters: values overriding the system's parameter values (the free one's is the start).
-        direction, step, min_step, max_step, max_points, tolerance, max_iterations, corrector: see
-            :class:`TraceOptions`; or pass ``options`` instead (not both).
+        direction, step, min_step, max_step, max_points, tolerance, relative_tolerance, max_iterations,
+            corrector: see :class:`TraceOptions` (which also states Newton's convergence test exactly);
+            or pass ``options`` instead (not both).
         bounds: coordinate name -> (low, high); the trace stops on the boundary when it leaves.
         events: zero crossings of user functions to locate; terminal ones stop the trace.
         at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
@@ -175,7 +177,8 @@ def trace(
     if not isinstance(system, System):
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
-                    max_iterations=max_iterations, direction=direction, corrector=corrector)
+                    relative_tolerance=relative_tolerance, max_iterations=max_iterations, direction=direction,
+                    corrector=corrector)
     if options is None:
         options = TraceOptions(**keywords)
     elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):
@@ -200,7 +203,7 @@ def trace(
         raise InputError("two events share one name; give each event its own name")
 
     counters = Counters()
-    extended = Extended(system, parameter_values, free_index, counters)
+    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance)
     x0 = np.append(u0, parameter_values[free_index])
     for index, low, high in bound_list:
         if not low <= x0[index] <= high:
