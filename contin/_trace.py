@@ -20,7 +20,7 @@ from ._options import TraceOptions
 from ._status import Status
 from ._stepsize import StepController
 from ._system import System
-from ._tangent import Bordered, SingularMatrix, from_factors, tangent
+from ._tangent import Bordered, SingularMatrix, from_factors, one_blas_thread, tangent
 
 __all__ = ["trace", "start_vector"]
 
@@ -136,6 +136,10 @@ def trace(
     factors) and Hopf points of ODE equilibria by a sign change of the product of eigenvalue-pair
     sums of dF/du; see :mod:`contin._bifurcation` and :func:`contin.switch_branch`.
 
+    While it runs, BLAS is limited to one thread (with threadpoolctl; the caller's setting is restored
+    on return): the bordered matrices are small, so threads only cost time there, and their
+    summation order would make points and Newton counts depend on the machine's thread setting.
+
     References: H. B. Keller, Numerical solution of bifurcation and nonlinear eigenvalue problems, in
     Applications of Bifurcation Theory, Academic Press, 1977; W. C. Rheinboldt, Numerical Analysis of
     Parametrized Nonlinear Equations, Wiley, 1986.
@@ -222,9 +226,12 @@ def trace(
     run.stats_setup = time.perf_counter() - began + float(getattr(system, "setup_seconds", 0.0) or 0.0)
     traced = time.perf_counter()
     try:
-        run.start(x0)
-        if run.status is None:
-            run.loop()
+        # One BLAS thread for the small dense factorisations (and the system's own evaluations) of the
+        # trace, restored on return: results and times do not depend on the caller's thread setting.
+        with one_blas_thread():
+            run.start(x0)
+            if run.status is None:
+                run.loop()
     except CallbackFailure as failure:
         run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: {failure}", failure.__cause__)
     except KeyboardInterrupt as interrupt:
