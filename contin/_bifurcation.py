@@ -393,7 +393,14 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
     parameters[branch.free] = float(x_star[n])
     extended = Extended(system, system.parameter_vector(parameters), free_index, Counters())
     _, jacobian = extended.linearise(x_star)
-    _, singular_values, right = np.linalg.svd(jacobian)
+    if not np.all(np.isfinite(jacobian)):
+        raise InputError("the Jacobian dF/dx is not finite at the given branch point: it is not a branch point "
+                         "of this system; pass the system that was traced")
+    try:
+        _, singular_values, right = np.linalg.svd(jacobian)
+    except np.linalg.LinAlgError as error:
+        raise InputError(f"the Jacobian dF/dx at the given branch point could not be decomposed ({error}); "
+                         "check the system's derivatives there") from None
     scale = max(1.0, float(singular_values[0])) if n > 1 else 1.0
     smallest = float(singular_values[-1])
     if not smallest <= 1e-6 * scale:

@@ -13,7 +13,7 @@ from ._branch import Branch, SpecialPoint
 from ._corrector import correct
 from ._errors import InputError, TraceError
 from ._events import Event, crossed
-from ._extended import CallbackFailure, Counters, Extended
+from ._extended import CallbackFailure, Counters, Extended, describe_non_finite
 from ._locate import Located, locate_level, locate_zero
 from ._names import suggest
 from ._options import TraceOptions
@@ -236,6 +236,11 @@ def trace(
         run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: {failure}", failure.__cause__)
     except KeyboardInterrupt as interrupt:
         run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: keyboard interrupt", interrupt)
+    except np.linalg.LinAlgError as error:  # scipy.linalg.LinAlgError is the same class
+        where = f"after the point {run.describe(run.rows[-1])}" if run.rows else "at the start point"
+        run.finish(Status.LINEAR_ALGEBRA_FAILED,
+                   f"{Status.LINEAR_ALGEBRA_FAILED.message} {where} ({type(error).__name__}: {error}); check the "
+                   "system for huge or non-finite derivatives there, or trace with a smaller max_step", error)
     branch = run.branch(time.perf_counter() - traced, counters, free, parameter_values)
     if throw and not branch.success:
         raise TraceError(branch.message, branch) from branch.cause
@@ -325,7 +330,10 @@ class _Run:
             row = np.zeros(n + 1)
             row[n] = 1.0
             where = "the Jacobian dF/du"
-        residual, jacobian = self._checked_linearisation(x0)
+        checked = self._checked_linearisation(x0)
+        if checked is None:
+            return
+        residual, jacobian = checked
         try:
             Bordered(jacobian, row)
         except SingularMatrix:
@@ -366,19 +374,27 @@ class _Run:
         if self.on_point is not None:
             self._notify(index, correction.x)
 
-    def _checked_linearisation(self, x0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """The first evaluation, checked for the sizes the system promises."""
+    def _checked_linearisation(self, x0: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+        """The first evaluation, checked for the sizes the system promises and for finite values; None
+        (with the status ``non_finite`` and a message naming the equation) when a value is not finite."""
         n = self.extended.n
         plural = "" if n == 1 else "s"
         u, p = self.extended.split(x0)
         try:
-            size = np.asarray(self.system.residual(u, p), dtype=float).size
+            with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
+                size = np.asarray(self.system.residual(u, p), dtype=float).size
         except Exception as error:  # noqa: BLE001
             raise CallbackFailure(f"the residual raised {type(error).__name__}: {error}") from error
         if size != n:
             raise InputError(f"the residual returned {size} values but the system has {n} unknown{plural}; "
                              "give one equation per unknown")
-        return self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
+        with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
+            residual, jacobian = self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
+        if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+            detail = describe_non_finite(self.extended, x0, residual, jacobian)
+            self.finish(Status.NON_FINITE, f"{Status.NON_FINITE.message}: {detail}")
+            return None
+        return residual, jacobian
 
     def _notify(self, index: int, x: np.ndarray) -> None:
         try:
