@@ -82,3 +82,22 @@ def test_a_branch_point_of_two_unknowns_on_a_curved_branch():
     assert len(found) == 2
     for point in found:
         assert_located_as_claimed(point, np.zeros(3))
+
+
+def test_when_the_refinement_fails_located_to_still_covers_the_error(monkeypatch):
+    import contin._bifurcation as bifurcation
+
+    real = bifurcation._refine_branch_point
+
+    def failing(extended, x, options, radius):
+        _, first = real(extended, x, options, radius)
+        return None, first  # as if Newton on the defining system had failed
+
+    monkeypatch.setattr(bifurcation, "_refine_branch_point", failing)
+    branch = contin.trace(lemniscate(), free="p", step=0.1, max_step=0.1, max_points=400)
+    found = branch.special("branch_point")
+    assert len(found) == 2
+    for point in found:
+        distance = float(np.linalg.norm(point.point))
+        assert distance > 1e-9  # the bracket alone does not reach the point ...
+        assert distance <= 10.0 * point.located_to  # ... and located_to says so
