@@ -171,7 +171,10 @@ def trace(
 
     Returns:
         The :class:`Branch`; an exception inside a user callback, or KeyboardInterrupt, returns what was
-        traced so far with status ``interrupted`` and the exception as ``cause``.
+        traced so far with status ``interrupted`` and the exception as ``cause``. A residual or
+        Jacobian that is not finite at the start ends with status ``non_finite`` (the message names the
+        equation and, where it can be told, the operation, e.g. "exp overflows"); a failure of linear
+        algebra anywhere in the run with ``linear_algebra_failed`` and the error as ``cause``.
 
     Raises:
         InputError: bad input (sizes, names, non-finite start, bounds, options, detect, a singular start).
@@ -349,7 +352,8 @@ class _Run:
             self.finish(
                 Status.START_NOT_CONVERGED,
                 f"{Status.START_NOT_CONVERGED.message}: largest residual {correction.residual_norm:.3g} after "
-                f"{correction.iterations} iterations ({correction.reason}); give a better start guess",
+                f"{correction.iterations} iterations ({correction.reason})"
+                + ("" if correction.reason.startswith("Newton stalled near rounding") else "; give a better start guess"),
             )
             return
         try:

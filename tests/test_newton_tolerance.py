@@ -166,3 +166,14 @@ def test_the_problem_file_key_reaches_the_trace_and_the_run_record(tmp_path, cap
     path.write_text(CUBIC)
     assert main(["run", str(path), "--record", str(record), "--json"]) == 0
     assert json.loads(record.read_text())["options"]["relative_tolerance"] == contin.TraceOptions().relative_tolerance
+
+
+def test_a_start_that_stalls_at_rounding_says_so_instead_of_asking_for_a_better_guess():
+    # One equation with terms of 1e12: its residual cannot get below about 1e-4 in floating point.
+    system = contin.CallableSystem(lambda u, p: np.array([1e12 * (u[0] - p[0]) + 1e-3 * np.sin(1e6 * u[0])]),
+                                   ["u"], {"p": 0.3}, start=[0.3 + 1e-9])
+    branch = contin.trace(system, free="p", relative_tolerance=0.0, max_points=3)
+    assert branch.status.label == "start_not_converged"
+    assert "(Newton stalled near rounding (largest residual" in branch.message
+    assert branch.message.endswith("raise relative_tolerance (now 0) or tolerance (now 1e-10)))")
+    assert contin.trace(system, free="p", max_points=3).success
