@@ -22,11 +22,12 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ._corrector import Correction, correct
+from ._corrector import Correction, correct, residual_converged
 from ._errors import InputError
 from ._extended import Counters, Extended
 from ._locate import IllinoisBracket, Located, locate_zero
 from ._names import suggest
+from ._system import finite_difference_step
 from ._tangent import Bordered, SingularMatrix, tangent
 
 __all__ = [
@@ -155,7 +156,7 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
         return None, None
     residual, jacobian = extended.linearise(guess)
     norm = float(abs(residual).max()) if residual.size else 0.0
-    if norm <= options.tolerance:
+    if residual_converged(residual, jacobian, guess, options.tolerance, extended.relative_tolerance, False):
         return Correction(True, guess.copy(), residual, jacobian, 0, norm), jacobian
     matrix = np.vstack([jacobian, unit])
     rhs = np.append(-residual, 0.0)
@@ -174,16 +175,111 @@ def _tangent_or(jacobian: np.ndarray, row: np.ndarray, reference: np.ndarray) ->
         return reference.copy()
 
 
+def _hessian_of_combination(extended: Extended, x: np.ndarray, phi: np.ndarray) -> np.ndarray:
+    """Hessian of phi . G at x by central differences of its gradient dG/dx^T phi (symmetrised)."""
+    size = x.size
+    steps = finite_difference_step(x)
+    hessian = np.empty((size, size))
+    for k in range(size):
+        shift = np.zeros(size)
+        shift[k] = steps[k]
+        _, forward = extended.linearise(x + shift)
+        _, backward = extended.linearise(x - shift)
+        hessian[:, k] = (forward.T @ phi - backward.T @ phi) / (2.0 * steps[k])
+    return 0.5 * (hessian + hessian.T)
+
+
+def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: float) -> tuple[Located | None, float]:
+    """Newton's method on the defining system of a simple branch point of G(x) = 0.
+
+    Unknowns x (n + 1), phi (n) and an unfolding scalar mu; equations
+
+        G(x) + mu phi = 0,   dG/dx(x)^T phi = 0,   (phi . phi - 1) / 2 = 0,
+
+    2n + 2 equations in 2n + 2 unknowns. At a simple branch point (the null space of dG/dx is
+    two-dimensional and phi . G'' restricted to it is non-degenerate) the solution has mu = 0 and the
+    Jacobian of this system is regular, so Newton converges quadratically from the located bracket
+    (Moore, The numerical treatment of non-trivial bifurcation points, Numer. Funct. Anal. Optim. 2,
+    1980; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, section 5.5).
+    The Hessian of phi . G is taken by central differences of the exact Jacobian.
+
+    Returns:
+        (the refined point with ``located_to`` the length of the last Newton correction of x, or None
+        if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch), and the length
+        of the first correction of x: an estimate of how far x itself is from the branch point.
+    """
+    n = extended.n
+    residual, jacobian = extended.linearise(x)
+    if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+        return None, math.inf
+    try:
+        left = np.linalg.svd(jacobian)[0]
+    except np.linalg.LinAlgError:
+        return None, math.inf
+    phi = left[:, -1].copy()
+    mu = -float(phi @ residual)
+    z = x.copy()
+    first = math.inf
+    previous = math.inf
+    size = 2 * n + 2
+    for iteration in range(1, 16):
+        matrix = np.zeros((size, size))
+        matrix[:n, : n + 1] = jacobian
+        matrix[:n, n + 1: 2 * n + 1] = mu * np.eye(n)
+        matrix[:n, -1] = phi
+        matrix[n: 2 * n + 1, : n + 1] = _hessian_of_combination(extended, z, phi)
+        matrix[n: 2 * n + 1, n + 1: 2 * n + 1] = jacobian.T
+        matrix[-1, n + 1: 2 * n + 1] = phi
+        rhs = -np.concatenate([residual + mu * phi, jacobian.T @ phi, [0.5 * (phi @ phi - 1.0)]])
+        try:
+            step = np.linalg.solve(matrix, rhs)
+        except np.linalg.LinAlgError:
+            return None, first
+        if not np.all(np.isfinite(step)):
+            return None, first
+        moved = float(np.linalg.norm(step[: n + 1]))
+        if iteration == 1:
+            first = moved
+        if iteration > 2 and moved > previous:
+            break  # rounding noise: the previous iterate is as good as it gets
+        z = z + step[: n + 1]
+        phi = phi + step[n + 1: 2 * n + 1]
+        mu = mu + float(step[-1])
+        residual, jacobian = extended.linearise(z)
+        if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+            return None, first
+        previous = moved
+        if moved <= 4.0 * np.finfo(float).eps * (1.0 + float(np.linalg.norm(z))):
+            break
+    if not float(np.linalg.norm(z - x)) <= radius:
+        return None, first
+    if not residual_converged(residual, jacobian, z, options.tolerance, extended.relative_tolerance, True):
+        return None, first
+    norm = float(abs(residual).max()) if residual.size else 0.0
+    located_to = max(previous, 4.0 * np.finfo(float).eps * (1.0 + float(np.linalg.norm(z))))
+    return Located(0.0, z, np.zeros(n + 1), norm, iteration, located_to, 0.0), first
+
+
 def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
                         options) -> Located | None:
     """The simple branch point between accepted points ``a`` and ``b`` = (x, tangent).
 
-    The test function is det [dG/dx; e] / c with e the unit chord from a to b and c the product of
-    the row lengths of dG/dx at a: it has the sign of det [dG/dx; t] inside the bracket (e . t > 0
-    for a short step), is smooth, and of order one. Its zero is found by the Illinois method
-    (Dowell & Jarratt, BIT 11, 1971), every trial corrected back onto the branch on the hyperplane
-    orthogonal to the chord; unlike :func:`contin._locate.locate_zero` a trial that lands exactly on
-    the singular point (common on trivial branches, where the chord lies on the branch) is kept.
+    Two stages. First the bracket: the test function is det [dG/dx; e] / c with e the unit chord
+    from a to b and c the product of the row lengths of dG/dx at a: it has the sign of
+    det [dG/dx; t] inside the bracket (e . t > 0 for a short step), is smooth, and of order one. Its
+    zero is found by the Illinois method (Dowell & Jarratt, BIT 11, 1971), every trial corrected
+    back onto the branch on the hyperplane orthogonal to the chord; unlike
+    :func:`contin._locate.locate_zero` a trial that lands exactly on the singular point (common on
+    trivial branches, where the chord lies on the branch) is kept. On a curved branch these trials
+    cannot place the point closer than the residual test allows: near a crossing of two branches
+    |G| grows only quadratically with the distance, so every point within about sqrt(tolerance) of
+    it passes. Then the point is refined by Newton's method on the defining system of a simple branch
+    point (:func:`_refine_branch_point`; Moore 1980, Seydel 2010), which is regular there.
+
+    ``located_to`` is measured: after the refinement, the length of its last Newton correction; if
+    the refinement fails, the bracket's point is kept with ``located_to`` the larger of the bracket
+    width and the first Newton correction of the defining system (its distance from the branch point,
+    to first order), or the chord length when even that is not available.
 
     Returns:
         The located point, or None when the bracket does not show a sign change once the Jacobians
@@ -208,19 +304,22 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
         trial = bracket.trial()
         correction, jacobian = _settle(extended, xa + trial * chord, unit, options)
         if correction is None:
-            return best
+            break
         value = _scaled_determinant(jacobian, unit, log_scale)
         t = _tangent_or(jacobian, unit, ta)
-        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
-                       0.0 if value == 0.0 else bracket.width, value)
-        if value == 0.0:
-            return best
-        if bracket.update(trial, value):
+        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations, bracket.width, value)
+        if value == 0.0 or bracket.update(trial, value):
             break
     if best is None:
         return None
-    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, bracket.located_to,
-                   best.value)
+    refined, first = _refine_branch_point(extended, best.x, options, length)
+    if refined is None:
+        located_to = max(bracket.located_to, first if math.isfinite(first) else length)
+        return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to,
+                       best.value)
+    fraction = min(1.0, max(0.0, float((refined.x - xa) @ chord) / (length * length)))
+    return Located(fraction, refined.x, best.tangent, refined.residual_norm, refined.iterations,
+                   refined.located_to, best.value)
 
 
 # -- Hopf points -----------------------------------------------------------------------------------
@@ -405,7 +504,14 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
     parameters[branch.free] = float(x_star[n])
     extended = Extended(system, system.parameter_vector(parameters), free_index, Counters())
     _, jacobian = extended.linearise(x_star)
-    _, singular_values, right = np.linalg.svd(jacobian)
+    if not np.all(np.isfinite(jacobian)):
+        raise InputError("the Jacobian dF/dx is not finite at the given branch point: it is not a branch point "
+                         "of this system; pass the system that was traced")
+    try:
+        _, singular_values, right = np.linalg.svd(jacobian)
+    except np.linalg.LinAlgError as error:
+        raise InputError(f"the Jacobian dF/dx at the given branch point could not be decomposed ({error}); "
+                         "check the system's derivatives there") from None
     scale = max(1.0, float(singular_values[0])) if n > 1 else 1.0
     smallest = float(singular_values[-1])
     if not smallest <= 1e-6 * scale:

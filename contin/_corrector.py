@@ -10,7 +10,51 @@ from scipy.linalg.lapack import dgetrf, dgetrs
 
 from ._extended import Extended
 
-__all__ = ["Correction", "correct"]
+__all__ = ["Correction", "correct", "residual_converged", "term_sizes"]
+
+# The stall diagnosis: a residual within this fraction of its equation's term sizes is at (or near)
+# the rounding level of the evaluation, so more Newton iterations cannot bring it down.
+_NEAR_ROUNDING = 1e-9
+
+
+def term_sizes(jacobian: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Size of each equation's first-order terms: w_i = sum_j |dG_i/dx_j| max(1, |x_j|).
+
+    It is the magnitude of the terms that the evaluation of G_i adds up near x (every coordinate
+    counted at least at unit size), so the rounding error of G_i is a small multiple of
+    machine epsilon times w_i; it scales with the equation (multiplying G_i by c multiplies w_i by |c|).
+    """
+    return np.abs(jacobian) @ np.maximum(1.0, np.abs(x))
+
+
+def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
+                       relative_tolerance: float, stalled: bool) -> bool:
+    """Newton's residual test at x (see :func:`correct`).
+
+    Every |G_i(x)| <= ``tolerance`` passes. When that fails and Newton has ``stalled`` (the last
+    iteration did not halve the largest residual, so it is rounding noise that further iterations
+    cannot remove), every |G_i(x)| <= tolerance + relative_tolerance * w_i passes, with w_i from
+    :func:`term_sizes`. The term sizes are computed only in that second case.
+    """
+    if residual.size == 0 or float(abs(residual).max()) <= tolerance:
+        return True
+    if not stalled or relative_tolerance <= 0.0:
+        return False
+    return bool(np.all(abs(residual) <= tolerance + relative_tolerance * term_sizes(jacobian, x)))
+
+
+def _stalled_reason(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
+                    relative_tolerance: float, norm: float) -> str | None:
+    """The failure reason when the residual is already near the rounding level of its terms, else None."""
+    if not residual.size or not math.isfinite(norm) or jacobian is None or not np.all(np.isfinite(jacobian)):
+        return None
+    sizes = term_sizes(jacobian, x)
+    worst = int(np.argmax(abs(residual) / np.maximum(sizes, 1e-300)))
+    if not abs(residual[worst]) <= _NEAR_ROUNDING * sizes[worst]:
+        return None
+    return (f"Newton stalled near rounding (largest residual {norm:.3g}, where the terms of its equation "
+            f"are of size {sizes[worst]:.3g}, so the tolerance asks for more than rounding allows: raise "
+            f"relative_tolerance (now {relative_tolerance:g}) or tolerance (now {tolerance:g}))")
 
 
 @dataclass(frozen=True)
@@ -45,6 +89,7 @@ def correct(
     *,
     tolerance: float,
     max_iterations: int,
+    relative_tolerance: float | None = None,
     jacobian: np.ndarray | None = None,
     residual: np.ndarray | None = None,
     max_distance: float = np.inf,
@@ -62,8 +107,10 @@ def correct(
         guess: starting point (the predictor).
         row: the constraint row, shape (n + 1,).
         target: the constraint's right-hand side.
-        tolerance: converged when max |G| <= tolerance and the last step is small.
+        tolerance: the absolute part of the residual test (below).
         max_iterations: iterations before giving up.
+        relative_tolerance: the scaled part of the residual test; None takes the trace's
+            (``extended.relative_tolerance``).
         jacobian: dG/dx to use for the first iteration (e.g. from the previous point), or None.
         residual: G(guess) if already known.
         max_distance: give up if an iterate moves farther than this from ``guess`` (branch jumping).
@@ -75,10 +122,28 @@ def correct(
             saves a Jacobian evaluation per point. A Jacobian passed in (from another point) is never
             returned as the corrected point's.
 
+    Convergence test: after a Newton step dx to the iterate x, the correction has converged when
+    the step is small, max_j |dx_j| <= max(sqrt(tolerance), 1e-8) * (1 + max_j |x_j|), and
+
+    - either the absolute test holds: max_i |G_i(x)| <= tolerance,
+    - or Newton has stalled (the step did not halve the largest residual: what is left is rounding
+      noise) and every equation meets the scaled test |G_i(x)| <= tolerance + relative_tolerance * w_i,
+      with w_i = sum_j |dG_i/dx_j| max(1, |x_j|) the size of equation i's first-order terms
+      (:func:`term_sizes`, with the Jacobian the step was computed from).
+
+    A Newton iteration that still converges is never stopped early by the scaled test, so on
+    well-scaled problems the result is that of the absolute test; a badly scaled equation (terms of
+    size 1e5, whose rounding error alone may exceed 1e-10) converges to the accuracy rounding allows
+    instead of failing. ``relative_tolerance = 0`` keeps the absolute test alone. When Newton fails
+    with the residual already near the rounding level of its terms, the reason says so and names the
+    options to raise.
+
     Each iteration evaluates only the residual at the new iterate; the Jacobian there is evaluated
     only if another iteration is needed (or an exact one was asked for).
     """
     x = np.array(guess, dtype=float)
+    if relative_tolerance is None:
+        relative_tolerance = float(getattr(extended, "relative_tolerance", 0.0))
     if jacobian is None:
         residual, jacobian = extended.linearise(x)
         jacobian_here = True  # evaluated at an iterate of this correction
@@ -95,6 +160,7 @@ def correct(
     matrix = np.empty((size, size))
     rhs = np.empty(size)
     last_step = math.inf
+    previous_norm = math.inf
     counters = extended.counters
     for iteration in range(1, max_iterations + 1):
         # Factorise [dG/dx; row] in place with LAPACK (the scipy.linalg wrappers cost more than the
@@ -113,17 +179,25 @@ def correct(
         if not math.isfinite(step):
             return Correction(False, x, residual, jacobian, iteration, norm, "non-finite Newton step")
         if guard_divergence and iteration > 2 and step > 2.0 * last_step:
-            return Correction(False, x, residual, jacobian, iteration, norm, "Newton diverged")
+            # Steps that grow from a residual at rounding level are noise, not divergence: the point
+            # reached is converged if it meets the stalled test (its Jacobian is the one factorised).
+            if jacobian_here and last_step <= step_tolerance and residual_converged(
+                    residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm):
+                return Correction(True, x, residual, jacobian, iteration - 1, norm,
+                                  factors=None if exact_jacobian else (lu, piv))
+            reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm)
+            return Correction(False, x, residual, jacobian, iteration, norm, reason or "Newton diverged")
         x = x + dx
         residual = extended.residual(x)
-        norm = float(abs(residual).max()) if residual.size else 0.0
+        previous_norm, norm = norm, (float(abs(residual).max()) if residual.size else 0.0)
         if not math.isfinite(norm):
             return Correction(False, x, residual, jacobian, iteration, norm, "non-finite residual")
         if max_distance < math.inf:
             moved = x - guess
             if math.sqrt(moved @ moved) > max_distance:
                 return Correction(False, x, residual, jacobian, iteration, norm, "corrector moved too far from the predictor")
-        converged = norm <= tolerance and step <= step_tolerance
+        converged = step <= step_tolerance and residual_converged(
+            residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm)
         if converged and jacobian_here and not exact_jacobian:
             # The Jacobian kept is the one just factorised with this row: its LU serves the tangent.
             return Correction(True, x, residual, jacobian, iteration, norm, factors=(lu, piv))
@@ -135,4 +209,6 @@ def correct(
         if converged:
             return Correction(True, x, residual, jacobian, iteration, norm)
         last_step = step
-    return Correction(False, x, residual, jacobian, max_iterations, norm, f"no convergence (in {max_iterations} Newton iterations)")
+    reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm)
+    return Correction(False, x, residual, jacobian, max_iterations, norm,
+                      reason or f"no convergence (in {max_iterations} Newton iterations)")

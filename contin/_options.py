@@ -21,7 +21,15 @@ class TraceOptions:
         min_step: the trace stops with ``step_too_small`` when a step this short fails.
         max_step: longest step allowed.
         max_points: most points on the branch (the start included).
-        tolerance: Newton converges when the largest residual is at most this.
+        tolerance: the absolute part of Newton's residual test. A correction has converged when every
+            equation i meets |G_i(x)| <= tolerance + relative_tolerance * w_i and the last Newton step
+            is at most max(sqrt(tolerance), 1e-8) * (1 + max_j |x_j|) in every coordinate.
+        relative_tolerance: the scaled part of that test: w_i = sum_j |dG_i/dx_j| max(1, |x_j|) is
+            the size of equation i's first-order terms at x, so the test bounds each residual by
+            ``tolerance`` plus ``relative_tolerance`` times the magnitude of what the equation adds
+            up. An equation of order one is held to ``tolerance``; a badly scaled one (terms of size
+            1e5, whose rounding error alone can exceed 1e-10) converges to the accuracy rounding
+            allows. 0 gives the absolute test max_i |G_i| <= tolerance alone.
         max_iterations: Newton iterations per corrector call before the step is declared failed.
         direction: +1 or -1, the initial sign of the free parameter's change.
         corrector: ``"arclength"`` (Keller 1977: correct on the hyperplane orthogonal to the tangent)
@@ -42,6 +50,7 @@ class TraceOptions:
     max_step: float = 0.5
     max_points: int = 2000
     tolerance: float = 1e-10
+    relative_tolerance: float = 1e-13
     max_iterations: int = 8
     direction: int = 1
     corrector: str = "arclength"
@@ -57,6 +66,14 @@ class TraceOptions:
             if value <= 0:
                 raise InputError(f"{name}={value!r} must be positive")
             object.__setattr__(self, name, float(value))
+        value = self.relative_tolerance
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value < 0:
+            raise InputError(f"relative_tolerance={value!r} must be a finite number, zero or positive "
+                             "(0 keeps the absolute residual test alone)")
+        if value >= 1:
+            raise InputError(f"relative_tolerance={value!r} must be below 1 (it is a fraction of each "
+                             "equation's term sizes; 1e-13 is the default)")
+        object.__setattr__(self, "relative_tolerance", float(value))
         if self.min_step > self.max_step:
             raise InputError(f"min_step={self.min_step} is larger than max_step={self.max_step}")
         if not self.min_step <= self.step <= self.max_step:

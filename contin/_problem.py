@@ -18,7 +18,8 @@ The format (public; keep it stable)::
     step = 0.01
     min_step = 1e-8
     max_step = 0.5
-    tolerance = 1e-10
+    tolerance = 1e-10             # Newton: every |residual_i| <= tolerance + relative_tolerance * w_i
+    relative_tolerance = 1e-13    # w_i: size of equation i's terms (0: the absolute test alone)
     at = { p = [0.1, 0.2] }       # optional: output exactly at these values of a coordinate
     [[events]]                    # optional, repeatable
     name = "u_zero"
@@ -50,7 +51,7 @@ __all__ = ["Problem", "load_problem", "run_problem", "TOP_KEYS", "TRACE_KEYS", "
 
 TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
-              "folds", "detect", "corrector")
+              "folds", "detect", "corrector", "relative_tolerance")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
 _REQUIRED = ("unknowns", "parameters", "equations", "trace")
 
@@ -267,6 +268,12 @@ class _Reader:
                 if value <= 0:
                     raise self.fail("trace", key, f"{key} = {value!r} must be positive")
                 options[key] = value
+        if "relative_tolerance" in table:
+            value = self.number("trace", "relative_tolerance", table["relative_tolerance"], "relative tolerance")
+            if not 0 <= value < 1:
+                raise self.fail("trace", "relative_tolerance", f"relative_tolerance = {value!r} must be at least 0 "
+                                "and below 1 (0 keeps the absolute residual test alone; the default is 1e-13)")
+            options["relative_tolerance"] = value
         for key in ("bounds", "at"):
             if key in table:
                 options[key] = self.coordinate_table(key, table[key], coordinates, system)

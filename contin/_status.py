@@ -18,6 +18,8 @@ class Status(Enum):
     STEP_TOO_SMALL = ("step_too_small", False, "stopped: the step size fell below min_step")
     START_NOT_CONVERGED = ("start_not_converged", False, "stopped: Newton did not converge at the start point")
     NOT_CONVERGED = ("not_converged", False, "stopped: Newton did not converge at a requested value")
+    NON_FINITE = ("non_finite", False, "stopped: the residual or the Jacobian is not finite at the start point")
+    LINEAR_ALGEBRA_FAILED = ("linear_algebra_failed", False, "stopped: a linear-algebra routine failed")
     INTERRUPTED = ("interrupted", False, "interrupted: the trace was stopped before it finished")
 
     def __init__(self, label: str, success: bool, message: str) -> None:

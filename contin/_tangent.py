@@ -3,11 +3,54 @@
 from __future__ import annotations
 
 import math
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 
 import numpy as np
 from scipy.linalg.lapack import dgetrf, dgetrs
 
-__all__ = ["Bordered", "SingularMatrix", "from_factors", "tangent"]
+__all__ = ["Bordered", "SingularMatrix", "from_factors", "one_blas_thread", "tangent"]
+
+_blas_lock = threading.Lock()
+_blas_state: dict = {"depth": 0, "limiter": None, "controller": None}
+
+
+def _blas_controller():
+    """The threadpoolctl controller of the loaded BLAS libraries, made once (None without threadpoolctl)."""
+    if _blas_state["controller"] is None:
+        try:
+            from threadpoolctl import ThreadpoolController
+        except ImportError:  # pragma: no cover - a declared dependency; without it threads are left alone
+            _blas_state["controller"] = False
+        else:
+            _blas_state["controller"] = ThreadpoolController()
+    return _blas_state["controller"] or None
+
+
+@contextmanager
+def one_blas_thread() -> Iterator[None]:
+    """Run the block with BLAS limited to one thread, then restore the caller's setting.
+
+    The engine's matrices are small (n + 1 rows): threaded BLAS only adds start-up and
+    synchronisation cost there, and its summation order changes the rounding, so Newton counts and
+    points would depend on the machine's thread setting. The limit is process-wide while any
+    block is open (BLAS thread counts are global); nested and concurrent blocks share it and the
+    last one to leave restores the setting found by the first.
+    """
+    with _blas_lock:
+        if _blas_state["depth"] == 0:
+            controller = _blas_controller()
+            _blas_state["limiter"] = controller.limit(limits=1, user_api="blas") if controller else None
+        _blas_state["depth"] += 1
+    try:
+        yield
+    finally:
+        with _blas_lock:
+            _blas_state["depth"] -= 1
+            if _blas_state["depth"] == 0 and _blas_state["limiter"] is not None:
+                _blas_state["limiter"].restore_original_limits()
+                _blas_state["limiter"] = None
 
 
 class SingularMatrix(Exception):

@@ -14,14 +14,14 @@ from ._corrector import correct
 from ._crossing import Crossing, Passage
 from ._errors import InputError, TraceError
 from ._events import Event, crossed
-from ._extended import CallbackFailure, Counters, Extended
+from ._extended import CallbackFailure, Counters, Extended, describe_non_finite
 from ._locate import Located, locate_level, locate_zero
 from ._names import suggest
 from ._options import TraceOptions
 from ._status import Status
 from ._stepsize import StepController
 from ._system import System
-from ._tangent import Bordered, SingularMatrix, from_factors, tangent
+from ._tangent import Bordered, SingularMatrix, from_factors, one_blas_thread, tangent
 
 __all__ = ["trace", "start_vector"]
 
@@ -137,6 +137,7 @@ def trace(
     max_step: float = 0.5,
     max_points: int = 2000,
     tolerance: float = 1e-10,
+    relative_tolerance: float = 1e-13,
     max_iterations: int = 8,
     bounds: Mapping[str, Sequence[float]] | None = None,
     events: Sequence[Event] = (),
@@ -163,6 +164,10 @@ def trace(
     factors) and Hopf points of ODE equilibria by a sign change of the product of eigenvalue-pair
     sums of dF/du; see :mod:`contin._bifurcation` and :func:`contin.switch_branch`.
 
+    While it runs, BLAS is limited to one thread (with threadpoolctl; the caller's setting is restored
+    on return): the bordered matrices are small, so threads only cost time there, and their
+    summation order would make points and Newton counts depend on the machine's thread setting.
+
     References: H. B. Keller, Numerical solution of bifurcation and nonlinear eigenvalue problems, in
     Applications of Bifurcation Theory, Academic Press, 1977; W. C. Rheinboldt, Numerical Analysis of
     Parametrized Nonlinear Equations, Wiley, 1986.
@@ -172,8 +177,9 @@ def trace(
         start: start values of the unknowns (mapping name -> value, or array); the system's by default.
         free: name of the parameter that varies along the branch.
         parameters: values overriding the system's parameter values (the free one's is the start).
-        direction, step, min_step, max_step, max_points, tolerance, max_iterations, corrector: see
-            :class:`TraceOptions`; or pass ``options`` instead (not both).
+        direction, step, min_step, max_step, max_points, tolerance, relative_tolerance, max_iterations,
+            corrector: see :class:`TraceOptions` (which also states Newton's convergence test exactly);
+            or pass ``options`` instead (not both).
         bounds: coordinate name -> (low, high); the trace stops on the boundary when it leaves.
         events: zero crossings of user functions to locate; terminal ones stop the trace.
         at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
@@ -196,7 +202,10 @@ def trace(
 
     Returns:
         The :class:`Branch`; an exception inside a user callback, or KeyboardInterrupt, returns what was
-        traced so far with status ``interrupted`` and the exception as ``cause``.
+        traced so far with status ``interrupted`` and the exception as ``cause``. A residual or
+        Jacobian that is not finite at the start ends with status ``non_finite`` (the message names the
+        equation and, where it can be told, the operation, e.g. "exp overflows"); a failure of linear
+        algebra anywhere in the run with ``linear_algebra_failed`` and the error as ``cause``.
 
     Raises:
         InputError: bad input (sizes, names, non-finite start, bounds, options, detect, a singular start).
@@ -206,7 +215,8 @@ def trace(
     if not isinstance(system, System):
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
-                    max_iterations=max_iterations, direction=direction, corrector=corrector)
+                    relative_tolerance=relative_tolerance, max_iterations=max_iterations, direction=direction,
+                    corrector=corrector)
     if options is None:
         options = TraceOptions(**keywords)
     elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):
@@ -231,7 +241,7 @@ def trace(
         raise InputError("two events share one name; give each event its own name")
 
     counters = Counters()
-    extended = Extended(system, parameter_values, free_index, counters)
+    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance)
     x0 = np.append(u0, parameter_values[free_index])
     for index, low, high in bound_list:
         if not low <= x0[index] <= high:
@@ -255,13 +265,21 @@ def trace(
     run.stats_setup = time.perf_counter() - began + float(getattr(system, "setup_seconds", 0.0) or 0.0)
     traced = time.perf_counter()
     try:
-        run.start(x0)
-        if run.status is None:
-            run.loop()
+        # One BLAS thread for the small dense factorisations (and the system's own evaluations) of the
+        # trace, restored on return: results and times do not depend on the caller's thread setting.
+        with one_blas_thread():
+            run.start(x0)
+            if run.status is None:
+                run.loop()
     except CallbackFailure as failure:
         run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: {failure}", failure.__cause__)
     except KeyboardInterrupt as interrupt:
         run.finish(Status.INTERRUPTED, f"{Status.INTERRUPTED.message}: keyboard interrupt", interrupt)
+    except np.linalg.LinAlgError as error:  # scipy.linalg.LinAlgError is the same class
+        where = f"after the point {run.describe(run.rows[-1])}" if run.rows else "at the start point"
+        run.finish(Status.LINEAR_ALGEBRA_FAILED,
+                   f"{Status.LINEAR_ALGEBRA_FAILED.message} {where} ({type(error).__name__}: {error}); check the "
+                   "system for huge or non-finite derivatives there, or trace with a smaller max_step", error)
     branch = run.branch(time.perf_counter() - traced, counters, free, parameter_values)
     if throw and not branch.success:
         raise TraceError(branch.message, branch) from branch.cause
@@ -363,7 +381,10 @@ class _Run:
             row = np.zeros(n + 1)
             row[n] = 1.0
             where = "the Jacobian dF/du"
-        residual, jacobian = self._checked_linearisation(x0)
+        checked = self._checked_linearisation(x0)
+        if checked is None:
+            return
+        residual, jacobian = checked
         try:
             Bordered(jacobian, row)
         except SingularMatrix:
@@ -379,7 +400,8 @@ class _Run:
             self.finish(
                 Status.START_NOT_CONVERGED,
                 f"{Status.START_NOT_CONVERGED.message}: largest residual {correction.residual_norm:.3g} after "
-                f"{correction.iterations} iterations ({correction.reason}); give a better start guess",
+                f"{correction.iterations} iterations ({correction.reason})"
+                + ("" if correction.reason.startswith("Newton stalled near rounding") else "; give a better start guess"),
             )
             return
         try:
@@ -405,19 +427,27 @@ class _Run:
         if self.on_point is not None:
             self._notify(index, correction.x)
 
-    def _checked_linearisation(self, x0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """The first evaluation, checked for the sizes the system promises."""
+    def _checked_linearisation(self, x0: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+        """The first evaluation, checked for the sizes the system promises and for finite values; None
+        (with the status ``non_finite`` and a message naming the equation) when a value is not finite."""
         n = self.extended.n
         plural = "" if n == 1 else "s"
         u, p = self.extended.split(x0)
         try:
-            size = np.asarray(self.system.residual(u, p), dtype=float).size
+            with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
+                size = np.asarray(self.system.residual(u, p), dtype=float).size
         except Exception as error:  # noqa: BLE001
             raise CallbackFailure(f"the residual raised {type(error).__name__}: {error}") from error
         if size != n:
             raise InputError(f"the residual returned {size} values but the system has {n} unknown{plural}; "
                              "give one equation per unknown")
-        return self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
+        with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
+            residual, jacobian = self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
+        if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+            detail = describe_non_finite(self.extended, x0, residual, jacobian)
+            self.finish(Status.NON_FINITE, f"{Status.NON_FINITE.message}: {detail}")
+            return None
+        return residual, jacobian
 
     def _notify(self, index: int, x: np.ndarray) -> None:
         try:
