@@ -89,11 +89,13 @@ def _draw_envelopes(ax, envelopes, labels, *, split_sides: bool, annotate: bool)
     for envelope, label in zip(envelopes, labels):
         T, P = envelope.column("T"), envelope.column("P") / 1e5
         if split_sides:
-            dew = np.array([side == "dew" for side in envelope.column("side")], dtype=bool)
             critical = envelope.special("critical")
-            tc, pc = (critical["values"]["T"], critical["values"]["P"] / 1e5) if critical else (None, None)
-            t_dew, p_dew = (np.append(T[dew], tc), np.append(P[dew], pc)) if critical else (T[dew], P[dew])
-            t_bub, p_bub = (np.insert(T[~dew], 0, tc), np.insert(P[~dew], 0, pc)) if critical else (T[~dew], P[~dew])
+            if critical is not None:  # the critical point is a row: both curves run to it
+                t_dew, p_dew = T[:critical["index"] + 1], P[:critical["index"] + 1]
+                t_bub, p_bub = T[critical["index"]:], P[critical["index"]:]
+            else:
+                dew = np.array([side == "dew" for side in envelope.column("side")], dtype=bool)
+                t_dew, p_dew, t_bub, p_bub = T[dew], P[dew], T[~dew], P[~dew]
             line, = ax.plot(*smooth_curve(t_dew, p_dew), "-", lw=2.0, label="dew curve")
             ax.plot(*smooth_curve(t_bub, p_bub), "--", color=line.get_color(), lw=1.8, label="bubble curve")
         else:

@@ -499,27 +499,35 @@ def _trace_branch(mixture: Mixture, z: np.ndarray, system: EnvelopeSystem, x0: n
     )
 
 
-def _phase_sides(v_feed: np.ndarray, v_incipient: np.ndarray, T: np.ndarray, pseudo_critical: np.ndarray,
-                 critical: tuple[float, float] | None) -> np.ndarray:
+def _phase_sides(mixture: Mixture, z: np.ndarray, w: np.ndarray, v_feed: np.ndarray, v_incipient: np.ndarray,
+                 T: np.ndarray, critical_rows: Sequence[int]) -> np.ndarray:
     """``dew``, ``bubble`` or ``liquid-liquid`` for each row, from the nature of the two phases.
 
-    The lighter phase (larger molar volume) is vapour-like unless, with the branch's critical point
-    (T_c, v_c) known, it is clearly denser than the critical fluid (v < 0.8 v_c), colder than it
-    (T < T_c) and colder than its own pseudo-critical temperature by Kay's rule, sum_i y_i Tc_i (Kay,
-    Ind. Eng. Chem. 28 (1936) 1014; ``pseudo_critical`` holds it for each row): then both phases are
-    liquids (liquid-liquid). A dense gas at high pressure fails the last test, and near the critical
-    point both phases are close to v_c, which the 0.8 allows for. Otherwise the row is a dew point when
-    the feed is the lighter phase and a bubble point when the incipient phase is. (Telling phases
-    apart by density and pseudo-critical temperature is common practice.)
+    The branch starts at a dew point (the feed a vapour, the incipient phase a liquid), and the two
+    phases exchange their natures only where the branch passes a critical point (a row in
+    ``critical_rows``): the sides follow from continuity, dew up to the first critical point, bubble
+    after it. (Molar volumes alone do not tell: a heavy liquid can have the larger molar volume.)
+    Past a critical point, the phase that should be the vapour (the incipient phase on the bubble
+    side) is taken for a liquid, and the row is ``liquid-liquid``, where it is both clearly
+    liquid-dense, v < 0.5 Zc b / Omega_b with b its own co-volume (half the critical molar volume of a
+    one-component fluid of the cubic: the density of a liquid well below its critical temperature),
+    and colder than its pseudo-critical temperature by Kay's rule, sum_i y_i Tc_i (Kay, Ind. Eng.
+    Chem. 28 (1936) 1014). (Telling phases apart by density and pseudo-critical temperature is common
+    practice; the margins keep dense gases and near-critical rows vapour-liquid.)
     """
-    feed_lighter = v_feed > v_incipient
-    sides = np.where(feed_lighter, "dew", "bubble")
-    if critical is None:
-        return sides
-    critical_T, critical_v = critical
-    light_volume = np.where(feed_lighter, v_feed, v_incipient)
-    liquid_light = (light_volume < 0.8 * critical_v) & (T < critical_T) & (T < pseudo_critical)
-    return np.where(liquid_light, "liquid-liquid", sides)
+    count = len(v_feed)
+    passed = np.zeros(count, dtype=int)
+    for index in critical_rows:
+        passed[index + 1:] += 1
+    bubble = passed % 2 == 1
+    sides = np.where(bubble, "bubble", "dew").astype(object)
+    family = mixture.family
+    limit = 0.5 * family.z_c / family.omega_b
+    composition = np.where(bubble[:, None], w, z[None, :])
+    vapour_volume = np.where(bubble, v_incipient, v_feed)
+    liquid = (passed > 0) & (vapour_volume < limit * (composition @ mixture.b)) & (T < composition @ mixture.Tc)
+    sides[liquid] = "liquid-liquid"
+    return sides.astype(str)
 
 
 def trace_envelope(
@@ -628,9 +636,8 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     v_incipient = np.exp(points[:, n + 2]) / (np.exp(lnK) @ z)
     critical = branch.special("critical")
     w = np.exp(lnK) * z
-    light = np.where((v_feed > v_incipient)[:, None], z[None, :], w / w.sum(axis=1, keepdims=True))
-    side = _phase_sides(v_feed, v_incipient, T, light @ mixture.Tc, None if not critical else
-                        (float(T[critical[0].index]), float(v_feed[critical[0].index])))
+    side = _phase_sides(mixture, z, w / w.sum(axis=1, keepdims=True), v_feed, v_incipient, T,
+                        [sp.index for sp in critical])
     rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), None,
              *[float(v) for v in np.exp(lnK[i])]] for i in range(len(points))]
     columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
@@ -673,21 +680,34 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
             problems.append(f"row {highest} lies beyond the {kind} ({values[highest]:.8g} against "
                             f"{values[sp['index']]:.8g} {unit})")
     liquid = np.flatnonzero(side == "liquid-liquid")
-    if problems:
+    bound = branch.special("bound")
+    open_end = bool(bound) and bound[-1].info.get("coordinate") != "lnP" or (
+        bool(bound) and bound[-1].values["lnP"] > math.log(from_pressure) + 1.0)
+    if problems and not open_end:
         status, success = "inconsistent", False
         message = "stopped: the traced envelope fails its own checks: " + "; ".join(problems)
+    elif open_end and success:
+        last = bound[-1].index
+        status, success = "open_envelope", False
+        message = (f"stopped: the branch runs on to the bound {bound[-1].name} (T = {T[last]:.6g} K, P = {P[last]:.6g} Pa) "
+                   f"as a {side[last]} curve: the model gives no closed envelope for this feed (a liquid-liquid or "
+                   "gas-gas split that goes on to high pressure is the usual cause)")
+    elif liquid.size and success and side[-1] != "liquid-liquid":
+        notes.append(f"from T = {T[liquid[0]]:.6g} K, P = {P[liquid[0]]:.6g} Pa to T = {T[liquid[-1]]:.6g} K, "
+                     f"P = {P[liquid[-1]]:.6g} Pa the incipient phase is liquid-dense (rows labelled liquid-liquid)")
     elif liquid.size and success:
-        first = int(liquid[0])
+        first = int(liquid[np.flatnonzero(np.diff(np.append(-2, liquid)) > 1)[-1]])  # where the last such stretch begins
         status, success = "liquid_liquid", False
         message = (f"stopped short of the bubble point: from T = {T[first]:.6g} K, P = {P[first]:.6g} Pa on "
                    f"(row {first}) both phases are liquid-like, a liquid-liquid split; a three-phase region "
                    "is likely there")
-    elif success and critical and status == contin.Status.BOUND_REACHED.label:
+    if success and status == contin.Status.BOUND_REACHED.label:
         order = [sp["kind"] for sp in specials if sp["kind"] in ("cricondentherm", "cricondenbar", "critical")]
         words = [("critical point" if kind == "critical" else kind) for kind in order]
-        message = (f"completed: from the dew point at {from_pressure:g} Pa through the {', the '.join(words)} "
-                   f"to the bubble point at {from_pressure:g} Pa")
-    elif success and not critical:
+        end = "bubble point" if side[-1] == "bubble" else "second dew point"
+        through = f" through the {', the '.join(words)}" if words else ""
+        message = f"completed: from the dew point at {from_pressure:g} Pa{through} to the {end} at {from_pressure:g} Pa"
+    if success and not critical:
         notes.append("no critical point was passed on this branch")
     return rows, columns, specials, (status, message, success), notes
 

@@ -55,15 +55,18 @@ def draw_envelope(envelope, axes=None):
         figure, axes = plt.subplots(figsize=(7.5, 5.5))
     figure = axes.figure
     critical = envelope.special("critical")
-    for name, style in (("dew", "-"), ("bubble", "--")):
-        mask = np.array([value == name for value in side], dtype=bool)
-        t_side, p_side = T[mask], P[mask]
-        if critical is not None and mask.any():
-            # Both curves run into the critical point: draw them to it.
-            tc, pc = critical["values"]["T"], critical["values"]["P"] / 1e5
-            at_end = np.flatnonzero(mask)[0] > critical["index"]  # the bubble side starts there
-            t_side = np.concatenate([[tc], t_side]) if at_end else np.concatenate([t_side, [tc]])
-            p_side = np.concatenate([[pc], p_side]) if at_end else np.concatenate([p_side, [pc]])
+    if critical is not None:
+        # The critical point is a row: the dew curve runs to it, the bubble curve from it (rows past it
+        # that turn liquid-liquid stay on the second curve).
+        index = critical["index"]
+        pieces = (("dew", "-", slice(0, index + 1)), ("bubble", "--", slice(index, len(T))))
+    else:
+        pieces = tuple((name, style, np.array([value == name for value in side], dtype=bool))
+                       for name, style in (("dew", "-"), ("bubble", "--")))
+    for name, style, rows in pieces:
+        t_side, p_side = T[rows], P[rows]
+        if t_side.size == 0:
+            continue
         xs, ys = smooth_curve(t_side, p_side)
         axes.plot(xs, ys, style, color="tab:blue", label=f"{name} curve")
     for line in envelope.quality_lines:
