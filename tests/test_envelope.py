@@ -5,6 +5,8 @@ import math
 import numpy as np
 import pytest
 
+import contin_thermo
+
 from contin import InputError
 from contin_thermo._components import lookup
 from contin_thermo._eos import family
@@ -178,3 +180,61 @@ def test_two_components_with_identical_constants_give_the_pure_curve():
     critical = envelope.special("critical")["values"]
     assert critical["T"] == pytest.approx(propane.Tc, rel=1e-9)
     assert critical["P"] == pytest.approx(propane.Pc, rel=1e-9)
+
+
+# -- what the branch is: sides by the phases' nature, and no claim of a point not reached ----------
+def test_a_branch_that_turns_liquid_liquid_does_not_claim_the_bubble_point():
+    # 90 % methane + 10 % n-decane, Peng-Robinson, kij = 0: past the critical point the incipient phase
+    # becomes a cold methane-rich liquid (both phases liquid-like down to 1 bar near 165 K).
+    mixture = contin_thermo.mixture(["methane", "n-decane"], "pr")
+    envelope = contin_thermo.trace_envelope(mixture, [0.9, 0.1], check_stability=False)
+    assert envelope.status == "liquid_liquid" and not envelope.success
+    assert "bubble point" in envelope.message and envelope.message.startswith("stopped short of the bubble point")
+    sides = list(envelope.column("side"))
+    critical = envelope.special("critical")["index"]
+    assert set(sides[:critical + 1]) == {"dew"}
+    assert sides[-1] == "liquid-liquid"
+    first = sides.index("liquid-liquid")
+    assert first > critical and set(sides[first:]) == {"liquid-liquid"}
+    assert any("liquid-liquid" in line for line in envelope.summary())
+
+
+def test_sides_follow_the_critical_point_not_the_order_of_the_molar_volumes(gas):
+    _, envelope = gas
+    sides = list(envelope.column("side"))
+    critical = envelope.special("critical")["index"]
+    assert set(sides[:critical + 1]) == {"dew"} and set(sides[critical + 1:]) == {"bubble"}
+
+
+def test_a_rich_condensate_with_nitrogen_is_a_status_not_a_traceback():
+    # An 11-component SRK condensate with 11 % nitrogen (invented feed) once ended in a raw
+    # LinAlgError inside the old critical-point bridge; now it is traced whole.
+    names = ["nitrogen", "methane", "carbon dioxide", "ethane", "propane", "n-butane", "n-pentane", "n-hexane",
+             "n-heptane", "n-octane", "n-decane"]
+    z = np.array([0.11, 0.55, 0.03, 0.08, 0.06, 0.04, 0.03, 0.03, 0.03, 0.02, 0.02])
+    mixture = contin_thermo.mixture(names, "srk")
+    envelope = contin_thermo.trace_envelope(mixture, z / z.sum(), check_stability=False)
+    assert envelope.status == "bound_reached" and envelope.success
+    kinds = [sp["kind"] for sp in envelope.special_points]
+    assert kinds == ["cricondentherm", "critical", "cricondenbar"]
+    for sp in envelope.special_points:  # every special point is its row
+        row = envelope.rows[sp["index"]]
+        assert (row[0], row[1]) == (sp["values"]["T"], sp["values"]["P"])
+
+
+def test_an_envelope_that_runs_on_to_the_pressure_bound_says_it_is_open():
+    # Nitrogen with n-decane: the model's two-phase region does not close at high pressure.
+    mixture = contin_thermo.mixture(["nitrogen", "n-decane"], "pr")
+    envelope = contin_thermo.trace_envelope(mixture, [0.9, 0.1], check_stability=False)
+    assert envelope.status == "open_envelope" and not envelope.success
+    assert "no closed envelope" in envelope.message
+    assert envelope.column("P")[-1] == pytest.approx(1e10)
+
+
+def test_the_critical_point_row_is_located_by_heidemann_khalil_with_a_measured_accuracy(gas):
+    _, envelope = gas
+    critical = envelope.special("critical")
+    assert 0.0 <= critical["located_to"] < 1e-10  # the last Newton step of the Heidemann-Khalil solve
+    assert critical["residual_norm"] < 1e-12  # the envelope equations at K = 1, both volumes v_c
+    assert "Heidemann-Khalil" in critical["info"]["method"]
+    assert abs(critical["info"]["smallest_eigenvalue"]) < 1e-10 and abs(critical["info"]["cubic_form"]) < 1e-8

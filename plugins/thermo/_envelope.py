@@ -683,7 +683,9 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     bound = branch.special("bound")
     open_end = bool(bound) and bound[-1].info.get("coordinate") != "lnP" or (
         bool(bound) and bound[-1].values["lnP"] > math.log(from_pressure) + 1.0)
-    if problems and not open_end:
+    if problems and not open_end and not success:
+        notes.extend(problems)  # the trace stopped early: its own status says why
+    elif problems and not open_end:
         status, success = "inconsistent", False
         message = "stopped: the traced envelope fails its own checks: " + "; ".join(problems)
     elif open_end and success:
