@@ -143,8 +143,8 @@ def polish_critical(mixture: Mixture, z: np.ndarray, T: float, v: float,
             break
         x = x + dx
         last = float(np.max(np.abs(dx)))
-        if last < 1e-14:
-            break
+        if last < 1e-12:
+            break  # Newton is quadratic here: the next step would be below round-off
     T, v = math.exp(x[0]), math.exp(x[1])
     eigenvalue, cubic = critical_conditions(mixture, z, T, v)
     return CriticalPoint(T, mixture.pressure(T, v, z), v, eigenvalue, cubic), last
