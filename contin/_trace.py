@@ -420,6 +420,9 @@ class _Run:
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
         self.event_slopes = [self.event_slope(event, correction.x, t) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
+        moved = _length(correction.x - x0)
+        if moved > 1e-3 * (1.0 + float(np.abs(x0).max())):
+            self.notes.append(f"the start was moved by {moved:.3g} to reach the curve, to {self.describe(correction.x)}")
         for coordinate, values in self.at:
             for value in values[values == correction.x[coordinate]]:
                 located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0, 0.0)

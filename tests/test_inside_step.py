@@ -248,3 +248,13 @@ def test_levels_bounds_and_events_are_found_whatever_the_step(curve, max_step, f
     assert [sp.kind for sp in fine.special_points] == [sp.kind for sp in branch.special_points]
     for a, b in zip(fine.special_points, branch.special_points, strict=True):
         assert a.point == pytest.approx(b.point, abs=1e-6)
+
+
+def test_a_start_moved_far_to_reach_the_curve_is_noted():
+    square = CallableSystem(lambda u, p: np.array([u[0] - p[0] ** 2]), ["u"], {"p": 1.0},
+                            jacobian=lambda u, p: np.array([[1.0]]))
+    moved = trace(square, [3.0], free="p", bounds={"p": [0.0, 2.0]})
+    assert moved.points[0] == pytest.approx([1.0, 1.0])
+    assert moved.stats["notes"] == ["the start was moved by 2 to reach the curve, to u = 1, p = 1"]
+    near = trace(square, [1.0 + 1e-6], free="p", bounds={"p": [0.0, 2.0]})
+    assert "notes" not in near.stats
