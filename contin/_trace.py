@@ -138,6 +138,8 @@ def trace(
     max_points: int = 2000,
     tolerance: float = 1e-10,
     relative_tolerance: float = 1e-13,
+    max_turn: float = 0.5,
+    max_correction: float = 0.5,
     max_iterations: int = 8,
     bounds: Mapping[str, Sequence[float]] | None = None,
     events: Sequence[Event] = (),
@@ -178,8 +180,11 @@ def trace(
         free: name of the parameter that varies along the branch.
         parameters: values overriding the system's parameter values (the free one's is the start).
         direction, step, min_step, max_step, max_points, tolerance, relative_tolerance, max_iterations,
-            corrector: see :class:`TraceOptions` (which also states Newton's convergence test exactly);
-            or pass ``options`` instead (not both).
+            corrector, max_turn, max_correction: see :class:`TraceOptions` (which also states Newton's
+            convergence test exactly); or pass ``options`` instead (not both). ``max_turn`` (radians
+            between successive tangents) and ``max_correction`` (the corrector's distance from the
+            predictor, as a fraction of the step) make a step shorter before it can jump over a tight
+            turn or onto a nearby branch.
         bounds: coordinate name -> (low, high); the trace stops on the boundary when it leaves.
         events: zero crossings of user functions to locate; terminal ones stop the trace.
         at: coordinate name -> values; points exactly there are returned in ``Branch.at``.
@@ -216,7 +221,7 @@ def trace(
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
                     relative_tolerance=relative_tolerance, max_iterations=max_iterations, direction=direction,
-                    corrector=corrector)
+                    corrector=corrector, max_turn=max_turn, max_correction=max_correction)
     if options is None:
         options = TraceOptions(**keywords)
     elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):

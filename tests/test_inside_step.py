@@ -258,3 +258,15 @@ def test_a_start_moved_far_to_reach_the_curve_is_noted():
     assert moved.stats["notes"] == ["the start was moved by 2 to reach the curve, to u = 1, p = 1"]
     near = trace(square, [1.0 + 1e-6], free="p", bounds={"p": [0.0, 2.0]})
     assert "notes" not in near.stats
+
+
+def test_the_geometric_step_limits_are_options_of_trace():
+    # A tighter turn limit takes more, shorter steps round the same ellipse; both close the loop.
+    loose = trace(ellipse(3.0, 1.0), [3.0], free="p", tangent=[0.0, 1.0], max_step=1.0, max_turn=1.0)
+    tight = trace(ellipse(3.0, 1.0), [3.0], free="p", tangent=[0.0, 1.0], max_step=1.0, max_turn=0.1)
+    assert loose.status.label == tight.status.label == "closed_loop"
+    assert len(tight) > len(loose)
+    turns = np.arccos(np.clip(np.sum(tight.tangents[1:] * tight.tangents[:-1], axis=1), -1.0, 1.0))
+    assert turns.max() <= 0.1 + 1e-12
+    with pytest.raises(contin.InputError, match="max_correction"):
+        trace(ellipse(3.0, 1.0), [3.0], free="p", tangent=[0.0, 1.0], max_correction=0.0)
