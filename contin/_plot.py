@@ -11,7 +11,8 @@ import numpy as np
 from ._errors import InputError
 from ._names import suggest
 
-__all__ = ["plot_branch", "save_figure", "smooth_path", "FIGURE_FORMATS", "KIND_STYLES", "describe_kind"]
+__all__ = ["plot_branch", "save_figure", "smooth_path", "smooth_xy", "mark_special", "axis_label", "FIGURE_FORMATS",
+           "KIND_STYLES", "describe_kind"]
 
 FIGURE_FORMATS = (".png", ".svg", ".pdf")
 
@@ -33,6 +34,61 @@ KIND_STYLES = {
 def describe_kind(kind: str) -> str:
     """The words for a special-point kind, e.g. ``"critical point"``."""
     return KIND_STYLES.get(kind, ("o", kind.replace("_", " ")))[1]
+
+
+def axis_label(quantity: str, unit: str | None = None) -> str:
+    """The one axis-label style of every picture: ``"temperature T / K"`` (quantity, then / unit)."""
+    return f"{quantity} / {unit}" if unit else quantity
+
+
+def mark_special(ax, kind: str, x: float, y: float, *, label: str | None = None, words: str | None = None,
+                 offset: tuple[float, float] = (6, 6)) -> None:
+    """Draw one special point in the one style of every picture: its kind's marker, in black.
+
+    Args:
+        ax: the axes.
+        kind: the special point's kind (its marker from :data:`KIND_STYLES`).
+        x, y: where.
+        label: legend label (None: not in the legend).
+        words: text written beside the marker (None: none); it is kept inside the axes, to the left of
+            the marker in the right half of the axes.
+        offset: offset of the text in points.
+    """
+    marker = KIND_STYLES.get(kind, ("o", kind))[0]
+    ax.plot([x], [y], marker, ms=9 if marker == "*" else 7, mfc="white" if marker == "o" else None,
+            color="black", label=label, zorder=5)
+    if words:
+        low, high = ax.get_xlim()
+        right = high > low and (x - low) > 0.6 * (high - low)
+        dx = -abs(offset[0]) if right else abs(offset[0])
+        ax.annotate(words, (x, y), textcoords="offset points", xytext=(dx, offset[1]), fontsize=8,
+                    ha="right" if right else "left", annotation_clip=True)
+
+
+def smooth_xy(x: np.ndarray, y: np.ndarray, *, log_x: bool = False, log_y: bool = False, samples: int = 10):
+    """A curve through the points (x, y), drawn smooth: cubic splines against the chord length.
+
+    Every point is exact; only the drawing between them is interpolated (straight chords show corners
+    where the points are far apart, e.g. coexisting densities near a critical point). ``log_x`` and
+    ``log_y`` interpolate in the logarithm (for axes drawn on a log scale).
+    """
+    from scipy.interpolate import CubicSpline
+
+    x, y = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+    keep = np.isfinite(x) & np.isfinite(y) & ((x > 0) if log_x else True) & ((y > 0) if log_y else True)
+    u, v = (np.log(x[keep]) if log_x else x[keep]), (np.log(y[keep]) if log_y else y[keep])
+    if u.size < 4:
+        return x[keep], y[keep]
+    scale_u = max(float(np.ptp(u)), 1e-300)
+    scale_v = max(float(np.ptp(v)), 1e-300)
+    chord = np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(u) / scale_u, np.diff(v) / scale_v))])
+    distinct = np.concatenate([[True], np.diff(chord) > 1e-12 * max(chord[-1], 1e-300)])
+    chord, u, v = chord[distinct], u[distinct], v[distinct]
+    if chord.size < 4:
+        return (np.exp(u) if log_x else u), (np.exp(v) if log_y else v)
+    s = np.linspace(0.0, chord[-1], samples * chord.size)
+    su, sv = CubicSpline(chord, u)(s), CubicSpline(chord, v)(s)
+    return (np.exp(su) if log_x else su), (np.exp(sv) if log_y else sv)
 
 
 def _pyplot(headless: bool = False):
@@ -92,13 +148,11 @@ def plot_branch(branch, x: str | None = None, y: str | None = None, *, ax=None, 
         if point.kind == "event":
             words = point.name.replace("_", " ")  # a user event is known by its own name
         px, py = point.point[ix], point.point[iy]
-        ax.plot([px], [py], marker, ms=9 if marker == "*" else 7, mfc="white" if marker == "o" else None,
-                color="black", label=words if words not in seen else None, zorder=5)
+        mark_special(ax, point.kind, px, py, label=words if words not in seen else None,
+                     words=words if annotate else None)
         seen.add(words)
-        if annotate:
-            ax.annotate(words, (px, py), textcoords="offset points", xytext=(6, 6), fontsize=8)
-    ax.set_xlabel(f"{x} [{units[x]}]" if x in units else x)
-    ax.set_ylabel(f"{y} [{units[y]}]" if y in units else y)
+    ax.set_xlabel(axis_label(x, units.get(x)))
+    ax.set_ylabel(axis_label(y, units.get(y)))
     ax.grid(True, alpha=0.3)
     if seen or label:
         ax.legend(fontsize=8, loc="best")

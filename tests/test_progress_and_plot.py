@@ -85,3 +85,24 @@ def test_to_dataframe_when_pandas_is_installed():
     assert list(frame.columns[:2]) == ["u", "p"]
     assert (frame["special"] == "fold").sum() == 2
     assert isinstance(frame, pandas.DataFrame)
+
+
+def test_every_picture_marks_a_kind_of_point_alike_and_labels_axes_alike():
+    # One look: a special point's kind has one marker (black) on engine and thermodynamic plots, and
+    # every axis label reads "quantity / unit".
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import contin_thermo
+    from contin._plot import KIND_STYLES, axis_label
+    from contin_thermo._plot_envelope import draw_envelope
+
+    mixture = contin_thermo.mixture(["methane", "ethane", "propane"], "pr")
+    envelope = contin_thermo.trace_envelope(mixture, [0.8, 0.12, 0.08], check_stability=False)
+    axes = draw_envelope(envelope)
+    drawn = {line.get_marker(): line.get_color() for line in axes.get_lines() if line.get_linestyle() == "None"}
+    for kind in ("critical", "cricondenbar", "cricondentherm"):
+        assert drawn[KIND_STYLES[kind][0]] == "black"
+    assert axes.get_xlabel() == axis_label("temperature T", "K") == "temperature T / K"
+    assert axes.get_ylabel() == "pressure P / bar"
+    assert "[" not in axes.get_xlabel()

@@ -78,11 +78,8 @@ def _save(figure, path: Path) -> None:
     save_figure(figure, path, argument="demo")
 
 
-_MARKERS = {"cricondentherm": ">", "critical": "*", "cricondenbar": "^"}
-
-
 def _draw_envelopes(ax, envelopes, labels, *, split_sides: bool, annotate: bool) -> None:
-    from contin._plot import describe_kind
+    from contin._plot import axis_label, describe_kind, mark_special
 
     from ._plot_envelope import smooth_curve
 
@@ -106,12 +103,10 @@ def _draw_envelopes(ax, envelopes, labels, *, split_sides: bool, annotate: bool)
             if sp is None:
                 continue
             x, y = sp["values"]["T"], sp["values"]["P"] / 1e5
-            ax.plot([x], [y], _MARKERS[kind], color="black", ms=9 if kind == "critical" else 7, zorder=5,
-                    label=describe_kind(kind) if k == 0 else None)
-            if annotate and k == 0:
-                ax.annotate(describe_kind(kind), (x, y), textcoords="offset points", xytext=(7, 4), fontsize=8)
-    ax.set_xlabel("temperature T [K]")
-    ax.set_ylabel("pressure P [bar]")
+            mark_special(ax, kind, x, y, label=describe_kind(kind) if k == 0 else None,
+                         words=describe_kind(kind) if annotate and k == 0 else None, offset=(7, 4))
+    ax.set_xlabel(axis_label("temperature T", "K"))
+    ax.set_ylabel(axis_label("pressure P", "bar"))
     ax.grid(True, alpha=0.3)
 
 
@@ -158,27 +153,33 @@ def _caption(figure, text: str) -> None:
 
 
 def _saturation_figure(curves):
-    from contin._plot import _pyplot
+    from contin._plot import _pyplot, axis_label, describe_kind, mark_special, smooth_xy
 
     plt = _pyplot()
     figure, (left, right) = plt.subplots(1, 2, figsize=(10, 4.6), layout="constrained")
     for curve in curves:
         name = curve.component.name
         T = curve.column("T")
-        line, = left.plot(T, curve.column("P") / 1e5, "-", lw=1.6, label=name)
-        right.plot(curve.column("rho_liquid"), T, "-", color=line.get_color(), lw=1.6, label=f"{name} liquid")
-        right.plot(curve.column("rho_vapour"), T, "--", color=line.get_color(), lw=1.6, label=f"{name} vapour")
+        line, = left.plot(*smooth_xy(T, curve.column("P") / 1e5, log_y=True), "-", lw=1.6, label=name)
         c = curve.special("critical")["values"]
-        left.plot([c["T"]], [c["P"] / 1e5], "*", color="black", ms=9, zorder=5)
-        left.annotate(f"critical point of {name}", (c["T"], c["P"] / 1e5), textcoords="offset points",
-                      xytext=(4, -14), fontsize=8, ha="left")
-        right.plot([1.0 / c["v"]], [c["T"]], "*", color="black", ms=9, zorder=5)
-        right.annotate("critical point", (1.0 / c["v"], c["T"]), textcoords="offset points", xytext=(6, 4), fontsize=8)
-    left.set_xlabel("temperature T [K]")
-    left.set_ylabel("saturation pressure P [bar]")
-    left.set_yscale("log")
-    right.set_xlabel("density ρ [mol/m³]")
-    right.set_ylabel("temperature T [K]")
+        # The coexisting densities as one smooth dome through the critical point (liquid up, vapour down).
+        dome_rho = np.concatenate([curve.column("rho_liquid"), curve.column("rho_vapour")[::-1]])
+        dome_T = np.concatenate([T, T[::-1]])
+        right.plot(*smooth_xy(dome_rho, dome_T, log_x=True), "-", color=line.get_color(), lw=1.6,
+                   label=f"{name} liquid and vapour")
+        left.set_yscale("log")
+        right.set_xscale("log")
+        label = describe_kind("critical") if curve is curves[0] else None
+        mark_special(left, "critical", c["T"], c["P"] / 1e5, label=label)
+        mark_special(right, "critical", 1.0 / c["v"], c["T"], label=label)
+    for curve in curves:  # label the critical points once the axes have their final limits
+        c = curve.special("critical")["values"]
+        left.annotate(curve.component.name, (c["T"], c["P"] / 1e5), textcoords="offset points", xytext=(-8, 4),
+                      fontsize=8, ha="right", annotation_clip=True)
+    left.set_xlabel(axis_label("temperature T", "K"))
+    left.set_ylabel(axis_label("saturation pressure P", "bar"))
+    right.set_xlabel(axis_label("molar density ρ", "mol/m³"))
+    right.set_ylabel(axis_label("temperature T", "K"))
     for ax in (left, right):
         ax.grid(True, alpha=0.3)
         ax.legend(fontsize=8, loc="best")

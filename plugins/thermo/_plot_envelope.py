@@ -10,10 +10,6 @@ from ._caution import CAUTION
 
 __all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope", "smooth_curve"]
 
-_MARKERS = {"critical": ("o", "critical point"), "cricondenbar": ("^", "cricondenbar"),
-            "cricondentherm": (">", "cricondentherm")}
-
-
 def smooth_curve(T: np.ndarray, P: np.ndarray, samples: int = 10):
     """A curve through the points (T, P), drawn smooth: a cubic spline in (ln T, ln P) against chord length.
 
@@ -45,7 +41,7 @@ def plot_envelope(envelope, path):
 
 def draw_envelope(envelope, axes=None):
     """Draw ``envelope`` in the P-T plane (bar against K) on ``axes`` (a new figure if None); returns the axes."""
-    from contin._plot import _pyplot
+    from contin._plot import _pyplot, axis_label, describe_kind, mark_special
 
     plt = _pyplot()
     T = envelope.column("T")
@@ -72,16 +68,16 @@ def draw_envelope(envelope, axes=None):
     for line in envelope.quality_lines:
         axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
     for sp in envelope.special_points:
-        marker, label = _MARKERS.get(sp["kind"], ("x", sp["kind"]))
+        label = describe_kind(sp["kind"])
         t, p = sp["values"]["T"], sp["values"]["P"] / 1e5
-        axes.plot([t], [p], marker, color="tab:red", markersize=8)
+        mark_special(axes, sp["kind"], t, p)
         right = t > 0.5 * (np.nanmin(T) + np.nanmax(T))
         below = sp["kind"] == "cricondenbar"  # the top of the envelope: label it under the marker
         axes.annotate(f"{label}\n{t:.2f} K, {p:.2f} bar", (t, p), textcoords="offset points",
                       xytext=(10, -30) if below else (-10, 6) if right else (8, 6),
                       ha="left" if below else "right" if right else "left", fontsize=8)
-    axes.set_xlabel("temperature T / K")
-    axes.set_ylabel("pressure P / bar")
+    axes.set_xlabel(axis_label("temperature T", "K"))
+    axes.set_ylabel(axis_label("pressure P", "bar"))
     feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
     axes.set_title(f"Phase envelope ({envelope.mixture.family.label})", fontsize=11)
     axes.legend(fontsize=8, loc="upper left")
@@ -102,7 +98,7 @@ def plot_binary(diagram, path):
 
 def draw_binary(diagram, axes=None):
     """Draw a Pxy (bar) or Txy (K) diagram: bubble curve against x1, dew curve against y1; returns the axes."""
-    from contin._plot import _pyplot
+    from contin._plot import _pyplot, axis_label, describe_kind, mark_special
 
     plt = _pyplot()
     rows = np.array(diagram.rows, dtype=float)
@@ -117,11 +113,11 @@ def draw_binary(diagram, axes=None):
     axes.plot(y1, other, "--", color="tab:orange", label="dew curve (vapour y1)")
     for sp in diagram.special_points:
         value = sp["values"]["P"] / 1e5 if pxy else sp["values"]["T"]
-        axes.plot([sp["values"]["x1"]], [value], "o", color="tab:red", markersize=7)
-        axes.annotate(sp["kind"], (sp["values"]["x1"], value), textcoords="offset points", xytext=(6, 6), fontsize=8)
+        axes.set_xlim(0.0, 1.0)
+        mark_special(axes, sp["kind"], sp["values"]["x1"], value, words=describe_kind(sp["kind"]))
     axes.set_xlim(0.0, 1.0)
-    axes.set_xlabel(f"mole fraction of {first}")
-    axes.set_ylabel("pressure P / bar" if pxy else "temperature T / K")
+    axes.set_xlabel(axis_label(f"mole fraction of {first}"))
+    axes.set_ylabel(axis_label("pressure P", "bar") if pxy else axis_label("temperature T", "K"))
     fixed = f"T = {diagram.fixed:.2f} K" if pxy else f"P = {diagram.fixed / 1e5:.4g} bar"
     axes.set_title(f"{first} / {second} at {fixed} ({diagram.mixture.family.label})", fontsize=11)
     axes.legend(fontsize=8)

@@ -30,7 +30,9 @@ def draw_pure(result, figure=None):
     spinodal volumes. The critical point is marked on each panel; the caption gives fluid, model and
     the caution.
     """
-    from contin._plot import _pyplot
+    import numpy as np
+
+    from contin._plot import _pyplot, axis_label, describe_kind, mark_special, smooth_xy
 
     plt = _pyplot()
     if figure is None:
@@ -39,35 +41,38 @@ def draw_pure(result, figure=None):
     critical = next((p["values"] for p in result.special_points if p["kind"] == "critical"), None)
     col = result.column
     if result.kind == "saturation":
-        left.plot(col("T"), col("P") / 1e5, "-", color="tab:blue", label="vapour pressure")
-        right.plot(col("rho_liquid"), col("T"), "-", color="tab:blue", label="saturated liquid")
-        right.plot(col("rho_vapour"), col("T"), "-", color="tab:red", label="saturated vapour")
-        left.set_ylabel("pressure P / bar")
-        right.set_xlabel("molar density rho / (mol/m³)")
+        left.plot(*smooth_xy(col("T"), col("P") / 1e5), "-", color="tab:blue", label="vapour pressure")
+        # One smooth dome through the critical point: saturated liquid up, saturated vapour down.
+        dome_rho = np.concatenate([col("rho_liquid"), col("rho_vapour")[::-1]])
+        dome_T = np.concatenate([col("T"), col("T")[::-1]])
+        right.plot(*smooth_xy(dome_rho, dome_T, log_x=True), "-", color="tab:blue",
+                   label="saturated liquid (right) and vapour (left)")
+        left.set_ylabel(axis_label("pressure P", "bar"))
+        right.set_xlabel(axis_label("molar density ρ", "mol/m³"))
         right.set_xscale("log")
         if len(result.at):
             left.plot(result.at[:, 0], result.at[:, 1] / 1e5, "o", color="tab:green", ms=5, label="requested rows")
         if critical:
-            right.plot([1.0 / critical["v"]], [critical["T"]], "k*", ms=12, label="critical point")
+            mark_special(right, "critical", 1.0 / critical["v"], critical["T"], label=describe_kind("critical"))
     elif result.kind == "spinodal":
         left.plot(col("T"), col("P_liquid_spinodal") / 1e5, "-", color="tab:blue", label="liquid spinodal")
         left.plot(col("T"), col("P_vapour_spinodal") / 1e5, "-", color="tab:red", label="vapour spinodal")
         right.plot(col("v_liquid_spinodal"), col("T"), "-", color="tab:blue", label="liquid spinodal")
         right.plot(col("v_vapour_spinodal"), col("T"), "-", color="tab:red", label="vapour spinodal")
-        left.set_ylabel("pressure P / bar")
-        right.set_xlabel("molar volume v / (m³/mol)")
+        left.set_ylabel(axis_label("pressure P", "bar"))
+        right.set_xlabel(axis_label("molar volume v", "m³/mol"))
         right.set_xscale("log")
         if critical:
-            right.plot([critical["v"]], [critical["T"]], "k*", ms=12, label="critical point")
+            mark_special(right, "critical", critical["v"], critical["T"], label=describe_kind("critical"))
     else:
-        left.plot(col("T"), col("P") / 1e5, "k*", ms=12)
-        right.plot(col("rho"), col("T"), "k*", ms=12)
-        left.set_ylabel("pressure P / bar")
-        right.set_xlabel("molar density rho / (mol/m³)")
+        mark_special(left, "critical", float(col("T")[0]), float(col("P")[0]) / 1e5, label=describe_kind("critical"))
+        mark_special(right, "critical", float(col("rho")[0]), float(col("T")[0]), label=describe_kind("critical"))
+        left.set_ylabel(axis_label("pressure P", "bar"))
+        right.set_xlabel(axis_label("molar density ρ", "mol/m³"))
     if critical:
-        left.plot([critical["T"]], [critical["P"] / 1e5], "k*", ms=12, label="critical point")
-    left.set_xlabel("temperature T / K")
-    right.set_ylabel("temperature T / K")
+        mark_special(left, "critical", critical["T"], critical["P"] / 1e5, label=describe_kind("critical"))
+    left.set_xlabel(axis_label("temperature T", "K"))
+    right.set_ylabel(axis_label("temperature T", "K"))
     for axes in (left, right):
         axes.grid(True, alpha=0.3)
         if axes.get_legend_handles_labels()[0]:
