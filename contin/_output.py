@@ -1,4 +1,4 @@
-"""The JSON document and CSV file layouts shared by every result (DESIGN.md: fixed contract)."""
+"""The JSON document and CSV file layouts shared by every result (a fixed contract: docs/contracts.md)."""
 
 from __future__ import annotations
 
@@ -44,7 +44,7 @@ def json_document(
     stats: Mapping,
     **extra,
 ) -> dict:
-    """The result object of DESIGN.md: status, message, columns, points, special_points, at, stats.
+    """The result object of docs/contracts.md: status, message, columns, points, special_points, at, stats.
 
     Args:
         status: the status label (e.g. ``"bound_reached"``).

@@ -53,7 +53,7 @@ def run_record(branch: Branch, *, input: Mapping, command: Sequence[str] | None 
 
 def document_record(document: Mapping, *, input: Mapping, command: Sequence[str] | None = None,
                     options: Mapping | None = None) -> dict:
-    """A run record around any result document in the JSON layout of DESIGN.md (e.g. a plug-in's).
+    """A run record around any result document in the JSON layout of docs/contracts.md (e.g. a plug-in's).
 
     Args: as for :func:`run_record`, with ``document`` in place of the branch.
     """

@@ -1,4 +1,4 @@
-"""`contin run`: summary, --json (the DESIGN.md object), --out files, examples, errors and plug-ins."""
+"""`contin run`: summary, --json (the object of docs/contracts.md), --out files, examples, errors and plug-ins."""
 
 from __future__ import annotations
 

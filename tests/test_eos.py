@@ -11,7 +11,8 @@ from contin_thermo._eos import FAMILIES, GAS_CONSTANT, critical_constants, famil
 
 
 def test_gas_constant_is_the_2019_si_value():
-    # R = N_A k_B, exact since the 2019 SI redefinition (REFERENCE-VALUES.md).
+    # R = N_A k_B, exact since the 2019 SI redefinition (BIPM, The International System of Units, 9th ed.,
+    # 2019: N_A = 6.02214076e23 /mol and k_B = 1.380649e-23 J/K are defining constants).
     assert GAS_CONSTANT == 8.31446261815324
 
 

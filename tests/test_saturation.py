@@ -25,7 +25,8 @@ def reduced_vdw(tr):
 @pytest.mark.parametrize(
     "tr, pr, vl, vv",
     [
-        # Maxwell construction for van der Waals, reproduced at 30 digits (REFERENCE-VALUES.md).
+        # Maxwell's equal-area construction (Maxwell, Nature 11 (1875) 357) on the reduced van der Waals
+        # equation, solved independently at 30 digits (docs/check-values.md shows how).
         (0.99, 0.9604791, 0.8309141, 1.2429533),
         (0.95, 0.8118792, 0.6841221, 1.7270712),
         (0.90, 0.6469984, 0.6034019, 2.3488424),
@@ -37,8 +38,8 @@ def test_reduced_van_der_waals_coexistence(tr, pr, vl, vv):
 
 
 def test_van_der_waals_acentric_factor():
-    # Van der Waals: reduced Psat at Tr = 0.7 is 0.2004585, so omega = -0.302 (Pitzer's definition;
-    # REFERENCE-VALUES.md).
+    # Van der Waals: reduced Psat at Tr = 0.7 is 0.2004585 (the same 30-digit Maxwell construction), so
+    # omega = -0.302 by Pitzer's definition (Pitzer 1955: omega = -log10(Psat/Pc) - 1 at Tr = 0.7).
     pr, _, _ = reduced_vdw(0.7)
     assert pr == pytest.approx(0.2004585, abs=6e-8)
     assert -math.log10(pr) - 1.0 == pytest.approx(-0.302, abs=5e-4)

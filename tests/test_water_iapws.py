@@ -14,7 +14,8 @@ from contin_thermo._pure import saturation_curve  # noqa: E402
 
 
 def test_if97_saturation_pressure_is_the_published_one():
-    # IAPWS-IF97 verification values (REFERENCE-VALUES.md): Psat(300 K) = 3.53658941e-3 MPa,
+    # Verification values of IAPWS-IF97's saturation-pressure equation (IAPWS release R7-97, the
+    # Industrial Formulation 1997; memory): Psat(300 K) = 3.53658941e-3 MPa,
     # Psat(500 K) = 2.63889776 MPa, Psat(600 K) = 12.3443146 MPa.
     assert iapws97._PSat_T(300.0) == pytest.approx(3.53658941e-3, rel=1e-8)
     assert iapws97._PSat_T(500.0) == pytest.approx(2.63889776, rel=1e-8)

@@ -60,7 +60,7 @@ class BinaryDiagram:
     stats: dict
 
     def to_dict(self) -> dict:
-        """The JSON layout of DESIGN.md with the caution and model."""
+        """The JSON layout of docs/contracts.md with the caution and model."""
         return contin.json_document(self.status, self.message, self.columns, self.rows, self.special_points, [],
                                     self.stats, caution=CAUTION, model=self.mixture.family.label,
                                     components=list(self.mixture.names))

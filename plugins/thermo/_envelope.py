@@ -353,7 +353,7 @@ class Envelope:
         return stretches
 
     def to_dict(self) -> dict:
-        """The JSON layout of DESIGN.md (``contin.json_document``), with the caution and the model."""
+        """The JSON layout of docs/contracts.md (``contin.json_document``), with the caution and the model."""
         extra = {
             "caution": CAUTION,
             "model": f"{self.mixture.family.label}, one-fluid mixing with kij",

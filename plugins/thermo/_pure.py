@@ -644,7 +644,7 @@ class CurveResult:
         raise InputError(f"no special point of kind {kind!r} in this {self.kind} result")
 
     def to_dict(self) -> dict:
-        """The JSON layout of DESIGN.md, with ``caution``, ``fluid`` and ``eos`` keys added."""
+        """The JSON layout of docs/contracts.md, with ``caution``, ``fluid`` and ``eos`` keys added."""
         c = self.component
         return contin.json_document(
             self.status, self.message, self.columns, self.points.tolist(), self.special_points,
