@@ -205,3 +205,13 @@ class Passage:
         if self.crossed and abs(x[self.key]) >= self.crossing.near * (1.0 - 1e-9):
             self.active = False
             self.done = True
+
+    def rearm(self, x: np.ndarray) -> None:
+        """After a passage, allow the next one once the branch is well away from the second family
+        (a branch may meet it again, e.g. at a second critical point)."""
+        if self.done and self.distance(x) > 1.5 * self.crossing.near:
+            self.done = False
+            self.crossed = False
+            self.gap = self.crossing.gap
+            self.ratio = 0.6
+            self.approach = []

@@ -594,6 +594,8 @@ class _Run:
             if passage is not None:
                 passage.advance(x_new)
                 passage.succeeded()
+            elif self.passage is not None:
+                self.passage.rearm(x_new)
             farthest = max(farthest, _length(x_new - x_start))
             if self._closed(x, t, x_new, t_new, x_start, t_start, h, farthest):
                 return

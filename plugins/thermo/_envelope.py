@@ -512,7 +512,8 @@ def _phase_sides(mixture: Mixture, z: np.ndarray, w: np.ndarray, v_feed: np.ndar
     liquid-dense, v < 0.5 Zc b / Omega_b with b its own co-volume (half the critical molar volume of a
     one-component fluid of the cubic: the density of a liquid well below its critical temperature),
     and colder than its pseudo-critical temperature by Kay's rule, sum_i y_i Tc_i (Kay, Ind. Eng.
-    Chem. 28 (1936) 1014). (Telling phases apart by density and pseudo-critical temperature is common
+    Chem. 28 (1936) 1014). Rows of the critical point's passage (every |ln K| <= 0.1) stay
+    vapour-liquid. (Telling phases apart by density and pseudo-critical temperature is common
     practice; the margins keep dense gases and near-critical rows vapour-liquid.)
     """
     count = len(v_feed)
@@ -525,7 +526,9 @@ def _phase_sides(mixture: Mixture, z: np.ndarray, w: np.ndarray, v_feed: np.ndar
     limit = 0.5 * family.z_c / family.omega_b
     composition = np.where(bubble[:, None], w, z[None, :])
     vapour_volume = np.where(bubble, v_incipient, v_feed)
-    liquid = (passed > 0) & (vapour_volume < limit * (composition @ mixture.b)) & (T < composition @ mixture.Tc)
+    near_critical = np.max(np.abs(np.log(w / z[None, :])), axis=1) <= _NEAR_CRITICAL  # the passage's rows
+    liquid = ((passed > 0) & ~near_critical & (vapour_volume < limit * (composition @ mixture.b))
+              & (T < composition @ mixture.Tc))
     sides[liquid] = "liquid-liquid"
     return sides.astype(str)
 
