@@ -128,8 +128,11 @@ def _single(text, kind: str, argument: str):
 
 
 def _fluid(args) -> PureFluid:
-    extra = load_components(args.components_file) if args.components_file else ()
     own = [name for name in ("tc", "pc", "omega") if getattr(args, name) is not None]
+    if args.components_file is not None and own:
+        raise InputError(f"--components-file and --{own[0]} cannot be combined: name a fluid of the file with "
+                         "--fluid, or give your own with --tc, --pc and --omega")
+    extra = load_components(args.components_file) if args.components_file is not None else ()
     if args.fluid is not None and own:
         raise InputError(
             f"--fluid and --{own[0]} cannot be combined: name a fluid from the table with --fluid, or give "

@@ -114,7 +114,16 @@ def build_mixture(args, *, fractions: bool = True):
     from ._eos import family
     from ._mixture import Mixture
 
+    from ._components import load_components
+
     extra = tuple(parse_component(text) for text in (getattr(args, "component", None) or []))
+    for k, component in enumerate(extra):
+        for other in extra[:k]:
+            if component.name == other.name:
+                raise InputError(f"--component {component.name!r} is given twice; give each component once")
+    if getattr(args, "components_file", None):
+        extra += tuple(c for c in load_components(args.components_file)
+                       if not any(c.name == e.name for e in extra))
     components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
                                   fractions=fractions)
     kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
@@ -248,10 +257,24 @@ def run_critical(args) -> int:
     import contin
 
     from ._caution import CAUTION
-    from ._cli_common import check_destinations, write_run_record
+    from ._cli_common import check_destinations, finish, queue, write_run_record
     from ._mixture_critical import critical_point
-    from ._report import summary_lines, write_csv
+    from contin._output import fill_text
 
+    from ._report import csv_text, summary_lines
+    from ._units import convert_rows, output_units
+
+    if getattr(args, "plot", None) is not None:
+        raise InputError("--plot draws curves; a mixture critical point is one point: drop --plot, or use "
+                         "'contin thermo envelope' for a picture")
+    if getattr(args, "fluid", None) is not None:
+        raise InputError("--fluid and --mixture cannot be combined: --fluid names one fluid, --mixture a mixture")
+    own = [f"--{name.replace('_', '-')}" for name in ("tc", "pc", "omega", "from_temperature",
+                                                      "at_temperatures", "at_pressures")
+           if getattr(args, name, None) is not None]
+    if own:
+        raise InputError(f"{own[0]} and --mixture cannot be combined: {own[0]} belongs to one fluid; give extra "
+                         "components of a mixture with --component NAME,Tc,Pc,omega")
     check_destinations(args)
     mixture, z = build_mixture(args)
     point = critical_point(mixture, z)
@@ -259,20 +282,20 @@ def run_critical(args) -> int:
     row = [point.T, float(point.P), point.v]
     special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
                 "info": {"eigenvalue": point.eigenvalue, "cubic_form": point.cubic}}]
-    if getattr(args, "csv", None):
-        write_csv(args.csv, columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, title="mixture critical point",
-                  notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    shown = output_units(getattr(args, "units", "si"))
+    rows, names = convert_rows(columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, shown)
+    text = csv_text(columns, rows, names, title="mixture critical point",
+                    notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    queue(args, "csv", lambda path: fill_text(path, text))
     document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
                                     [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
                                                          "newton_iterations": 0, "jacobian_evaluations": 0},
                                     caution=CAUTION, model=mixture.family.label)
     write_run_record(args, document, _mixture_input(args, mixture, z))
+    finish(args)
     if getattr(args, "json", False):
         print(json.dumps(document))
     else:
-        from ._units import output_units
-
-        shown = output_units(getattr(args, "units", "si"))
         print("\n".join(summary_lines("mixture critical point", [
             ("model", mixture.family.label),
             ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),
