@@ -36,6 +36,7 @@ import keyword
 import math
 import re
 import tomllib
+import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -239,6 +240,13 @@ class _Reader:
                     name, key,
                     f"{name}.{key!r} cannot be used in equations: names are letters, digits and underscores, "
                     "starting with a letter (e.g. T_wall)",
+                )
+            normal = unicodedata.normalize("NFKC", key)
+            if normal != key:
+                raise self.fail(
+                    name, key,
+                    f"{name}.{key!r} changes under Unicode normalisation to {normal!r}, which is how "
+                    f"expressions read it; write it as {normal!r}",
                 )
         return {key: self.number(name, key, value, what) for key, value in table.items()}
 
