@@ -90,7 +90,9 @@ class Parser(argparse.ArgumentParser):
             if found:
                 choices = [c.strip().strip("'") for c in found.group(2).split(",")]
                 hint = suggest(found.group(1), choices)
-        super().error(message + hint)
+        # One line, like every other error (argparse would print the usage block first).
+        chosen = self._chosen()
+        self.exit(2, f"contin: error: {chosen.prog}: {_one_line(message)}{hint} (see '{chosen.prog} --help')\n")
 
 
 EPILOG_RUN = """examples:

@@ -17,7 +17,7 @@ import numpy as np
 from ._errors import InputError
 
 __all__ = ["json_document", "json_ready", "write_text_atomically", "csv_text", "Outputs", "check_target", "check_folder",
-           "describe_os_error", "fill_text", "read_input_text"]
+           "describe_os_error", "describe_value_error", "fill_text", "read_input_text"]
 
 
 def json_ready(value):
@@ -141,6 +141,14 @@ def describe_os_error(error: OSError) -> str:
     reason = error.strerror or str(error) or type(error).__name__
     name = error.filename
     return f"{reason} ({os.fsdecode(name)!r})" if name is not None else reason
+
+
+def describe_value_error(error: Exception) -> str:
+    """A reader's ValueError as one line in the user's terms (not Python's advice on its own limits)."""
+    text = " ".join(str(error).split())
+    if "integer string conversion" in text:
+        return "a number has more than 4300 digits; write it with an exponent (e.g. 1e300)"
+    return text
 
 
 _NAME_MAX = 255

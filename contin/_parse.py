@@ -235,7 +235,9 @@ def parse_expression(
             f"(limits: {MAX_DEPTH} levels, about 2000 terms in one sum); split it with intermediate unknowns"
         ) from None
     except ValueError as error:  # e.g. a literal with too many digits, a null character
-        raise InputError(f"{label}: cannot read the expression: {error}") from None
+        from ._output import describe_value_error
+
+        raise InputError(f"{label}: cannot read the expression: {describe_value_error(error)}") from None
     builder = _Builder(text.strip(), names, _cache_format, _library(library))
     try:
         if not _cache_format:

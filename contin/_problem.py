@@ -147,8 +147,10 @@ def problem_from_text(text: str, path: str | Path, *, backend: str = "auto", lab
         raise InputError(f"{shown}: not valid TOML: the text holds a NUL character")
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        raise InputError(f"{shown}: not valid TOML: {error}") from None
+    except (tomllib.TOMLDecodeError, ValueError) as error:
+        from ._output import describe_value_error
+
+        raise InputError(f"{shown}: not valid TOML: {describe_value_error(error)}") from None
     except RecursionError:
         raise InputError(f"{shown}: not valid TOML: nested too deeply") from None
     return _Reader(path, text, data, backend, shown).problem()

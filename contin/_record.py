@@ -15,7 +15,7 @@ import numpy as np
 
 from ._branch import Branch
 from ._errors import InputError
-from ._output import json_ready, read_input_text, write_text_atomically
+from ._output import describe_value_error, json_ready, read_input_text, write_text_atomically
 from ._system import System
 
 __all__ = ["RECORD_VERSION", "document_record", "run_record", "write_record", "read_record", "restart", "restart_start",
@@ -93,7 +93,7 @@ def read_record(path: str | os.PathLike) -> dict:
     try:
         record = json.loads(text, parse_constant=_refuse_constant)
     except (json.JSONDecodeError, ValueError, RecursionError) as error:
-        reason = _one_line(str(error)) if not isinstance(error, RecursionError) else "nested too deeply"
+        reason = describe_value_error(error) if not isinstance(error, RecursionError) else "nested too deeply"
         raise InputError(f"run record {label!r} is not readable JSON: {reason}") from None
     if not isinstance(record, dict) or record.get("record") != _KIND:
         raise InputError(f"{label!r} is not a contin run record (write one with --record FILE)")
@@ -122,10 +122,6 @@ _MAX_NAME_BYTES = 255
 
 def _refuse_constant(word: str):
     raise ValueError(f"{word} is not JSON (contin writes non-finite values as null)")
-
-
-def _one_line(text: str) -> str:
-    return " ".join(text.split())
 
 
 def _is_number(value) -> bool:
