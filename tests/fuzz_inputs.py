@@ -57,7 +57,26 @@ def _combine(children):
     return st.one_of(binary, call, children.map(lambda c: f"-{c}"))
 
 
+_BENIGN_ATOMS = st.sampled_from(["u", "p", "q", "c", "1", "2.5", "0.5", "pi", "E"])
+
+
+def _benign(children):
+    binary = st.tuples(children, st.sampled_from(["+", "-", "*"]), children).map(lambda t: f"({t[0]} {t[1]} {t[2]})")
+    call = st.tuples(st.sampled_from(["exp", "sin", "cos", "tanh", "abs", "atan"]), children).map(
+        lambda t: f"{t[0]}({t[1]})")
+    return st.one_of(binary, call)
+
+
+#: Expressions of declared names that parse; the equation then is u**3 - c*u + p + 0.01*(this).
+BENIGN = st.recursive(_BENIGN_ATOMS, _benign, max_leaves=5).map(lambda e: f"u**3 - c*u + p + 0.01*({e})")
+
+_COMPLEX = st.sampled_from(["sqrt(-1)", "log(-1)", "(-2)**0.5", "acos(2)", "asin(-3)", "acosh(0)", "atanh(2)",
+                            "log(-2)**2", "sqrt(-4)*0", "exp(1000)", "atanh(1)", "(-8)**(1/3)"])
+
 EXPRESSION = st.one_of(
+    BENIGN,
+    _COMPLEX.map(lambda constant: f"u**3 - c*u + p + 0.01*max(u, {constant})"),
+    _COMPLEX.map(lambda constant: f"u**3 - c*u + p - {constant}"),
     st.recursive(_ATOMS, _combine, max_leaves=8),
     st.integers(2, 120).map(lambda n: "max(" + ", ".join(f"u*{k} + p" for k in range(n)) + ")"),
     st.integers(2, 300).map(lambda n: "*".join(f"(u + {k}*p)" for k in range(n))),
@@ -101,38 +120,67 @@ def toml_text(problem: dict) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _edited(**changes):
+    """The base problem with ``changes`` applied: section -> {key: value} (merged) or a top-level value."""
+    problem = json.loads(json.dumps(BASE_PROBLEM))
+    for key, value in changes.items():
+        if isinstance(value, dict) and isinstance(problem.get(key), dict):
+            problem[key].update(value)
+        else:
+            problem[key] = value
+    return problem
+
+
+_EQUATION = "u**3 - c*u + p"
+_NAMES = st.sampled_from(["k", "\uff4b", "\u212a", "x\u0301", "exp", "pi", "lambda", "_", "k2", "u", "p"])
+_SECTIONS = st.sampled_from(["unknowns", "parameters", "constants"])
+_TRACE_KEYS = st.sampled_from(["free", "direction", "bounds", "max_points", "step", "min_step", "max_step",
+                               "tolerance", "at", "folds", "detect", "corrector", "stepp"])
+
+
+def _short(value):
+    """Keep generated runs short: a whole max_points is capped (its type is what is under test)."""
+    return min(value, 200) if isinstance(value, int) and not isinstance(value, bool) else value
+
+
+def _garble(text_and_cut):
+    text, cut, piece = text_and_cut
+    cut = cut % (len(text) + 1)
+    return text[:cut] + piece + text[cut:]
+
+
+#: One kind of mistake per problem file, each kind equally likely, so that every check is reached.
+PROBLEM_EDITS = [
+    BENIGN.map(lambda e: _edited(equations={"balance": e})),  # valid
+    _COMPLEX.map(lambda c: _edited(equations={"balance": f"{_EQUATION} + 0.01*max(u, {c})"})),
+    _COMPLEX.map(lambda c: _edited(events=[{"name": "e", "expression": f"u - {c}"}])),
+    st.integers(2, 120).map(lambda n: _edited(equations={"balance": _EQUATION + " + 0.01*max(" + ", ".join(
+        f"u*{k} + p" for k in range(n)) + ")"})),
+    st.integers(2, 400).map(lambda n: _edited(equations={"balance": _EQUATION + " + 1e-9*" + "*".join(
+        f"(u + {k}*p)" for k in range(n))})),
+    st.integers(2, 30).map(lambda n: _edited(equations={"balance": _EQUATION + " - 1e-9*" + "**".join(
+        ["(u + p)"] * n)})),
+    st.recursive(_ATOMS, _combine, max_leaves=8).map(lambda e: _edited(equations={"balance": f"{_EQUATION} + {e}"})),
+    st.tuples(_NAMES, _SECTIONS, _NUMBER, st.booleans()).map(lambda t: _edited(
+        **{t[1]: {t[0]: t[2]}}, equations={"balance": f"{_EQUATION} + 0.01*{t[0] if t[3] else 'k'}"})),
+    st.tuples(_SECTIONS, st.sampled_from(["u", "p", "q", "c"]), VALUE).map(lambda t: _edited(**{t[0]: {t[1]: t[2]}})),
+    st.tuples(_TRACE_KEYS, st.one_of(VALUE, st.sampled_from([{"p": [-1.0, 1.0]}, {"u": [0.1]}, ["fold"], ["u"],
+                                                             {"q": [0, 1]}, {"p": [1.0, -1.0]}]))).map(
+        lambda t: _edited(trace={t[0]: _short(t[1])})),
+    st.tuples(st.sampled_from(["name", "expression", "terminal", "direction", "extra"]), VALUE).map(
+        lambda t: _edited(events=[{"name": "e", "expression": "u", **{t[0]: t[1]}}])),
+    st.tuples(st.sampled_from(["kind", "events", "unknowns", "equations", "trace", "extra"]), VALUE).map(
+        lambda t: _edited(**{t[0]: t[1]})),
+]
+
+
 @st.composite
 def problem_files(draw) -> str:
-    """TOML text: the base problem with a few sections, keys or values edited (or text garbled)."""
-    problem = json.loads(json.dumps(BASE_PROBLEM))
-    for _ in range(draw(st.integers(1, 3))):
-        section = draw(st.sampled_from(["unknowns", "parameters", "constants", "equations", "trace", "events",
-                                        "kind", "top"]))
-        if section == "equations":
-            problem["equations"][draw(st.sampled_from(["balance", "extra"]))] = draw(EXPRESSION)
-        elif section == "events":
-            problem["events"] = [{"name": draw(st.sampled_from(["e", "e", "", "f"])), "expression": draw(EXPRESSION),
-                                  "terminal": draw(st.one_of(st.booleans(), _SCALAR)),
-                                  "direction": draw(st.sampled_from([0, 1, -1, 2, True, "x"]))}
-                                 for _ in range(draw(st.integers(1, 2)))]
-        elif section == "kind":
-            problem["kind"] = draw(st.sampled_from(["algebraic", "ode", "odee", 1, True]))
-        elif section == "top":
-            problem[draw(_TEXT)] = draw(VALUE)
-        elif section == "trace":
-            key = draw(st.sampled_from(["free", "direction", "bounds", "max_points", "step", "min_step", "max_step",
-                                        "tolerance", "at", "folds", "detect", "corrector", "stepp"]))
-            value = draw(st.one_of(VALUE, st.sampled_from([{"p": [-1.0, 1.0]}, {"u": [0.1]}, ["fold"], ["u"]])))
-            if key == "max_points" and isinstance(value, int) and not isinstance(value, bool):
-                value = min(value, 200)  # keep each run short; the type is what is under test
-            problem["trace"][key] = value
-        else:
-            name = draw(st.one_of(st.sampled_from(["u", "p", "q", "c", "v"]), _TEXT))
-            problem[section][name] = draw(st.one_of(_NUMBER, VALUE))
-    text = toml_text(problem)
-    if draw(st.integers(0, 9)) == 0:
-        cut = draw(st.integers(0, len(text)))
-        text = text[:cut] + draw(st.sampled_from(["\0", "\ufeff", "[", "\"", "\udcff", "= =", "\r"])) + text[cut:]
+    """TOML text: the base problem with one kind of edit (or, now and then, garbled text)."""
+    text = toml_text(draw(st.one_of(*PROBLEM_EDITS)))
+    if draw(st.integers(0, 11)) == 0:
+        text = _garble((text, draw(st.integers(0, 10**6)), draw(st.sampled_from(
+            ["\0", "\ufeff", "[", "\"", "\udcff", "= =", "\r", "\n[[events]]\n"]))))
     return text
 
 
@@ -162,9 +210,44 @@ _FLAGS = ["--json", "--quiet", "--normalise"]
 _COMMANDS = ["saturation", "spinodal", "critical", "components", "envelope", "pxy", "txy", ""]
 
 
+_VALID = {
+    "saturation": ["--fluid", "propane", "--eos", "pr"],
+    "spinodal": ["--fluid", "n-butane", "--eos", "srk"],
+    "critical": ["--fluid", "ethane", "--eos", "pr"],
+    "critical-mixture": ["--mixture", "methane=0.7,ethane=0.3", "--eos", "srk"],
+    "components": [],
+    "envelope": ["--mixture", "methane=0.8,ethane=0.2", "--eos", "pr"],
+    "pxy": ["--mixture", "propane,n-butane", "--temperature", "300", "--eos", "pr"],
+    "txy": ["--mixture", "propane,n-butane", "--pressure", "5 bar", "--eos", "pr"],
+}
+
+
+_PURE_OPTIONS = ["--fluid", "--tc", "--pc", "--omega", "--name", "--eos", "--from-temperature", "--at-temperatures",
+                 "--units"]
+_BINARY_OPTIONS = ["--mixture", "--kij", "--component", "--eos", "--units"]
+_ACCEPTED = {
+    "saturation": [*_PURE_OPTIONS, "--at-pressures"], "spinodal": _PURE_OPTIONS,
+    "critical": [*_PURE_OPTIONS, "--mixture", "--kij", "--component"], "components": ["--units"],
+    "envelope": [*_BINARY_OPTIONS, "--from-pressure", "--quality"],
+    "pxy": [*_BINARY_OPTIONS, "--temperature"], "txy": [*_BINARY_OPTIONS, "--pressure"],
+}
+
+
 @st.composite
 def thermo_words(draw) -> list[str]:
-    """A ``contin thermo ...`` command line (without outputs; see :func:`with_outputs`)."""
+    """A ``contin thermo ...`` command line (outputs are added by :func:`try_thermo`)."""
+    if draw(st.integers(0, 3)) > 0:  # a valid command line with a value replaced or an option added
+        name = draw(st.sampled_from(sorted(_VALID)))
+        words = ["thermo", name.split("-")[0], *_VALID[name]]
+        accepted = _ACCEPTED[name.split("-")[0]]
+        for _ in range(draw(st.sampled_from([0, 1, 1, 2]))):
+            option = draw(st.sampled_from(accepted))
+            value = draw(_OPTIONS[option])
+            if option in words:
+                words[words.index(option) + 1] = value
+            else:
+                words += [option, value]
+        return words
     command = draw(st.sampled_from(_COMMANDS))
     words = ["thermo"] + ([command] if command else [])
     for option in draw(st.lists(st.sampled_from(sorted(_OPTIONS)), max_size=5)):
@@ -181,9 +264,14 @@ _RECORD_FIELDS = [("input",), ("input", "name"), ("input", "text"), ("input", "k
                   ("options",), ("dependencies",)]
 
 
+_MILD = st.sampled_from([0.5, -0.5, 1, 0, 1e-8, 2.0, "latch.toml", "b.toml", ["u", "p"], [0.1, 0.2], None])
+
+
 @st.composite
 def record_edits(draw) -> list[tuple[tuple, object]]:
-    """A few (field path, new value) edits of a good run record."""
+    """A few (field path, new value) edits of a good run record (none, mild or hostile)."""
+    if draw(st.booleans()):
+        return draw(st.lists(st.tuples(st.sampled_from(_RECORD_FIELDS[1:]), _MILD), max_size=1))
     return draw(st.lists(st.tuples(st.sampled_from(_RECORD_FIELDS), st.one_of(VALUE, _TEXT, st.sampled_from(
         [["u", "p"], ["p"], [[1.0, 2.0]], [[1.0, True]], [[1.0]], "problem.toml"]))), min_size=1, max_size=3))
 
@@ -210,10 +298,15 @@ def _alarm(signum, frame):
     raise Hang
 
 
-def run_cli(words: list[str], seconds: float = 60.0) -> tuple[int | None, str, str, str | None]:
-    """(status, stdout, stderr, traceback text or None) of ``contin WORDS`` run in this process."""
+def run_cli(words: list[str], seconds: float | None = None) -> tuple[int | None, str, str, str | None]:
+    """(status, stdout, stderr, traceback text or None) of ``contin WORDS`` run in this process.
+
+    A run taking more than ``seconds`` (default: CONTIN_FUZZ_SECONDS, else 60) counts as a hang.
+    """
     from contin._cli import main
 
+    if seconds is None:
+        seconds = float(os.environ.get("CONTIN_FUZZ_SECONDS", "60"))
     out, err = io.StringIO(), io.StringIO()
     previous = signal.signal(signal.SIGALRM, _alarm)
     signal.setitimer(signal.ITIMER_REAL, seconds)
@@ -238,9 +331,14 @@ def files_under(root: Path) -> set[str]:
     return {str(p.relative_to(root)) for p in root.rglob("*")}
 
 
+#: Exit status of the last run judged by :func:`law` (for the figures of benchmarks/fuzz.py).
+last_status: list = [None]
+
+
 def law(outcome, root: Path, before: set[str], targets: set[str], folders: set[str] = frozenset()) -> str | None:
     """None if the run obeyed the law, else what went wrong (one line)."""
     code, out, err, crash = outcome
+    last_status[0] = code
     if crash is not None:
         return f"crash: {crash.splitlines()[-1][:200]}"
     if "Traceback" in err or "Traceback" in out:
@@ -292,9 +390,11 @@ def try_thermo(words: list[str], root: Path) -> str | None:
     case = root / "case"
     case.mkdir()
     before = files_under(root)
-    full = [*words, "--csv", str(case / "c.csv"), "--record", str(case / "r.json")]
-    if "--quiet" not in full:
-        full.append("--quiet")
+    full = list(words)
+    if words[1:2] != ["components"]:  # the one command with no outputs
+        full += ["--csv", str(case / "c.csv"), "--record", str(case / "r.json")]
+        if "--quiet" not in full:
+            full.append("--quiet")
     verdict = law(run_cli(full), root, before, {"case/c.csv", "case/r.json"})
     _clear(case)
     return verdict
