@@ -229,6 +229,19 @@ def _check_folder_of(resolved: Path, text: str, option: str, *, create: bool = F
         raise InputError(f"{option} {text!r}: {str(folder)!r} is a file, not a folder")
     if not os.access(folder, os.W_OK | os.X_OK):
         raise InputError(f"{option} {text!r}: the folder {str(folder)!r} is not writable")
+    _probe(folder, text, option)
+
+
+def _probe(folder: Path, text: str, option: str) -> None:
+    """Create and remove a temporary file in ``folder``: a read-only or special file system fails now,
+    before any work, rather than at the end (permission bits alone do not tell, e.g. for root)."""
+    try:
+        handle, probe = _temporary_beside(folder / "probe")
+        os.close(handle)
+        os.unlink(probe)
+    except OSError as error:
+        raise InputError(f"{option} {text!r}: cannot create files in the folder {str(folder)!r}: "
+                         f"{error.strerror or error}") from None
 
 
 def check_target(value: str | os.PathLike, option: str, made: Iterable[Path] = ()) -> Path:
@@ -287,6 +300,7 @@ def check_folder(value: str | os.PathLike, option: str) -> Path:
         raise InputError(f"{option} {text!r} exists and is not a folder; give a folder to write into")
     if not os.access(resolved, os.W_OK | os.X_OK):
         raise InputError(f"{option} {text!r}: the folder is not writable")
+    _probe(resolved, text, option)
     return resolved
 
 

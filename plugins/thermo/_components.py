@@ -230,10 +230,10 @@ def load_components(path: str | Path) -> tuple[Component, ...]:
 
     path = Path(path)
     suffix = path.suffix.lower()
-    if suffix not in (".csv", ".toml") and not path.is_dir():
-        raise InputError(f"component file {path.name!r} must end in .csv or .toml (got {suffix or 'no suffix'!r})")
     text = read_input_text(path, f"component file {str(path)!r}", 16 * 2**20,
                            missing="does not exist; give the path of a .csv or .toml file")
+    if suffix not in (".csv", ".toml"):
+        raise InputError(f"component file {path.name!r} must end in .csv or .toml (got {suffix or 'no suffix'!r})")
     if "\0" in text:
         raise InputError(f"component file {str(path)!r} holds NUL characters; is it a binary file?")
     if suffix == ".csv":
