@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 import tomllib
 import warnings
 from dataclasses import dataclass
