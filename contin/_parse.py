@@ -254,15 +254,17 @@ def parse_expression(
     return result
 
 
-def _factor_count(node: ast.AST) -> int:
+def _factor_count(node: ast.AST, seen: set[int]) -> int:
     """Factors with a name in them of a product as sympy flattens it (through parentheses and unary
-    signs); numbers merge into one coefficient and do not count."""
+    signs); numbers merge into one coefficient and do not count. The product's own nodes go into
+    ``seen`` (a product inside a call in it is a product of its own)."""
     count, stack = 0, [node]
     while stack:
         current = stack.pop()
         if isinstance(current, ast.UnaryOp) and isinstance(current.op, (ast.USub, ast.UAdd)):
             stack.append(current.operand)
         elif isinstance(current, ast.BinOp) and isinstance(current.op, (ast.Mult, ast.Div)):
+            seen.add(id(current))
             stack += [current.left, current.right]
         elif _has_name(current):
             count += 1
@@ -299,10 +301,7 @@ def _check_size(root: ast.AST) -> None:
     seen_products: set[int] = set()
     for node in ast.walk(root):
         if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Mult, ast.Div)) and id(node) not in seen_products:
-            for inner in ast.walk(node):  # count each product once, at its outermost node
-                if isinstance(inner, ast.BinOp) and isinstance(inner.op, (ast.Mult, ast.Div)):
-                    seen_products.add(id(inner))
-            factors = _factor_count(node)
+            factors = _factor_count(node, seen_products)  # each product counted once, at its outermost node
             if factors > MAX_FACTORS:
                 raise _Refused(f"one product has {factors} factors; the limit is {MAX_FACTORS} (its derivative "
                                "would be too large): split it with intermediate unknowns or constants", node)

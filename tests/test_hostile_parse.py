@@ -105,6 +105,7 @@ def test_names_that_change_under_normalisation_are_refused(tmp_path, capsys):
     ("*".join(f"(x + {k}*p)" for k in range(1999)), f"one product has 1999 factors; the limit is {MAX_FACTORS}"),
     ("x - (" + " * ".join(["(x + p)"] * 60) + ") * (" + " / ".join(["(x - p)"] * 60) + ")",
      "one product has 120 factors"),
+    ("x*exp(" + "*".join(f"(x + {k}*p)" for k in range(300)) + ")", "one product has 300 factors"),
     ("x - " + "**".join(["(x + p)"] * 12), f"a chain of 12 powers (a**b**c...); the limit is {MAX_POWER_CHAIN}"),
 ])
 def test_shapes_whose_derivatives_explode_are_refused_before_symbolic_work(tmp_path, capsys, equation, message):
