@@ -350,9 +350,14 @@ class Outputs:
         self._pending.append((option, path, write))
 
     def commit(self) -> list[Path]:
-        """Write every queued file to a temporary name, then rename them all onto their targets."""
+        """Write every queued file to a temporary name, then rename them all onto their targets.
+
+        If a rename fails, the targets already renamed get their old content back (kept as hard
+        links until the end) or, if they were new, are removed.
+        """
         made: list[Path] = []
         staged: list[tuple[Path, Path]] = []
+        renamed: list[tuple[Path, Path | None]] = []
         done = False
         option = ""
         try:
@@ -364,20 +369,47 @@ class Outputs:
                 staged.append((temporary, path))
                 write(temporary)
             for (temporary, path), (option, _, _) in zip(staged, self._pending):
+                renamed.append((path, _keep_old(path)))
                 os.replace(temporary, path)
             done = True
         except OSError as error:
             raise InputError(f"{option}: cannot write the file: {describe_os_error(error)}") from None
         finally:
             if not done:
+                for path, old in reversed(renamed):
+                    with contextlib.suppress(OSError):
+                        if old is not None:
+                            os.replace(old, path)
+                        else:
+                            os.unlink(path)
                 for temporary, _ in staged:
                     with contextlib.suppress(OSError):
                         os.unlink(temporary)
                 for folder in reversed(made):
                     with contextlib.suppress(OSError):
                         folder.rmdir()
+            for _, old in renamed:
+                if old is not None:
+                    with contextlib.suppress(OSError):
+                        os.unlink(old)
         self._pending.clear()
         return [path for _, path in staged]
+
+
+def _keep_old(path: Path) -> Path | None:
+    """A hard link to the file now at ``path`` (to restore it if a later rename fails), or None."""
+    if not path.is_file():
+        return None
+    for _ in range(100):
+        candidate = path.parent / f".contin-{secrets.token_hex(6)}.old"
+        try:
+            os.link(path, candidate)
+            return candidate
+        except FileExistsError:
+            continue
+        except OSError:  # a file system without hard links: no way back, as before
+            return None
+    return None
 
 
 def _make_folders(folder: Path) -> list[Path]:

@@ -86,6 +86,28 @@ def test_a_write_that_fails_late_leaves_nothing_of_the_run(tmp_path, capsys, pro
     assert ".contin-" in err  # the temporary name, which is gone again (snapshot unchanged)
 
 
+def test_a_rename_that_fails_late_restores_the_earlier_targets(tmp_path, capsys, problem, monkeypatch):
+    (tmp_path / "r.json").write_text("the old record")
+    real = os.replace
+    calls = []
+
+    def failing_second(source, target):
+        calls.append(target)
+        if str(target).endswith("p.png"):  # the last of the three renames
+            raise OSError(errno.EIO, "Input/output error", str(target))
+        return real(source, target)
+
+    monkeypatch.setattr(os, "replace", failing_second)
+    refused_words = ["run", str(problem), "--quiet", "--out", str(tmp_path / "o"), "--record", str(tmp_path / "r.json"),
+                     "--plot", str(tmp_path / "p.png")]
+    code, _, err = run(capsys, *refused_words)
+    monkeypatch.setattr(os, "replace", real)
+    assert code == 2 and err.count("\n") == 1 and "--plot: cannot write the file: Input/output error" in err
+    assert any(str(target).endswith("hinge.csv") for target in calls)  # earlier renames did happen ...
+    assert (tmp_path / "r.json").read_text() == "the old record"  # ... and were undone
+    assert snapshot(tmp_path) == ["hinge.toml", "r.json"]
+
+
 @pytest.mark.parametrize("mask", [0o022, 0o077])
 def test_every_output_gets_the_same_mode_from_the_umask(tmp_path, capsys, problem, mask):
     old = os.umask(mask)
