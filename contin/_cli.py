@@ -13,7 +13,7 @@ import contextlib
 import json
 import os
 import sys
-import tempfile
+import warnings
 from collections.abc import Sequence
 from importlib import metadata, resources
 from pathlib import Path
@@ -90,7 +90,9 @@ class Parser(argparse.ArgumentParser):
             if found:
                 choices = [c.strip().strip("'") for c in found.group(2).split(",")]
                 hint = suggest(found.group(1), choices)
-        super().error(message + hint)
+        # One line, like every other error (argparse would print the usage block first).
+        chosen = self._chosen()
+        self.exit(2, f"contin: error: {chosen.prog}: {_one_line(message)}{hint} (see '{chosen.prog} --help')\n")
 
 
 EPILOG_RUN = """examples:
@@ -185,13 +187,32 @@ def _main(argv, stdout, stderr) -> int:
         if handler is None:
             parser.print_help(stdout)
             return 2
-        return int(handler(namespace) or 0)
+        with warnings.catch_warnings():
+            warnings.simplefilter("default")
+            warnings.showwarning = _warning_printer(stderr)
+            return int(handler(namespace) or 0)
     except (InputError, ContinError) as error:
         print(f"contin: error: {_one_line(str(error))}", file=stderr)
+        return 2
+    except OSError as error:  # a file the command reads or writes: the system's reason, in one line
+        from ._output import describe_os_error
+
+        print(f"contin: error: {_one_line(describe_os_error(error))}", file=stderr)
+        return 2
+    except (RecursionError, MemoryError):
+        print("contin: error: the input is too large or too deeply nested to handle", file=stderr)
         return 2
     except KeyboardInterrupt:
         print("contin: interrupted", file=stderr)
         return 130
+
+
+def _warning_printer(stderr):
+    """Warnings as one ``contin: warning:`` line each, without the file and line of the code that warned."""
+    def show(message, category, filename, lineno, file=None, line=None):
+        print(f"contin: warning: {_one_line(str(message))}", file=stderr)
+
+    return show
 
 
 def _one_line(message: str) -> str:
@@ -210,17 +231,8 @@ def _axes(text: str | None, columns: Sequence[str]) -> tuple[str | None, str | N
     return parts[0], parts[1]
 
 
-def _check_outputs(namespace: argparse.Namespace) -> None:
-    """Refuse unwritable destinations before any work is done."""
-    if namespace.out is not None and Path(namespace.out).exists() and not Path(namespace.out).is_dir():
-        raise InputError(f"--out {namespace.out!r} exists and is not a folder; give a folder to write into")
-    out = Path(namespace.out).resolve() if namespace.out is not None else None
-    for option, value in (("--plot", namespace.plot), ("--record", namespace.record)):
-        if value is None:
-            continue
-        folder = Path(value).resolve().parent
-        if not folder.is_dir() and folder != out:  # the --out folder is made before anything is written
-            raise InputError(f"{option} {value!r}: the folder {str(Path(value).parent)!r} does not exist")
+def _check_options(namespace: argparse.Namespace) -> None:
+    """Refuse options that do not go together, before any work is done."""
     if namespace.plot is not None and Path(namespace.plot).suffix.lower() not in (".png", ".svg", ".pdf"):
         raise InputError(f"--plot {namespace.plot!r} must end in .png, .svg or .pdf")
     if namespace.axes is not None and namespace.plot is None:
@@ -233,10 +245,26 @@ def _check_outputs(namespace: argparse.Namespace) -> None:
         raise InputError("--from RECORD needs --restart-at INDEX (the point to continue from)")
 
 
+def _check_outputs(namespace: argparse.Namespace, name: str) -> tuple:
+    """Every destination checked before any work: (Outputs, csv path, json path, plot path, record path)."""
+    from ._output import Outputs
+
+    outputs = Outputs()
+    csv_path = json_path = None
+    if namespace.out is not None:
+        folder = outputs.folder("--out", namespace.out)
+        csv_path = outputs.inside("--out", folder, f"{name}.csv")
+        json_path = outputs.inside("--out", folder, f"{name}.json")
+    plot = outputs.target("--plot", namespace.plot) if namespace.plot is not None else None
+    record = outputs.target("--record", namespace.record) if namespace.record is not None else None
+    return outputs, csv_path, json_path, plot, record
+
+
 def _run(namespace: argparse.Namespace) -> int:
-    from ._problem import load_problem, run_problem
+    from ._output import fill_text
+    from ._problem import load_problem, problem_from_text, run_problem
     from ._progress import Progress
-    from ._record import read_record, restart, run_record, write_record
+    from ._record import check_problem_record, check_record_matches, read_record, restart, run_record
 
     if namespace.list_examples:
         for name in example_names():
@@ -244,27 +272,34 @@ def _run(namespace: argparse.Namespace) -> int:
         return 0
     if namespace.example is None and namespace.problem is None and namespace.record_in is None:
         raise InputError("contin run needs a problem file, --example NAME, --from RECORD or --list-examples")
-    _check_outputs(namespace)
+    _check_options(namespace)
     with contextlib.ExitStack() as stack:
         record_in = None
         if namespace.record_in is not None:
             record_in = read_record(namespace.record_in)
-            given = record_in.get("input", {})
-            if given.get("kind") != "problem_file" or not isinstance(given.get("text"), str):
-                raise InputError(f"--from {namespace.record_in!r}: the record was not written by 'contin run' "
-                                 "(it holds no problem file to restart)")
-            folder = Path(stack.enter_context(tempfile.TemporaryDirectory(prefix="contin-restart-")))
-            path = folder / given.get("name", "problem.toml")
-            path.write_text(given["text"], encoding="utf-8")
-            name = f"{path.stem}-restart"
-        elif namespace.example is not None:
-            path = stack.enter_context(example_path(namespace.example))
-            name = namespace.example
+            given = check_problem_record(record_in, namespace.record_in)
+            # The record's file name is a label only: nothing is ever written under it.
+            file_name = given.get("name", "problem.toml")
+            text = given["text"]
+            name = f"{Path(file_name).stem}-restart"
+            outputs, *targets = _check_outputs(namespace, name)
+            problem = problem_from_text(text, file_name, backend=namespace.backend,
+                                        label=f"run record {namespace.record_in!r}: input.text ({file_name})")
+            check_record_matches(record_in, namespace.record_in, problem.system.unknowns, problem.system.parameters)
+            if namespace.free is not None and namespace.free not in problem.system.parameters:
+                raise InputError(f"--free {namespace.free!r} is not a parameter of the problem "
+                                 f"({', '.join(problem.system.parameters)}){suggest(namespace.free, problem.system.parameters)}")
         else:
-            path = Path(namespace.problem)
-            name = path.stem
-        problem = load_problem(path, backend=namespace.backend)
-        text = path.read_text(encoding="utf-8")
+            if namespace.example is not None:
+                path = stack.enter_context(example_path(namespace.example))
+                name = namespace.example
+            else:
+                path = Path(namespace.problem)
+                name = path.stem
+            outputs, *targets = _check_outputs(namespace, name)
+            problem = load_problem(path, backend=namespace.backend)
+            text = _read_text(path)
+            file_name = path.name
         columns = tuple(problem.system.unknowns) + (problem.options.get("free", ""),)
         x_axis, y_axis = _axes(namespace.axes, columns)
         progress = Progress(columns, quiet=namespace.quiet or namespace.json, label=name)
@@ -278,25 +313,30 @@ def _run(namespace: argparse.Namespace) -> int:
                 branch = run_problem(problem, on_point=progress)
         finally:
             progress.close()
+    csv_path, json_path, plot_path, record_path = targets
     document = branch.to_dict()
-    if namespace.out is not None:
-        _write_outputs(Path(namespace.out), name, branch.to_csv(), json.dumps(document, indent=1) + "\n")
-    if namespace.record is not None:
-        command = getattr(namespace, "argv", None)
+    if csv_path is not None:
+        csv_text = branch.to_csv()
+        json_text = json.dumps(document, indent=1) + "\n"
+        outputs.add("--out", csv_path, lambda target: fill_text(target, csv_text))
+        outputs.add("--out", json_path, lambda target: fill_text(target, json_text))
+    if record_path is not None:
         from dataclasses import asdict
 
         from ._options import TraceOptions
 
         effective = {**asdict(TraceOptions()), **{k: v for k, v in problem.options.items() if k != "at"}}
-        record = run_record(branch, input={"kind": "problem_file", "name": path.name, "text": text},
-                            command=command, options=effective)
-        write_record(namespace.record, record)
-    if namespace.plot is not None:
+        record = run_record(branch, input={"kind": "problem_file", "name": file_name, "text": text},
+                            command=getattr(namespace, "argv", None), options=effective)
+        record_text = json.dumps(record, indent=1) + "\n"
+        outputs.add("--record", record_path, lambda target: fill_text(target, record_text))
+    if plot_path is not None:
         from ._plot import _pyplot, plot_branch, save_figure
 
         _pyplot(headless=True)
         ax = plot_branch(branch, x_axis, y_axis, caption=f"{name}: {branch.message}")
-        save_figure(ax.figure, namespace.plot)
+        outputs.add("--plot", plot_path, lambda target: save_figure(ax.figure, target))
+    outputs.commit()
     if namespace.json:
         print(json.dumps(document))
     else:
@@ -304,27 +344,11 @@ def _run(namespace: argparse.Namespace) -> int:
     return 0 if branch.status.success else 1
 
 
-def _write_outputs(folder: Path, name: str, csv_text: str, json_text: str) -> None:
-    """Write NAME.csv and NAME.json into ``folder``: both or neither (temporary files, then renames)."""
+def _read_text(path: Path) -> str:
     try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError as error:
-        raise InputError(f"--out {str(folder)!r}: cannot create the folder: {error}") from None
-    written: list[tuple[str, Path]] = []
-    try:
-        for suffix, text in ((".csv", csv_text), (".json", json_text)):
-            handle, temporary = tempfile.mkstemp(prefix=f".{name}-", suffix=suffix + ".tmp", dir=folder)
-            written.append((temporary, folder / f"{name}{suffix}"))
-            with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
-                stream.write(text)
-        for temporary, final in written:
-            os.replace(temporary, final)
-    except OSError as error:
-        raise InputError(f"--out {str(folder)!r}: cannot write the results: {error}") from None
-    finally:
-        for temporary, _ in written:
-            with contextlib.suppress(FileNotFoundError):
-                os.unlink(temporary)
+        return path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as error:
+        raise InputError(f"{path}: cannot read the problem file: {error}") from None
 
 
 def _format_values(values: dict, limit: int = 6) -> str:

@@ -27,6 +27,9 @@ __all__ = [
     "MAX_DEPTH",
     "MAX_POWER_BITS",
     "MAX_EXPONENT",
+    "MAX_MINMAX_ARGUMENTS",
+    "MAX_FACTORS",
+    "MAX_POWER_CHAIN",
     "parse_expression",
 ]
 
@@ -38,6 +41,15 @@ MAX_DEPTH = 100
 MAX_POWER_BITS = 10_000
 #: Largest integer exponent (numerator of a rational exponent) of a symbolic base.
 MAX_EXPONENT = 10_000
+#: Most arguments of one min() or max(), nested calls of the same function counted together: the
+#: derivative of max(a1, ..., an) grows much faster than n (measured: 20 arguments take seconds,
+#: 40 take 20-60 s; benchmarks/fuzz.py).
+MAX_MINMAX_ARGUMENTS = 12
+#: Most factors of one product (``a*b/c*...``, parentheses included): its derivative has about
+#: n**2 factors (measured: 200 factors take 1-12 s, 500 take 36-70 s).
+MAX_FACTORS = 100
+#: Longest chain of powers ``a**b**c**...`` with a symbol in it.
+MAX_POWER_CHAIN = 8
 
 
 def _heaviside(z: sympy.Expr, *_: sympy.Expr) -> sympy.Expr:
@@ -223,9 +235,13 @@ def parse_expression(
             f"(limits: {MAX_DEPTH} levels, about 2000 terms in one sum); split it with intermediate unknowns"
         ) from None
     except ValueError as error:  # e.g. a literal with too many digits, a null character
-        raise InputError(f"{label}: cannot read the expression: {error}") from None
+        from ._output import describe_value_error
+
+        raise InputError(f"{label}: cannot read the expression: {describe_value_error(error)}") from None
     builder = _Builder(text.strip(), names, _cache_format, _library(library))
     try:
+        if not _cache_format:
+            _check_size(tree.body)
         result = builder.build(tree.body, 0)
     except _Refused as refusal:
         column = builder.column(refusal.node)
@@ -236,6 +252,70 @@ def parse_expression(
     if builder.library.is_undefined(result):
         raise InputError(f"{label}: the expression is infinite or undefined (a division by zero?)")
     return result
+
+
+def _factor_count(node: ast.AST, seen: set[int]) -> int:
+    """Factors with a name in them of a product as sympy flattens it (through parentheses and unary
+    signs); numbers merge into one coefficient and do not count. The product's own nodes go into
+    ``seen`` (a product inside a call in it is a product of its own)."""
+    count, stack = 0, [node]
+    while stack:
+        current = stack.pop()
+        if isinstance(current, ast.UnaryOp) and isinstance(current.op, (ast.USub, ast.UAdd)):
+            stack.append(current.operand)
+        elif isinstance(current, ast.BinOp) and isinstance(current.op, (ast.Mult, ast.Div)):
+            seen.add(id(current))
+            stack += [current.left, current.right]
+        elif _has_name(current):
+            count += 1
+    return count
+
+
+def _minmax_count(node: ast.Call, name: str) -> int:
+    """Arguments of min()/max() as sympy flattens them (nested calls of the same function merge)."""
+    count, stack = 0, list(node.args)
+    while stack:
+        current = stack.pop()
+        if isinstance(current, ast.Call) and isinstance(current.func, ast.Name) and current.func.id == name:
+            stack += current.args
+        else:
+            count += 1
+    return count
+
+
+def _power_chain(node: ast.BinOp) -> int:
+    length, current = 1, node
+    while isinstance(current, ast.BinOp) and isinstance(current.op, ast.Pow):
+        length += 1
+        current = current.right if isinstance(current.right, ast.BinOp) and isinstance(current.right.op, ast.Pow) \
+            else current.left if isinstance(current.left, ast.BinOp) and isinstance(current.left.op, ast.Pow) else None
+    return length
+
+
+def _has_name(node: ast.AST) -> bool:
+    return any(isinstance(part, ast.Name) for part in ast.walk(node))
+
+
+def _check_size(root: ast.AST) -> None:
+    """Refuse, before any symbolic work, shapes whose derivatives would explode in size."""
+    seen_products: set[int] = set()
+    for node in ast.walk(root):
+        if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Mult, ast.Div)) and id(node) not in seen_products:
+            factors = _factor_count(node, seen_products)  # each product counted once, at its outermost node
+            if factors > MAX_FACTORS:
+                raise _Refused(f"one product has {factors} factors; the limit is {MAX_FACTORS} (its derivative "
+                               "would be too large): split it with intermediate unknowns or constants", node)
+        elif isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id in ("min", "max"):
+            count = _minmax_count(node, node.func.id)
+            if count > MAX_MINMAX_ARGUMENTS:
+                raise _Refused(f"{node.func.id}() has {count} arguments (nested calls included); the limit is "
+                               f"{MAX_MINMAX_ARGUMENTS}: split it, e.g. {node.func.id}(a, b) of two shorter ones "
+                               "through an intermediate unknown", node)
+        elif isinstance(node, ast.BinOp) and isinstance(node.op, ast.Pow):
+            length = _power_chain(node)
+            if length > MAX_POWER_CHAIN and _has_name(node):
+                raise _Refused(f"a chain of {length} powers (a**b**c...); the limit is {MAX_POWER_CHAIN}: "
+                               "use parentheses and intermediate unknowns", node)
 
 
 class _Builder:
@@ -328,7 +408,7 @@ class _Builder:
             raise _Refused(f"the constant power is too large to compute (exponent {float(exponent):.3g})", node)
         if base == 0 and exponent.is_Number and float(exponent) < 0:
             raise _Refused("division by zero (zero to a negative power)", node)
-        return self.library.pow(base, exponent)
+        return self.real(self.library.pow(base, exponent), node)
 
     def number(self, node: ast.Constant) -> sympy.Expr:
         value = node.value
@@ -375,4 +455,28 @@ class _Builder:
         arguments = [self.build(argument, depth + 1) for argument in node.args]
         if name == "log" and arguments[0] == 0:
             raise _Refused("log(0) is undefined", node)
-        return function(*arguments)
+        try:
+            result = function(*arguments)
+        except (ValueError, TypeError, ArithmeticError, RuntimeError) as error:
+            raise _Refused(f"{self.segment(node)} cannot be formed: {' '.join(str(error).split())}", node) from None
+        return self.real(result, node)
+
+    def segment(self, node: ast.AST) -> str:
+        text = ast.get_source_segment(self.text, node) or "the expression"
+        return text if len(text) <= 40 else text[:37] + "..."
+
+    def real(self, value, node: ast.AST):
+        """``value`` if it has a symbol in it or is a real constant; a complex constant is refused."""
+        if value.free_symbols:
+            return value
+        try:
+            number = complex(value)
+        except (TypeError, ValueError, ArithmeticError, RuntimeError):
+            raise _Refused(f"the constant {self.segment(node)} has no numeric value", node) from None
+        if not (math.isfinite(number.real) and math.isfinite(number.imag)):
+            raise _Refused(f"the constant {self.segment(node)} is infinite or too large for double precision", node)
+        if number.imag != 0.0:
+            raise _Refused(f"the constant {self.segment(node)} is not a real number: check the "
+                           "sign under sqrt, log and fractional powers, and the range of acos, asin, acosh "
+                           "and atanh", node)
+        return value

@@ -37,6 +37,7 @@ import keyword
 import math
 import re
 import tomllib
+import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -47,7 +48,7 @@ from ._errors import InputError
 from ._names import suggest
 from ._symbolic import SymbolicSystem, compile_expression
 
-__all__ = ["Problem", "load_problem", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS"]
+__all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS"]
 
 TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
@@ -131,23 +132,39 @@ def load_problem(path: str | Path, *, backend: str = "auto") -> Problem:
             and unknowns; a value of the wrong type; an expression the safe parser refuses. Each
             message names the file, the key and its line.
     """
+    from ._output import read_input_text
+
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(f"{path}: no such problem file") from None
-    except (OSError, UnicodeDecodeError) as error:
-        raise InputError(f"{path}: cannot read the problem file: {error}") from None
+    text = read_input_text(path, f"{path}:", MAX_FILE_BYTES, missing="no such problem file")
+    return problem_from_text(text, path, backend=backend)
+
+
+def problem_from_text(text: str, path: str | Path, *, backend: str = "auto", label: str | None = None) -> Problem:
+    """A problem from TOML text (e.g. the copy kept in a run record); ``path`` names it, ``label`` (default
+    the path) starts every message. Nothing is written: the text is read where it is."""
+    path = Path(path)
+    shown = label if label is not None else str(path)
+    if "\0" in text:
+        raise InputError(f"{shown}: not valid TOML: the text holds a NUL character")
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        raise InputError(f"{path}: not valid TOML: {error}") from None
-    return _Reader(path, text, data, backend).problem()
+    except (tomllib.TOMLDecodeError, ValueError) as error:
+        from ._output import describe_value_error
+
+        raise InputError(f"{shown}: not valid TOML: {describe_value_error(error)}") from None
+    except RecursionError:
+        raise InputError(f"{shown}: not valid TOML: nested too deeply") from None
+    return _Reader(path, text, data, backend, shown).problem()
+
+
+#: Largest problem file read, in bytes.
+MAX_FILE_BYTES = 16 * 2**20
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, data: dict, backend: str) -> None:
+    def __init__(self, path: Path, text: str, data: dict, backend: str, label: str | None = None) -> None:
         self.path, self.data, self.backend = path, data, backend
+        self.label = label if label is not None else str(path)
         self.lines = _Lines(text)
 
     # -- messages -------------------------------------------------------------------------------
@@ -157,7 +174,7 @@ class _Reader:
             line = self.lines.table(key)  # a top-level key written as a [table]
         if line is None and table is not None:
             line = self.lines.table(table, occurrence)
-        return f"{self.path}, line {line}" if line is not None else str(self.path)
+        return f"{self.label}, line {line}" if line is not None else self.label
 
     def fail(self, table: str | None, key: str | None, message: str, occurrence: int = 1) -> InputError:
         return InputError(f"{self.where(table, key, occurrence)}: {message}")
@@ -178,7 +195,7 @@ class _Reader:
         if name not in self.data:
             if not required:
                 return {}
-            raise InputError(f"{self.path}: missing section [{name}]; a problem file needs {', '.join(f'[{s}]' for s in _REQUIRED)}")
+            raise InputError(f"{self.label}: missing section [{name}]; a problem file needs {', '.join(f'[{s}]' for s in _REQUIRED)}")
         value = self.data[name]
         if not isinstance(value, dict):
             raise self.fail(None, name, f"{name} must be a table ([{name}] with name = value lines), not {type(value).__name__}")
@@ -227,6 +244,13 @@ class _Reader:
                     f"{name}.{key!r} cannot be used in equations: names are letters, digits and underscores, "
                     "starting with a letter (e.g. T_wall)",
                 )
+            normal = unicodedata.normalize("NFKC", key)
+            if normal != key:
+                raise self.fail(
+                    name, key,
+                    f"{name}.{key!r} changes under Unicode normalisation to {normal!r}, which is how "
+                    f"expressions read it; write it as {normal!r}",
+                )
         return {key: self.number(name, key, value, what) for key, value in table.items()}
 
     def build(self, equations, unknowns, parameters, constants, kind, labels) -> SymbolicSystem:
@@ -234,9 +258,9 @@ class _Reader:
             return SymbolicSystem(equations, unknowns, parameters, constants, kind=kind, backend=self.backend, labels=labels)
         except InputError as error:
             message = str(error)
-            if message.startswith(str(self.path)):
+            if message.startswith(self.label):
                 raise
-            raise InputError(f"{self.path}: {message}") from None
+            raise InputError(f"{self.label}: {message}") from None
 
     def trace_options(self, system: SymbolicSystem) -> dict[str, Any]:
         table = self.section("trace")

@@ -20,6 +20,8 @@ Compiled functions are kept in a :class:`~contin._cache.CompileCache` (memory an
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import functools
 import json
 import keyword
@@ -27,7 +29,10 @@ import math
 import os
 import pickle
 import re
+import signal
+import threading
 import time
+import unicodedata
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
@@ -44,6 +49,7 @@ from ._system import System
 
 __all__ = [
     "BACKENDS",
+    "SETUP_SECONDS",
     "SymbolicSystem",
     "choose_backend",
     "compile_expression",
@@ -146,6 +152,73 @@ class _Layout:
         assert np.all(in_u[: int(in_u.sum())])
 
 
+#: Longest symbolic set-up (parsing, differentiation, compilation) of one system, in seconds. The
+#: environment variable CONTIN_SETUP_SECONDS sets another limit ("off" or 0: none).
+SETUP_SECONDS = 120.0
+_DEADLINE: contextvars.ContextVar[float | None] = contextvars.ContextVar("contin_setup_deadline", default=None)
+
+
+class _SetupTimeout(Exception):
+    """Internal: the set-up ran past its time limit."""
+
+
+def _setup_seconds() -> float | None:
+    text = os.environ.get("CONTIN_SETUP_SECONDS", "").strip().lower()
+    if not text:
+        return SETUP_SECONDS
+    if text in ("off", "none", "0"):
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(f"CONTIN_SETUP_SECONDS={text!r} is not a number of seconds (or 'off')") from None
+    if not math.isfinite(value) or value < 0:
+        raise InputError(f"CONTIN_SETUP_SECONDS={text!r} must be a positive number of seconds (or 'off')")
+    return value or None
+
+
+def _check_deadline() -> None:
+    deadline = _DEADLINE.get()
+    if deadline is not None and time.monotonic() > deadline:
+        raise _SetupTimeout
+
+
+def _on_alarm(signum, frame):
+    raise _SetupTimeout
+
+
+@contextlib.contextmanager
+def _time_limit():
+    """Stop a symbolic set-up that runs past :data:`SETUP_SECONDS` with an InputError.
+
+    The limit is checked between derivatives and, in the main thread, also by a timer signal (so a
+    single long sympy operation is interrupted too; a long call inside a compiled library ends first).
+    """
+    seconds = _setup_seconds()
+    if seconds is None or _DEADLINE.get() is not None:
+        yield
+        return
+    token = _DEADLINE.set(time.monotonic() + seconds)
+    alarm = (threading.current_thread() is threading.main_thread() and hasattr(signal, "setitimer")
+             and signal.getitimer(signal.ITIMER_REAL) == (0.0, 0.0))
+    previous = signal.signal(signal.SIGALRM, _on_alarm) if alarm else None
+    try:
+        if alarm:
+            signal.setitimer(signal.ITIMER_REAL, seconds)
+        yield
+    except _SetupTimeout:
+        raise InputError(
+            f"the symbolic set-up took longer than {seconds:g} s (the limit; CONTIN_SETUP_SECONDS changes it): "
+            "the equations are too large to differentiate and compile; split them with intermediate unknowns"
+        ) from None
+    finally:
+        if alarm:
+            signal.signal(signal.SIGALRM, signal.SIG_IGN)  # a last alarm now must not escape
+            signal.setitimer(signal.ITIMER_REAL, 0.0)
+            signal.signal(signal.SIGALRM, previous)
+        _DEADLINE.reset(token)
+
+
 def _derivatives(residuals: Sequence[Any], variables: Sequence[Any], n: int, backend: str):
     """Nonzero derivatives dF_i/dx_j for the symbols x_j present in F_i, u-columns before p-columns.
 
@@ -160,6 +233,7 @@ def _derivatives(residuals: Sequence[Any], variables: Sequence[Any], n: int, bac
     u_part: list[tuple[tuple[int, int], Any]] = []
     p_part: list[tuple[tuple[int, int], Any]] = []
     for i, expr in enumerate(residuals):
+        _check_deadline()
         present = sorted(index[s] for s in expr.free_symbols if s in index)
         if backend == "symengine" and expr.atoms(*nonsmooth_types):
             # symengine cannot differentiate abs/min/max: sympy does (with real symbols), then it is converted.
@@ -170,6 +244,7 @@ def _derivatives(residuals: Sequence[Any], variables: Sequence[Any], n: int, bac
             derivatives = [expr.diff(variables[j]) for j in present]
         else:
             derivatives = [_smooth(sympy.diff(expr, variables[j])) for j in present]
+        _check_deadline()
         for j, derivative in zip(present, derivatives):
             if derivative == 0:
                 continue
@@ -230,6 +305,7 @@ class _SymengineFunctions:
 def _build(residuals, variables, n, backend):
     """Differentiate and compile; returns (functions, entries, payload kind, payload bytes)."""
     entries, derivatives = _derivatives(residuals, variables, n, backend)
+    _check_deadline()
     converted = list(residuals)
     if backend == "symengine":
         import symengine
@@ -290,6 +366,12 @@ def _check_declared_names(names: Sequence[str], argument: str) -> None:
             raise InputError(
                 f"{argument} name {name!r} is not usable in equations: use letters, digits and "
                 "underscores, starting with a letter"
+            )
+        normal = unicodedata.normalize("NFKC", name)
+        if normal != name:
+            raise InputError(
+                f"{argument} name {name!r} changes under Unicode normalisation to {normal!r}, which is how "
+                f"expressions read it; write it as {normal!r}"
             )
         if name in FUNCTIONS:
             raise InputError(f"{argument} name {name!r} is also a function name ({name}(...)); rename it")
@@ -389,7 +471,8 @@ class SymbolicSystem(System):
         self._expressions: dict[str, sympy.Expr] | None = None
         self._engine_expressions: list | None = None
         self._cache = default_cache() if cache is None or cache is True else (cache or None)
-        self._compile()
+        with _time_limit():
+            self._compile()
         self.setup_seconds = time.perf_counter() - began
 
     @property
@@ -630,6 +713,8 @@ def _as_expression(value: object, table: Mapping[str, sympy.Expr], equation: str
             raise InputError(f"{where} uses symbol {symbol.name!r}, which is not declared{hint}")
         replace[symbol] = table[symbol.name]
     result = value.xreplace(replace)
+    if result.has(sympy.I):
+        raise InputError(f"{where} holds the imaginary unit; every constant must be real")
     if result.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo):
         raise InputError(f"{where} is infinite or undefined (a division by zero?)")
     unsupported = sorted({type(f).__name__ for f in result.atoms(sympy.Function) if not _supported(f)})

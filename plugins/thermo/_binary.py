@@ -139,6 +139,11 @@ class _BinarySystem(contin.CallableSystem):
         return J
 
 
+#: Lowest saturation pressure a diagram starts from, Pa: far below any triple point of the component
+#: table (common practice), and well inside double precision for the volume roots.
+_LOWEST_PRESSURE = 1e-6
+
+
 def _start(mixture: Mixture, kind: str, fixed: float) -> np.ndarray:
     """Saturation of the pure second component at the fixed T or P, refined by Newton (x1 = 0)."""
     Tc, Pc, omega = mixture.Tc[1], mixture.Pc[1], mixture.omega[1]
@@ -147,12 +152,19 @@ def _start(mixture: Mixture, kind: str, fixed: float) -> np.ndarray:
         if T >= Tc:
             raise InputError(f"--temperature {T:g} K is at or above the critical temperature of "
                              f"{mixture.names[1]} ({Tc:g} K); give the component that is subcritical second")
-        P = Pc * math.exp(5.373 * (1 + omega) * (1 - Tc / T))
+        P = Pc * math.exp(max(5.373 * (1 + omega) * (1 - Tc / T), -700.0))
+        if P < _LOWEST_PRESSURE:
+            raise InputError(f"--temperature {T:g} K is too far below the critical temperature of {mixture.names[1]} "
+                             f"({Tc:g} K): its vapour pressure there is below {_LOWEST_PRESSURE:g} Pa (Wilson's "
+                             "estimate); give a higher temperature")
     else:
         P = fixed
         if P >= Pc:
             raise InputError(f"--pressure {P:g} Pa is at or above the critical pressure of "
                              f"{mixture.names[1]} ({Pc:g} Pa); give the component that is subcritical second")
+        if P < _LOWEST_PRESSURE:
+            raise InputError(f"--pressure {P:g} Pa is below {_LOWEST_PRESSURE:g} Pa, where no saturation point of "
+                             f"{mixture.names[1]} can be computed; give a higher pressure")
         T = Tc / (1 - math.log(P / Pc) / (5.373 * (1 + omega)))
     x = np.array([0.0, 1.0])
     K = mixture.wilson(T, P)

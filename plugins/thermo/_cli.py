@@ -100,15 +100,15 @@ def register(subparsers) -> None:
                                      epilog="examples:\n  contin thermo components\n  contin thermo components --json")
     components.add_argument("--json", action="store_true", help="print the table as JSON")
     components.set_defaults(handler=_run_components)
-    thermo.set_defaults(handler=lambda args: _no_subcommand(thermo))
     module = _mixture_module()
     if module is not None and hasattr(module, "register"):
         module.register(commands)
+    thermo.set_defaults(handler=lambda args: _no_subcommand(commands))
 
 
-def _no_subcommand(parser) -> int:
-    parser.print_help(sys.stdout)
-    return 2
+def _no_subcommand(commands) -> int:
+    names = ", ".join(commands.choices)
+    raise InputError(f"contin thermo needs a subcommand ({names}); see 'contin thermo --help'")
 
 
 def _values(text, kind: str, argument: str) -> list[float]:
@@ -128,8 +128,11 @@ def _single(text, kind: str, argument: str):
 
 
 def _fluid(args) -> PureFluid:
-    extra = load_components(args.components_file) if args.components_file else ()
     own = [name for name in ("tc", "pc", "omega") if getattr(args, name) is not None]
+    if args.components_file is not None and own:
+        raise InputError(f"--components-file and --{own[0]} cannot be combined: name a fluid of the file with "
+                         "--fluid, or give your own with --tc, --pc and --omega")
+    extra = load_components(args.components_file) if args.components_file is not None else ()
     if args.fluid is not None and own:
         raise InputError(
             f"--fluid and --{own[0]} cannot be combined: name a fluid from the table with --fluid, or give "
@@ -141,10 +144,9 @@ def _fluid(args) -> PureFluid:
         missing = [f"--{name}" for name in ("tc", "pc", "omega") if getattr(args, name) is None]
         if missing:
             raise InputError(f"your own fluid needs --tc, --pc and --omega; missing {', '.join(missing)}")
-        try:
-            omega = float(args.omega)
-        except ValueError:
-            raise InputError(f"--omega {args.omega!r} is not a number") from None
+        from ._units import parse_number
+
+        omega = parse_number(args.omega, "--omega")
         component = custom_component(
             args.name, _single(args.tc, "temperature", "--tc"), _single(args.pc, "pressure", "--pc"), omega,
             argument="--tc/--pc/--omega",
@@ -152,6 +154,25 @@ def _fluid(args) -> PureFluid:
     else:
         raise InputError("name the fluid with --fluid NAME (see `contin thermo components`) or give --tc, --pc and --omega")
     return PureFluid(component, family(args.eos, "--eos"))
+
+
+def _check_two_phase(fluid: PureFluid, start: float | None) -> None:
+    """Refuse constants whose model fluid has no vapour-liquid region at the start temperature.
+
+    A cubic equation of state is subcritical at T exactly when a(T)/(b R T) exceeds its value at the
+    critical point, i.e. when alpha(T) > T/Tc (b does not depend on T).
+    """
+    c, f = fluid.component, fluid.family
+    temperature = start if start is not None else 0.4 * c.Tc
+    if not 0.0 < temperature < c.Tc:
+        return  # the curve's own checks say what is wrong with the range
+    alpha = float(f.alpha(temperature, c.Tc, c.omega)[0])
+    if not alpha > temperature / c.Tc:
+        raise InputError(
+            f"--omega {c.omega:g}: with this acentric factor the {f.label} attraction term alpha(T) = {alpha:.3g} is "
+            f"not above T/Tc = {temperature / c.Tc:.3g} at {temperature:g} K, so the model fluid has no "
+            "vapour-liquid region there; real fluids have omega between about -0.4 and 1.5"
+        )
 
 
 def _format_row(columns, row) -> str:
@@ -210,6 +231,7 @@ def run_pure(args) -> int:
     if args.curve == "critical":
         return _emit(critical_point(fluid), args)
     start = _single(args.from_temperature, "temperature", "--from-temperature")
+    _check_two_phase(fluid, start)
     temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
     tc = fluid.component.Tc
     if args.curve == "spinodal":

@@ -9,10 +9,12 @@ from pathlib import Path
 
 import contin
 from contin import InputError
+from contin._output import fill_text
 
 from ._units import UNIT_SYSTEMS, output_units
 
-__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit"]
+__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+           "queue", "finish"]
 
 
 def add_output_options(parser: argparse.ArgumentParser) -> None:
@@ -25,19 +27,27 @@ def add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")
 
 
-def check_destinations(args: argparse.Namespace) -> None:
-    """Refuse output files whose folder is missing, or a plot of an unknown format, before any work."""
+def check_destinations(args: argparse.Namespace):
+    """Check every output file (--csv, --plot, --record) before any work: a regular file or a new
+    name in a writable folder, a plot of a known format. Keeps the checked targets on ``args``."""
+    from contin._output import Outputs
+
+    outputs = Outputs()
     for option in ("csv", "plot", "record"):
         value = getattr(args, option, None)
-        if value is None:
-            continue
-        folder = Path(value).resolve().parent
-        if not folder.is_dir():
-            raise InputError(f"--{option} {value!r}: the folder {str(Path(value).parent)!r} does not exist")
+        if value is not None:
+            outputs.target(f"--{option}", value)
     plot = getattr(args, "plot", None)
     if plot is not None and Path(plot).suffix.lower() not in (".png", ".svg", ".pdf"):
         raise InputError(f"--plot {plot!r} must end in .png, .svg or .pdf")
     output_units(getattr(args, "units", "si"))
+    args.outputs = outputs
+    return outputs
+
+
+def _outputs(args: argparse.Namespace):
+    outputs = getattr(args, "outputs", None)
+    return outputs if outputs is not None else check_destinations(args)
 
 
 def component_data(component) -> dict:
@@ -48,14 +58,30 @@ def component_data(component) -> dict:
 
 def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping,
                      options: Mapping | None = None) -> None:
-    """Write ``--record`` if asked: the command line, the input actually used, the tolerances and step
-    options, versions and the result (status and timings included)."""
+    """Queue ``--record`` if asked: the command line, the input actually used, the tolerances and step
+    options, versions and the result (status and timings included). Written by :func:`finish`."""
     path = getattr(args, "record", None)
     if path is None:
         return
     record = contin.document_record(document, input={"kind": "thermo", **input},
                                     command=getattr(args, "argv", None), options=dict(options or {}))
-    contin.write_record(path, record)
+    outputs = _outputs(args)
+    text = json.dumps(record, indent=1) + "\n"
+    outputs.add("--record", outputs.target("--record", path), lambda target: fill_text(target, text))
+
+
+def queue(args: argparse.Namespace, option: str, write: Callable) -> None:
+    """Queue ``write(path)`` for the output option ``option`` (e.g. ``"csv"``) if it was given."""
+    value = getattr(args, option, None)
+    if value is None:
+        return
+    outputs = _outputs(args)
+    outputs.add(f"--{option}", outputs.target(f"--{option}", value), write)
+
+
+def finish(args: argparse.Namespace) -> None:
+    """Write every queued output together (all or none)."""
+    _outputs(args).commit()
 
 
 def with_progress(args: argparse.Namespace, label: str, describe: Callable, run: Callable):
@@ -73,10 +99,10 @@ def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, 
     """Every tracing command's outputs, in one order: CSV (in ``--units``), plot, run record, then
     the JSON document or the summary on stdout. Returns the exit status (0 success, 1 not)."""
     document = result.to_dict()
-    if getattr(args, "csv", None):
-        result.to_csv(args.csv, units=args.units)
-    if plot is not None and getattr(args, "plot", None):
-        plot(result, args.plot)
+    queue(args, "csv", lambda path: result.to_csv(path, units=args.units))
+    if plot is not None:
+        queue(args, "plot", lambda path: plot(result, path))
     write_run_record(args, document, record_input, options)
+    finish(args)
     print(json.dumps(document) if args.json else summary)
     return 0 if result.success else 1

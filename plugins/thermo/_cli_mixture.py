@@ -21,6 +21,7 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
             negative, zero, all zero or not summing to 1 within 1e-6 (unless ``normalise``).
     """
     from ._components import lookup
+    from ._units import parse_number
 
     parts = [p.strip() for p in str(text).split(",") if p.strip()]
     if not parts:
@@ -31,13 +32,12 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
             if "=" not in part:
                 raise InputError(f"--mixture entry {part!r} needs a mole fraction: NAME=FRACTION")
             name, value = part.rsplit("=", 1)
-            try:
-                number = float(value)
-            except ValueError:
-                raise InputError(f"--mixture entry {part!r}: {value.strip()!r} is not a number") from None
-            values.append(number)
+            values.append(parse_number(value, f"--mixture entry {part[:60]!r}: the mole fraction"))
         else:
-            name = part.split("=", 1)[0]
+            if "=" in part:
+                raise InputError(f"--mixture entry {part!r}: this diagram spans every composition, so it takes the two "
+                                 "components without mole fractions, e.g. 'propane,n-butane'")
+            name = part
         components.append(lookup(name.strip(), extra, argument="--mixture"))
     names = [c.name for c in components]
     for name in names:
@@ -48,17 +48,21 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
     if not fractions:
         return components, None
     z = np.array(values)
-    if not np.all(np.isfinite(z)) or np.any(z < 0):
-        bad = names[int(np.flatnonzero(~(np.isfinite(z) & (z >= 0)))[0])]
+    if np.any(z < 0):
+        bad = names[int(np.flatnonzero(z < 0)[0])]
         raise InputError(f"--mixture: the mole fraction of {bad!r} is negative; mole fractions must be positive")
     if not np.any(z > 0):
         raise InputError("--mixture: every mole fraction is zero; give positive mole fractions")
     if np.any(z == 0):
         bad = names[int(np.flatnonzero(z == 0)[0])]
         raise InputError(f"--mixture: the mole fraction of {bad!r} is zero; leave absent components out")
-    if abs(z.sum() - 1.0) > 1e-6:
+    with np.errstate(over="ignore"):
+        total = float(z.sum())
+    if abs(total - 1.0) > 1e-6:
         if not normalise:
-            raise InputError(f"--mixture: the mole fractions sum to {z.sum():.8g}, not 1; fix them or pass --normalise")
+            raise InputError(f"--mixture: the mole fractions sum to {total:.8g}, not 1; fix them or pass --normalise")
+    if not math.isfinite(total):  # fractions near the largest float: scale first, the sum overflows
+        z = z / z.max()
     return components, z / z.sum()
 
 
@@ -73,19 +77,18 @@ def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
             a component with itself.
     """
     from ._components import lookup
+    from ._units import parse_number
 
     n = len(names)
     kij = np.zeros((n, n))
     if not text:
         return kij
+    given: dict[tuple[int, int], str] = {}
     for part in [p.strip() for p in str(text).split(",") if p.strip()]:
         if "=" not in part:
             raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
         pair, value = part.rsplit("=", 1)
-        try:
-            number = float(value)
-        except ValueError:
-            raise InputError(f"--kij entry {part!r}: {value.strip()!r} is not a number") from None
+        number = parse_number(value, f"--kij entry {part[:60]!r}")
         found = None
         pieces = pair.strip().split("-")
         for k in range(1, len(pieces)):
@@ -104,6 +107,11 @@ def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
             raise InputError(f"--kij pair {pair.strip()!r} pairs a component with itself; kij is zero on the diagonal")
         if not -1.0 < number < 1.0:
             raise InputError(f"--kij {pair.strip()!r} = {number:g} lies outside (-1, 1)")
+        key = (min(i, j), max(i, j))
+        if key in given:
+            raise InputError(f"--kij gives the pair {names[key[0]]}-{names[key[1]]} twice ({given[key]!r} and "
+                             f"{pair.strip()!r}); give each pair once")
+        given[key] = pair.strip()
         kij[i, j] = kij[j, i] = number
     return kij
 
@@ -114,7 +122,16 @@ def build_mixture(args, *, fractions: bool = True):
     from ._eos import family
     from ._mixture import Mixture
 
+    from ._components import load_components
+
     extra = tuple(parse_component(text) for text in (getattr(args, "component", None) or []))
+    for k, component in enumerate(extra):
+        for other in extra[:k]:
+            if component.name == other.name:
+                raise InputError(f"--component {component.name!r} is given twice; give each component once")
+    if getattr(args, "components_file", None):
+        extra += tuple(c for c in load_components(args.components_file)
+                       if not any(c.name == e.name for e in extra))
     components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
                                   fractions=fractions)
     kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
@@ -201,13 +218,15 @@ def run_envelope(args) -> int:
 
     check_destinations(args)
     mixture, z = build_mixture(args)
+    from ._units import parse_number
+
     quality = []
-    if args.quality:
-        for q in str(args.quality).split(","):
-            try:
-                quality.append(float(q))
-            except ValueError:
-                raise InputError(f"--quality {q.strip()!r} is not a number") from None
+    if args.quality is not None:
+        parts = str(args.quality).split(",")
+        if not any(q.strip() for q in parts):
+            raise InputError("--quality is empty; give vapour fractions such as 0.1,0.5")
+        for q in parts:
+            quality.append(parse_number(q, "--quality"))
     from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
     n = mixture.size
     envelope = with_progress(
@@ -248,10 +267,24 @@ def run_critical(args) -> int:
     import contin
 
     from ._caution import CAUTION
-    from ._cli_common import check_destinations, write_run_record
+    from ._cli_common import check_destinations, finish, queue, write_run_record
     from ._mixture_critical import critical_point
-    from ._report import summary_lines, write_csv
+    from contin._output import fill_text
 
+    from ._report import csv_text, summary_lines
+    from ._units import convert_rows, output_units
+
+    if getattr(args, "plot", None) is not None:
+        raise InputError("--plot draws curves; a mixture critical point is one point: drop --plot, or use "
+                         "'contin thermo envelope' for a picture")
+    if getattr(args, "fluid", None) is not None:
+        raise InputError("--fluid and --mixture cannot be combined: --fluid names one fluid, --mixture a mixture")
+    own = [f"--{name.replace('_', '-')}" for name in ("tc", "pc", "omega", "from_temperature",
+                                                      "at_temperatures", "at_pressures")
+           if getattr(args, name, None) is not None]
+    if own:
+        raise InputError(f"{own[0]} and --mixture cannot be combined: {own[0]} belongs to one fluid; give extra "
+                         "components of a mixture with --component NAME,Tc,Pc,omega")
     check_destinations(args)
     mixture, z = build_mixture(args)
     point = critical_point(mixture, z)
@@ -259,20 +292,20 @@ def run_critical(args) -> int:
     row = [point.T, float(point.P), point.v]
     special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
                 "info": {"eigenvalue": point.eigenvalue, "cubic_form": point.cubic}}]
-    if getattr(args, "csv", None):
-        write_csv(args.csv, columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, title="mixture critical point",
-                  notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    shown = output_units(getattr(args, "units", "si"))
+    rows, names = convert_rows(columns, [row], {"T": "K", "P": "Pa", "v": "m3/mol"}, shown)
+    text = csv_text(columns, rows, names, title="mixture critical point",
+                    notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
+    queue(args, "csv", lambda path: fill_text(path, text))
     document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
                                     [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
                                                          "newton_iterations": 0, "jacobian_evaluations": 0},
                                     caution=CAUTION, model=mixture.family.label)
     write_run_record(args, document, _mixture_input(args, mixture, z))
+    finish(args)
     if getattr(args, "json", False):
         print(json.dumps(document))
     else:
-        from ._units import output_units
-
-        shown = output_units(getattr(args, "units", "si"))
         print("\n".join(summary_lines("mixture critical point", [
             ("model", mixture.family.label),
             ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),

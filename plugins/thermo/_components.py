@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 import tomllib
 import warnings
 from dataclasses import dataclass
@@ -92,18 +91,27 @@ def custom_component(
         InputError: on an empty name, non-numeric or non-finite values, Tc or Pc not positive, or an
             acentric factor outside -1..3.
     """
-    label = str(name).strip()
+    from ._units import looks_like_number, parse_number
+
+    if not isinstance(name, str):
+        raise InputError(f"{argument}: the component name is {type(name).__name__} {name!r}; give it as text")
+    label = name.strip()
     if not label:
         raise InputError(f"{argument}: the component name is empty; give a name such as 'my-fluid'")
+    if not label.isprintable() or len(label) > 200:
+        raise InputError(f"{argument}: the component name {label[:40]!r} holds control characters or is over "
+                         "200 characters; give a short plain name")
     values = {}
     for key, value, unit in (("Tc", Tc, "K"), ("Pc", Pc, "Pa"), ("omega", omega, "")):
-        try:
-            number = float(value)
-        except (TypeError, ValueError):
-            raise InputError(f"{argument}: {key} of {label!r} is {value!r}, not a number") from None
-        if not math.isfinite(number):
-            raise InputError(f"{argument}: {key} of {label!r} is {number!r}; give a finite number")
-        values[key] = number
+        if isinstance(value, bool) or not isinstance(value, (str, int, float)) or (
+                isinstance(value, str) and not looks_like_number(value)):
+            raise InputError(f"{argument}: {key} of {label!r} is {value!r}, not a number"
+                             + (" (write it with the digits 0-9, e.g. 190.6)" if isinstance(value, str) else ""))
+        values[key] = parse_number(value, f"{argument}: {key} of {label!r}")
+    if not isinstance(source, str):
+        raise InputError(f"{argument}: source of {label!r} is {type(source).__name__}; give it as text")
+    if isinstance(aliases, str) or not all(isinstance(a, str) for a in aliases):
+        raise InputError(f"{argument}: aliases of {label!r} must be a list of names as text, e.g. [\"nC9\"]")
     for key, unit in (("Tc", "K"), ("Pc", "Pa")):
         if values[key] <= 0.0:
             raise InputError(
@@ -125,7 +133,7 @@ def custom_component(
             UserWarning,
             stacklevel=2,
         )
-    return Component(label, values["Tc"], values["Pc"], w, str(source), tuple(str(a).strip() for a in aliases if str(a).strip()))
+    return Component(label, values["Tc"], values["Pc"], w, source, tuple(a.strip() for a in aliases if a.strip()))
 
 
 def _rows_from_csv(text: str, origin: str) -> list[Component]:
@@ -158,8 +166,11 @@ def _rows_from_csv(text: str, origin: str) -> list[Component]:
 def _rows_from_toml(text: str, origin: str) -> list[Component]:
     try:
         document = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        raise InputError(f"{origin}: not valid TOML ({error})") from None
+    except (tomllib.TOMLDecodeError, ValueError, RecursionError) as error:
+        reason = " ".join(str(error).split()) if not isinstance(error, RecursionError) else "nested too deeply"
+        if "integer string conversion" in reason:
+            reason = "a number has more than 4300 digits"
+        raise InputError(f"{origin}: not valid TOML ({reason})") from None
     entries = document.get("component")
     if not isinstance(entries, list) or not entries:
         raise InputError(
@@ -168,6 +179,9 @@ def _rows_from_toml(text: str, origin: str) -> list[Component]:
     components = []
     for number, entry in enumerate(entries, start=1):
         where = f"{origin}, [[component]] number {number}"
+        if not isinstance(entry, dict):
+            raise InputError(f"{where}: is {type(entry).__name__}, not a table; write [[component]] tables "
+                             "with keys name, Tc, Pc, omega")
         missing = [k for k in ("name", "Tc", "Pc", "omega") if k not in entry]
         if missing:
             raise InputError(f"{where}: missing key(s) {', '.join(missing)}")
@@ -178,6 +192,8 @@ def _rows_from_toml(text: str, origin: str) -> list[Component]:
         aliases = entry.get("aliases", [])
         if isinstance(aliases, str):
             aliases = [a for a in aliases.split(";") if a.strip()]
+        if not isinstance(aliases, list):
+            raise InputError(f"{where}: aliases = {aliases!r}; give a list of names, e.g. aliases = [\"nC9\"]")
         components.append(
             custom_component(
                 entry["name"], entry["Tc"], entry["Pc"], entry["omega"],
@@ -189,7 +205,11 @@ def _rows_from_toml(text: str, origin: str) -> list[Component]:
 
 def _check_unique(components: Iterable[Component], origin: str) -> None:
     seen: dict[str, str] = {}
+    names: set[str] = set()
     for c in components:
+        if _key(c.name) in names:
+            raise InputError(f"{origin}: the component {c.name!r} is given twice; give each component once")
+        names.add(_key(c.name))
         for label in (c.name, *c.aliases):
             key = _key(label)
             if seen.get(key, c.name) != c.name:
@@ -205,11 +225,16 @@ def load_components(path: str | Path) -> tuple[Component, ...]:
     Raises:
         InputError: if the file is missing, of an unknown type, or holds a bad row (the row is named).
     """
+    from contin._output import read_input_text
+
     path = Path(path)
-    if not path.is_file():
-        raise InputError(f"component file {str(path)!r} does not exist; give the path of a .csv or .toml file")
-    text = path.read_text(encoding="utf-8")
     suffix = path.suffix.lower()
+    text = read_input_text(path, f"component file {str(path)!r}", 16 * 2**20,
+                           missing="does not exist; give the path of a .csv or .toml file")
+    if suffix not in (".csv", ".toml"):
+        raise InputError(f"component file {path.name!r} must end in .csv or .toml (got {suffix or 'no suffix'!r})")
+    if "\0" in text:
+        raise InputError(f"component file {str(path)!r} holds NUL characters; is it a binary file?")
     if suffix == ".csv":
         components = _rows_from_csv(text, path.name)
     elif suffix == ".toml":

@@ -24,6 +24,8 @@ __all__ = [
     "parse_quantity",
     "parse_temperature",
     "parse_list",
+    "parse_number",
+    "looks_like_number",
     "output_units",
     "convert_rows",
 ]
@@ -45,7 +47,50 @@ PRESSURE_UNITS: dict[str, float] = {
     "psia": PSI,
 }
 _KINDS = {"temperature": TEMPERATURE_UNITS, "pressure": PRESSURE_UNITS}
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]*)\s*$")
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]*)\s*$", re.ASCII)
+_PLAIN = re.compile(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*$", re.ASCII)
+_NOT_FINITE = re.compile(r"^\s*[-+]?(?:nan|inf|infinity)\s*$", re.IGNORECASE)
+
+
+def _shown(text) -> str:
+    text = str(text)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
+def looks_like_number(text: str) -> bool:
+    """Whether ``text`` is a plain ASCII number, or nan/inf (which :func:`parse_number` refuses as not finite)."""
+    return bool(_PLAIN.match(text) or _NOT_FINITE.match(text))
+
+
+def parse_number(text, argument: str) -> float:
+    """A finite number from text written in ASCII digits (``1.5``, ``-2e-3``), or from a number.
+
+    Raises:
+        InputError: a boolean, text that is not a plain number (non-ASCII digits included), or a value
+            that is not finite (``nan``, ``inf``, ``1e400``).
+    """
+    if isinstance(text, bool):
+        raise InputError(f"{argument}: {str(text).lower()} is a boolean, not a number")
+    if isinstance(text, (int, float)):
+        try:
+            value = float(text)
+        except OverflowError:
+            raise InputError(f"{argument}: the number is too large (not finite in double precision)") from None
+    elif isinstance(text, str):
+        shown = _shown(text)
+        if _NOT_FINITE.match(text):
+            raise InputError(f"{argument}: {shown!r} is not finite; give a finite number")
+        if not _PLAIN.match(text):
+            raise InputError(f"{argument}: {shown!r} is not a number (write it with the digits 0-9, e.g. 0.25 or 1e-3)")
+        value = float(text)
+    else:
+        raise InputError(f"{argument}: {type(text).__name__} {_shown(repr(text))} is not a number")
+    if not math.isfinite(value):
+        if isinstance(text, str):
+            raise InputError(f"{argument}: {_shown(text)!r} is not finite (too large for double precision); "
+                             "give a finite number")
+        raise InputError(f"{argument} is {value!r}; give a finite number")
+    return value
 
 
 def _unit_kind(unit: str) -> str | None:
@@ -67,16 +112,20 @@ def parse_quantity(text: str | float, kind: str, argument: str) -> float:
         InputError: not a number, an unknown unit (with the nearest valid one), a unit of the other
             kind ("a pressure given in K"), or a temperature at or below absolute zero.
     """
-    if isinstance(text, (int, float)) and not isinstance(text, bool):
-        value, unit = float(text), ""
+    if isinstance(text, bool):
+        raise InputError(f"{argument}: {str(text).lower()} is a boolean, not a {kind}")
+    if isinstance(text, (int, float)):
+        value, unit = parse_number(text, argument), ""
     else:
         match = _NUMBER.match(str(text))
         if not match:
             raise InputError(
-                f"{argument}: {text!r} is not a number with an optional unit "
+                f"{argument}: {_shown(text)!r} is not a number with an optional unit "
                 f"(e.g. {'300 K or 26.85 degC' if kind == 'temperature' else '50 bar or 5 MPa'})"
             )
         value, unit = float(match.group(1)), match.group(2)
+        if not math.isfinite(value):
+            raise InputError(f"{argument}: {_shown(text)!r} is not finite (too large for double precision)")
     table = _KINDS[kind]
     if unit and unit not in table:
         other = _unit_kind(unit)
