@@ -368,14 +368,25 @@ def summary(branch, name: str) -> str:
     ]
     if branch.special_points:
         lines.append("special points:")
+        kind_width = max(len(point.kind) for point in branch.special_points)
+        name_width = max(len(point.name) for point in branch.special_points)
         for point in branch.special_points:
-            lines.append(f"  {point.kind:10s} {point.name:24s} {_format_values(point.values)}  (point {point.index})")
+            extra = ""
+            if "angular_frequency" in point.info:
+                extra = f", angular frequency {point.info['angular_frequency']:.10g}"
+            if "first_lyapunov_coefficient" in point.info:
+                extra += f", first Lyapunov coefficient {point.info['first_lyapunov_coefficient']:.4g}"
+            lines.append(f"  {point.kind:{kind_width}s}  {point.name:{name_width}s}  {_format_values(point.values)}"
+                         f"{extra}  (point {point.index})")
     else:
         lines.append("special points: none")
     if branch.at:
         lines.append("at requested values:")
+        width = max(len(point.name) for point in branch.at)
         for point in branch.at:
-            lines.append(f"  {point.name:35s} {_format_values(point.values)}")
+            lines.append(f"  {point.name:{width}s}  {_format_values(point.values)}")
+    for note in branch.stats.get("notes", ()):
+        lines.append(f"note: {note}")
     stats = branch.stats
     lines.append(
         f"work: {stats.get('newton_iterations', 0)} Newton iterations, "

@@ -52,7 +52,7 @@ __all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "TOP_K
 
 TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
-              "folds", "detect", "corrector", "relative_tolerance")
+              "folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
 _REQUIRED = ("unknowns", "parameters", "equations", "trace")
 
@@ -286,11 +286,13 @@ class _Reader:
             if isinstance(count, bool) or not isinstance(count, int) or count < 2:
                 raise self.fail("trace", "max_points", f"max_points = {count!r}; give a whole number of at least 2")
             options["max_points"] = count
-        for key in ("step", "min_step", "max_step", "tolerance"):
+        for key in ("step", "min_step", "max_step", "tolerance", "max_turn", "max_correction"):
             if key in table:
                 value = self.number("trace", key, table[key], key.replace("_", " "))
                 if value <= 0:
                     raise self.fail("trace", key, f"{key} = {value!r} must be positive")
+                if key == "max_turn" and value >= math.pi:
+                    raise self.fail("trace", key, f"max_turn = {value!r} must be below pi radians (a turn of half a circle)")
                 options[key] = value
         if "relative_tolerance" in table:
             value = self.number("trace", "relative_tolerance", table["relative_tolerance"], "relative tolerance")

@@ -179,3 +179,22 @@ def test_python_dash_m_contin(tmp_path):
         env={"CONTIN_CACHE_DIR": str(tmp_path), "PATH": "", "HOME": str(tmp_path)},
     )
     assert result.returncode == 0 and "stirred_tank" in result.stdout
+
+
+def test_the_summary_shows_hopf_frequencies_and_the_notes_that_qualify_a_result(tmp_path, capsys):
+    # Brusselator x' = A - (B + 1) x + x^2 y, y' = B x - x^2 y with A = 1.5: Hopf at B = 1 + A^2 = 3.25 with
+    # angular frequency A (Lefever & Nicolis, J. Theor. Biol. 30, 1971). The start is given far from the
+    # equilibrium (A, B/A), so Newton moves it: a note says so.
+    problem = tmp_path / "oscillator.toml"
+    problem.write_text(
+        'kind = "ode"\n[unknowns]\nx = 2.0\ny = 0.4\n[parameters]\nB = 1.0\n[constants]\nA = 1.5\n'
+        '[equations]\nfx = "A - (B + 1)*x + x**2*y"\nfy = "B*x - x**2*y"\n'
+        '[trace]\nfree = "B"\nbounds = { B = [1.0, 4.0] }\n')
+    assert main(["run", str(problem)]) == 0
+    out = capsys.readouterr().out
+    (line,) = [line for line in out.splitlines() if line.strip().startswith("hopf")]
+    assert "B = 3.25" in line and "angular frequency 1.5" in line
+    assert "note: the start was moved by" in out
+    kinds = [line.split()[0] for line in out.splitlines() if line.startswith("  ") and "(point" in line]
+    widths = {line.index("(point") - len(line.split("(point")[0].rstrip()) for line in out.splitlines() if "(point" in line}
+    assert kinds == ["hopf", "bound"] and widths == {2}

@@ -65,7 +65,7 @@ def test_public_keys_are_exactly_those_of_the_format():
     assert TOP_KEYS == ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
     # The keys of the published format (issue 3), unchanged, then the optional ones added since.
     assert TRACE_KEYS[:9] == ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
-    assert TRACE_KEYS[9:] == ("folds", "detect", "corrector", "relative_tolerance")
+    assert TRACE_KEYS[9:] == ("folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction")
     assert EVENT_KEYS == ("name", "expression", "terminal", "direction")
 
 
@@ -269,3 +269,19 @@ def test_bad_optional_trace_keys(tmp_path, line, message):
                     f'[trace]\nfree = "p"\n{line}\n')
     with pytest.raises(InputError, match=message.replace("(", r"\(").replace(")", r"\)").replace("[", r"\[")):
         load_problem(path)
+
+
+def test_the_geometric_step_limits_are_problem_file_keys(tmp_path):
+    path = tmp_path / "limits.toml"
+    path.write_text('[unknowns]\nx = 1.0\n[parameters]\np = 0.0\n[equations]\ncircle = "x**2 + p**2 - 1"\n'
+                    '[trace]\nfree = "p"\nmax_turn = 0.05\nmax_correction = 0.2\nmax_step = 0.5\nmax_points = 4000\n')
+    branch = run_problem(load_problem(path))
+    assert branch.status.label == "closed_loop"
+    turns = np.arccos(np.clip(np.sum(branch.tangents[1:] * branch.tangents[:-1], axis=1), -1.0, 1.0))
+    assert turns.max() <= 0.05 + 1e-9
+    base = ('[unknowns]\nx = 1.0\n[parameters]\np = 0.0\n[equations]\ncircle = "x**2 + p**2 - 1"\n'
+            '[trace]\nfree = "p"\n')
+    for bad, message in (("max_turn = 4.0", "below pi"), ("max_correction = 0", "must be positive")):
+        path.write_text(base + bad + "\n")
+        with pytest.raises(InputError, match=message):
+            load_problem(path)
