@@ -341,6 +341,11 @@ def _run(namespace: argparse.Namespace) -> int:
         print(json.dumps(document))
     else:
         print(summary(branch, name))
+    if isinstance(branch.cause, KeyboardInterrupt):
+        # Ctrl-C mid-trace: what was traced is written; shells and scripts expect 130 and a note.
+        print(f"contin: interrupted after {len(branch.points)} points; the partial results were written",
+              file=sys.stderr)
+        return 130
     return 0 if branch.status.success else 1
 
 

@@ -198,3 +198,25 @@ def test_the_summary_shows_hopf_frequencies_and_the_notes_that_qualify_a_result(
     kinds = [line.split()[0] for line in out.splitlines() if line.startswith("  ") and "(point" in line]
     widths = {line.index("(point") - len(line.split("(point")[0].rstrip()) for line in out.splitlines() if "(point" in line}
     assert kinds == ["hopf", "bound"] and widths == {2}
+
+
+def test_ctrl_c_mid_trace_writes_the_partial_files_and_exits_130(tmp_path, capsys, monkeypatch):
+    import contin._problem as problem_module
+
+    real = problem_module.run_problem
+
+    def interrupted_after_five_points(problem, **keywords):
+        def on_point(index, x, special):
+            if index == 5:
+                raise KeyboardInterrupt
+
+        return real(problem, on_point=on_point)
+
+    monkeypatch.setattr(problem_module, "run_problem", interrupted_after_five_points)
+    out = tmp_path / "out"
+    assert main(["run", "--example", "stirred_tank", "--out", str(out)]) == 130
+    captured = capsys.readouterr()
+    assert captured.err.strip().splitlines() == [
+        "contin: interrupted after 6 points; the partial results were written"]
+    document = json.loads((out / "stirred_tank.json").read_text())
+    assert document["status"] == "interrupted" and len(document["points"]) == 6
