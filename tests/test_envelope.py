@@ -238,3 +238,13 @@ def test_the_critical_point_row_is_located_by_heidemann_khalil_with_a_measured_a
     assert critical["residual_norm"] < 1e-12  # the envelope equations at K = 1, both volumes v_c
     assert "Heidemann-Khalil" in critical["info"]["method"]
     assert abs(critical["info"]["smallest_eigenvalue"]) < 1e-10 and abs(critical["info"]["cubic_form"]) < 1e-8
+
+
+def test_an_envelope_that_stops_says_where_in_temperature_pressure_and_composition():
+    # Nitrogen, methane and n-octane (invented feed): the model's branch runs to absurd pressures at
+    # ~30 K and the steps fail there; the message speaks of T, P and the phases, not ln K or ln V.
+    mixture = contin_thermo.mixture(["nitrogen", "methane", "n-octane"], "pr")
+    envelope = contin_thermo.trace_envelope(mixture, [0.5, 0.45, 0.05], check_stability=False)
+    assert not envelope.success
+    assert "lnK_" not in envelope.message and "lnV" not in envelope.message and "lnP" not in envelope.message
+    assert " K, P = " in envelope.message and "incipient phase is nitrogen" in envelope.message

@@ -665,7 +665,7 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
         specials.append(_special("cricondenbar", sp.index, T[sp.index], P[sp.index], sp.located_to,
                                  {"dP_dT": float(slope)}, sp.residual_norm))
     specials.sort(key=lambda s: (s["index"], s["kind"]))
-    status, message, success = branch.status.label, branch.message, branch.status.success
+    status, message, success = branch.status.label, _in_users_terms(branch.message, mixture, z, points[-1]), branch.status.success
     problems = []
     critical_rows = {sp.index for sp in critical}
     trivial = [i for i in range(len(points)) if i not in critical_rows and np.max(np.abs(lnK[i])) < _TRIVIAL]
@@ -715,6 +715,22 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     if success and not critical:
         notes.append("no critical point was passed on this branch")
     return rows, columns, specials, (status, message, success), notes
+
+
+def _in_users_terms(message: str, mixture: Mixture, z: np.ndarray, x: np.ndarray) -> str:
+    """The engine's message with its internal coordinates (ln K, ln T, ln V, ln P) told as T, P and the
+    incipient phase's composition."""
+    marker = " after the point lnK_"
+    if marker not in message:
+        return message
+    head, _, rest = message.partition(marker)
+    reason = rest.split(": ", 1)[1] if ": " in rest else ""
+    n = mixture.size
+    w = np.exp(x[:n]) * z
+    w = w / w.sum()
+    composition = ", ".join(f"{name} {fraction:.4g}" for name, fraction in zip(mixture.names, w))
+    return (f"{head} after the point T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa, where the "
+            f"incipient phase is {composition}" + (f": {reason}" if reason else ""))
 
 
 def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability) -> Envelope:
