@@ -248,3 +248,19 @@ def test_an_envelope_that_stops_says_where_in_temperature_pressure_and_compositi
     assert not envelope.success
     assert "lnK_" not in envelope.message and "lnV" not in envelope.message and "lnP" not in envelope.message
     assert " K, P = " in envelope.message and "incipient phase is nitrogen" in envelope.message
+
+
+def test_a_dew_point_that_wilson_values_miss_is_found_by_successive_substitution():
+    # Methane, ethane and hydrogen sulfide with interaction parameters (a seeded feed of the robustness
+    # benchmark, m013): Newton from Wilson's K-values diverges at 1 bar; successive substitution first
+    # brings them close enough, and the envelope is traced whole.
+    mixture = contin_thermo.mixture(["methane", "ethane", "hydrogen sulfide"], "srk",
+                                    kij={"methane-ethane": -0.0054, "methane-hydrogen sulfide": 0.0837,
+                                         "ethane-hydrogen sulfide": 0.1066})
+    z = np.array([0.6684363849121614, 0.2620068193460432, 0.06955679574179546])
+    x = dew_point(mixture, z, 1e5)
+    system = EnvelopeSystem(mixture, z, 0.0)
+    assert np.max(np.abs(system.evaluate(x[:-1], x[-1], False)[0])) < 1e-10
+    envelope = trace_envelope(mixture, z, check_stability=False)
+    assert envelope.status == "bound_reached" and envelope.success
+    assert sorted(sp["kind"] for sp in envelope.special_points) == ["cricondenbar", "cricondentherm", "critical"]

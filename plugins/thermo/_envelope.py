@@ -270,6 +270,11 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
     x0 = np.concatenate([lnK, [lnT, math.log(v_feed), math.log(v_incipient), math.log(pressure)]])
     x, norm, ok = _newton(system, x0, x0.size - 1, math.log(pressure))
     n = mixture.size
+    if not ok and beta >= 1.0:
+        # Wilson's K-values were too far off for Newton: refine them by successive substitution first.
+        refined = _dew_by_substitution(mixture, z, pressure, T, K)
+        if refined is not None:
+            x, norm, ok = _newton(system, refined, refined.size - 1, math.log(pressure))
     # K = 1 with equal volumes is the trivial solution; K = 1 with distinct volumes is a feed whose
     # components the model cannot tell apart (it boils like one fluid).
     if not ok or (float(np.max(np.abs(x[:n]))) < 1e-4 and abs(x[n + 1] - x[n + 2]) < 1e-3):
@@ -278,6 +283,48 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
             f"(residual {norm:.2g}); try another pressure"
         )
     return x
+
+
+def _dew_by_substitution(mixture: Mixture, z: np.ndarray, pressure: float, T: float, K: np.ndarray,
+                         iterations: int = 200) -> np.ndarray | None:
+    """The dew point at ``pressure`` by successive substitution, as start coordinates of the envelope.
+
+    K = phi_liquid(x) / phi_vapour(z) with x the normalised z / K, and the temperature from the secant
+    method on ln sum z / K = 0 in ln T after each update (Michelsen & Mollerup, Thermodynamic Models,
+    2nd ed., 2007, ch. 12: the classic saturation-point iteration, slow but hard to throw off).
+    Returns None when it does not converge to a non-trivial point.
+    """
+    lnT = math.log(T)
+    previous = None
+    for _ in range(iterations):
+        T = math.exp(lnT)
+        try:
+            incipient = z / K / float(np.sum(z / K))
+            ln_phi_vapour = mixture.ln_phi(T, pressure, z, "vapour")
+            ln_phi_liquid = mixture.ln_phi(T, pressure, incipient, "liquid")
+        except (ValueError, ArithmeticError, InputError):
+            return None
+        K = np.exp(ln_phi_liquid - ln_phi_vapour)
+        error = math.log(float(np.sum(z / K)))
+        if not math.isfinite(error):
+            return None
+        if abs(error) < 1e-11 and previous is not None:
+            break
+        # The secant on the error in ln T; the first step assumes d error / d ln T ~ -5 (a typical
+        # slope of ln sum z / K for hydrocarbons, common practice), bounded to 0.1 in ln T.
+        slope = -5.0 if previous is None or previous[0] == lnT else (error - previous[1]) / (lnT - previous[0])
+        if slope == 0.0 or not math.isfinite(slope):
+            return None
+        previous = (lnT, error)
+        lnT -= max(-0.1, min(0.1, error / slope))
+    else:
+        return None
+    if float(np.max(np.abs(np.log(K)))) < 1e-4:
+        return None
+    incipient = z / K / float(np.sum(z / K))
+    v_feed = mixture.volume(T, pressure, z, "vapour")
+    v_incipient = mixture.volume(T, pressure, incipient, "liquid") * float(np.sum(z / K))
+    return np.concatenate([-np.log(K), [math.log(T), math.log(v_feed), math.log(v_incipient), math.log(pressure)]])
 
 
 # -- results ---------------------------------------------------------------------------------
