@@ -141,6 +141,23 @@ def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.Argument
         help="symbolic back end (default: auto, symengine when installed)",
     )
     run.set_defaults(handler=_run)
+    sweep = subparsers.add_parser(
+        "sweep",
+        help="trace a problem file once per combination of its [sweep] values",
+        description="Run the [sweep] of a problem file: one trace per combination of the listed parameter "
+                    "values, each saved as run-<k>.json the moment it finishes, and summary.csv at the end. "
+                    "Running the same sweep again computes only the runs that are missing.",
+        epilog="examples:\n  contin sweep reactor.toml\n  contin sweep reactor.toml --workers 2 --out reactor-sweep\n"
+               "  contin sweep reactor.toml --scheduler tcp://127.0.0.1:8786",
+    )
+    sweep.add_argument("problem", metavar="PROBLEM.toml", help="the problem file, with a [sweep] section")
+    sweep.add_argument("--workers", type=int, metavar="N", help="run on a local pool of N processes")
+    sweep.add_argument("--scheduler", metavar="ADDRESS",
+                       help="run on a running dask.distributed scheduler (the optional 'distributed' extra)")
+    sweep.add_argument("--out", metavar="DIR", help="the output folder (default: [sweep] output)")
+    sweep.add_argument("--cold", action="store_true",
+                       help="start every run from the problem file's start values (default: from the nearest finished run)")
+    sweep.set_defaults(handler=_sweep)
     if load_plugins:
         _load_plugins(subparsers, stderr or sys.stderr)
     return parser
@@ -205,6 +222,35 @@ def _main(argv, stdout, stderr) -> int:
     except KeyboardInterrupt:
         print("contin: interrupted", file=stderr)
         return 130
+
+
+def _sweep(namespace: argparse.Namespace) -> int:
+    """``contin sweep``: every combination of ``[sweep] over``, saved as it finishes; exit 1 if a run failed."""
+    from ._output import read_input_text
+    from ._problem import MAX_FILE_BYTES, problem_from_text
+    from ._sweep import executor_for, run_sweep
+
+    path = Path(namespace.problem)
+    text = read_input_text(path, f"{path}:", MAX_FILE_BYTES, missing="no such problem file")
+    problem = problem_from_text(text, path)
+    if problem.sweep is None:
+        raise InputError(f"{path}: has no [sweep] section; add one, e.g. [sweep] over = {{ B = [1.0, 2.0] }}")
+    folder = namespace.out if namespace.out is not None else problem.sweep["output"]
+    executor, shutdown = executor_for(namespace.workers, namespace.scheduler)
+    try:
+        runs = run_sweep(text, str(path), problem.sweep["over"], folder, executor=executor, warm=not namespace.cold)
+    finally:
+        if shutdown is not None:
+            shutdown()
+    failed = [run for run in runs if not run.success]
+    reused = sum(run.reused for run in runs)
+    print(f"sweep of {path.name}: {len(runs)} runs ({reused} reused from an earlier sweep), "
+          f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}")
+    for run in failed:
+        values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
+        reason = run.error if run.error is not None else str(run.document.get("message"))
+        print(f"  run {run.index} ({values}): {run.status}: {_one_line(reason)}")
+    return 0 if not failed else 1
 
 
 def _warning_printer(stderr):

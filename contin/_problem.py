@@ -48,9 +48,11 @@ from ._errors import InputError
 from ._names import suggest
 from ._symbolic import SymbolicSystem, compile_expression
 
-__all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS"]
+__all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS",
+           "SWEEP_KEYS"]
 
-TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events")
+TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events", "sweep")
+SWEEP_KEYS = ("over", "output")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
               "folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
@@ -67,6 +69,7 @@ class Problem:
         start: unknown name -> start value.
         options: keyword arguments for :func:`contin.trace` from ``[trace]`` (read-only mapping).
         events: the :class:`~contin.Event` objects of ``[[events]]``.
+        sweep: from ``[sweep]``: ``{"over": {name: (values...)}, "output": folder}``, or None.
     """
 
     path: Path
@@ -74,6 +77,7 @@ class Problem:
     start: Mapping[str, float]
     options: Mapping[str, Any]
     events: tuple = field(default=())
+    sweep: Mapping[str, Any] | None = None
 
     @property
     def name(self) -> str:
@@ -231,7 +235,37 @@ class _Reader:
         system = self.build(equations, unknowns, parameters, constants, kind, labels)
         options = self.trace_options(system)
         events = self.events(system)
-        return Problem(self.path, system, MappingProxyType(dict(unknowns)), MappingProxyType(options), events)
+        sweep = self.sweep(system, options["free"])
+        return Problem(self.path, system, MappingProxyType(dict(unknowns)), MappingProxyType(options), events, sweep)
+
+    def sweep(self, system: SymbolicSystem, free: str) -> Mapping[str, Any] | None:
+        """``[sweep]``: over = { name = [values] } of fixed parameters (their product), output = "folder"."""
+        if "sweep" not in self.data:
+            return None
+        table = self.section("sweep")
+        self.check_keys("sweep", table, SWEEP_KEYS)
+        over = table.get("over")
+        if not isinstance(over, dict) or not over:
+            raise self.fail("sweep", "over", "[sweep] needs over = { name = [values] }, e.g. over = { B = [12.0, 18.0] }")
+        grid: dict[str, tuple[float, ...]] = {}
+        for name, values in over.items():
+            if name == free:
+                raise self.fail("sweep", "over", f"over names {name!r}, the free parameter, which varies along each "
+                                "trace; sweep the fixed parameters")
+            if name not in system.parameters:
+                raise self.fail("sweep", "over", f"over names {name!r}, which is not a declared parameter "
+                                f"(parameters: {', '.join(system.parameters)}){suggest(name, system.parameters)}")
+            if not isinstance(values, list) or not values or not all(
+                    isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in values):
+                raise self.fail("sweep", "over", f"over.{name} = {values!r}; give a non-empty list of finite numbers, "
+                                f"e.g. {name} = [1.0, 2.0]")
+            if len(set(values)) != len(values):
+                raise self.fail("sweep", "over", f"over.{name} gives a value twice; give each value once")
+            grid[name] = tuple(float(v) for v in values)
+        output = table.get("output", "sweep-out")
+        if not isinstance(output, str) or not output.strip() or "\0" in output:
+            raise self.fail("sweep", "output", f"output = {output!r}; give a folder name as text, e.g. output = \"sweep-out\"")
+        return MappingProxyType({"over": MappingProxyType(grid), "output": output})
 
     def values(self, name: str, what: str, required: bool = True) -> dict[str, float]:
         table = self.section(name, required)
