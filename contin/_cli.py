@@ -154,6 +154,8 @@ def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.Argument
     sweep.add_argument("--workers", type=int, metavar="N", help="run on a local pool of N processes")
     sweep.add_argument("--scheduler", metavar="ADDRESS",
                        help="run on a running dask.distributed scheduler (the optional 'distributed' extra)")
+    sweep.add_argument("--timeout", type=float, default=10.0, metavar="SECONDS",
+                       help="with --scheduler: how long to wait for the scheduler to answer (default 10)")
     sweep.add_argument("--out", metavar="DIR", help="the output folder (default: [sweep] output)")
     sweep.add_argument("--cold", action="store_true",
                        help="start every run from the problem file's start values (default: from the nearest finished run)")
@@ -236,7 +238,9 @@ def _sweep(namespace: argparse.Namespace) -> int:
     if problem.sweep is None:
         raise InputError(f"{path}: has no [sweep] section; add one, e.g. [sweep] over = {{ B = [1.0, 2.0] }}")
     folder = namespace.out if namespace.out is not None else problem.sweep["output"]
-    executor, shutdown = executor_for(namespace.workers, namespace.scheduler)
+    if not (namespace.timeout > 0 and namespace.timeout < 3600):
+        raise InputError(f"--timeout {namespace.timeout!r} must be a number of seconds above 0 and below 3600")
+    executor, shutdown = executor_for(namespace.workers, namespace.scheduler, timeout=namespace.timeout)
     try:
         runs = run_sweep(text, str(path), problem.sweep["over"], folder, executor=executor, warm=not namespace.cold)
     finally:

@@ -162,7 +162,18 @@ def test_bad_command_lines_are_refused(tmp_path, capsys, monkeypatch):
 
 def test_a_scheduler_needs_the_distributed_extra_or_an_answer(tmp_path, capsys, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    code, _, err = run(capsys, write(tmp_path), "--scheduler", "tcp://127.0.0.1:9")
+    code, _, err = run(capsys, write(tmp_path), "--scheduler", "tcp://127.0.0.1:9", "--timeout", "1")
     assert code == 2 and len(err.strip().splitlines()) == 1
     assert "optional extra" in err or "no dask scheduler answered" in err
     assert not (tmp_path / "reactor-sweep").exists()
+
+
+def test_a_sweep_on_a_real_local_dask_cluster_gives_the_same_runs(tmp_path, capsys, monkeypatch):
+    distributed = pytest.importorskip("distributed")
+    monkeypatch.chdir(tmp_path)
+    path = write(tmp_path, "{ B = [11.5, 14.0] }")
+    assert run(capsys, path, "--out", "serial")[0] == 0
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None) as cluster:
+        code, out, _ = run(capsys, path, "--out", "dask", "--scheduler", cluster.scheduler_address)
+    assert code == 0 and "2 succeeded" in out
+    assert rows(tmp_path / "serial") == rows(tmp_path / "dask")
