@@ -8,6 +8,7 @@ results do not replace measured data, applicable design codes or review by a qua
 from ._binary import BinaryDiagram, pxy, txy
 from ._build import mixture
 from ._caution import CAUTION, caution_comment
+from ._characterise import Characterisation, PseudoComponent, characterise
 from ._components import Component, all_components, custom_component, load_components, lookup, parse_component
 from ._envelope import Envelope, trace_envelope
 from ._eos import FAMILIES, GAS_CONSTANT, CubicFamily, family
@@ -20,6 +21,7 @@ from ._units import parse_pressure, parse_temperature
 __all__ = [
     "BinaryDiagram",
     "CAUTION",
+    "Characterisation",
     "Component",
     "CubicFamily",
     "CurveResult",
@@ -27,9 +29,11 @@ __all__ = [
     "FAMILIES",
     "GAS_CONSTANT",
     "Mixture",
+    "PseudoComponent",
     "PureFluid",
     "all_components",
     "caution_comment",
+    "characterise",
     "critical_point",
     "custom_component",
     "family",
