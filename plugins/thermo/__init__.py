@@ -12,6 +12,7 @@ from ._characterise import Characterisation, PseudoComponent, characterise
 from ._components import Component, all_components, custom_component, load_components, lookup, parse_component
 from ._envelope import Envelope, trace_envelope
 from ._eos import FAMILIES, GAS_CONSTANT, CubicFamily, family
+from ._kij import KijDefaults, default_kij
 from ._mixture import Mixture
 from ._mixture_critical import critical_point as mixture_critical_point
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
@@ -28,6 +29,7 @@ __all__ = [
     "Envelope",
     "FAMILIES",
     "GAS_CONSTANT",
+    "KijDefaults",
     "Mixture",
     "PseudoComponent",
     "PureFluid",
@@ -36,6 +38,7 @@ __all__ = [
     "characterise",
     "critical_point",
     "custom_component",
+    "default_kij",
     "family",
     "load_components",
     "lookup",
