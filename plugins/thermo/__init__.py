@@ -17,6 +17,7 @@ from ._mixture import Mixture
 from ._mixture_critical import critical_point as mixture_critical_point
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
 from ._stability import tangent_plane_test
+from ._translation import VolumeShifts, translate_curve, volume_shifts
 from ._units import parse_pressure, parse_temperature
 
 __all__ = [
@@ -33,6 +34,7 @@ __all__ = [
     "Mixture",
     "PseudoComponent",
     "PureFluid",
+    "VolumeShifts",
     "all_components",
     "caution_comment",
     "characterise",
@@ -52,5 +54,7 @@ __all__ = [
     "spinodal_curve",
     "tangent_plane_test",
     "trace_envelope",
+    "translate_curve",
     "txy",
+    "volume_shifts",
 ]

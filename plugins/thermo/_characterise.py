@@ -459,6 +459,14 @@ class Characterisation:
     caution: str = CAUTION
     notes: tuple[str, ...] = field(default=())
 
+    @property
+    def molar_masses(self) -> dict:
+        """name -> molar mass (g/mol) of every component whose molar mass is known (pseudo-components
+        from the split, table fluids from their formulas)."""
+        masses = {c.name: molar_mass_of(c.name) for c in self.components}
+        masses.update({p.name: p.molar_mass for p in self.pseudo})
+        return {name: mass for name, mass in masses.items() if mass is not None}
+
     def mixture(self, eos="pr", kij=None):
         """A :class:`~contin_thermo._mixture.Mixture` of :attr:`components` under ``eos``.
 
