@@ -175,8 +175,8 @@ def test_heavier_plus_fractions_raise_the_cricondentherm():
     temperatures = []
     for mass in (120.0, 150.0, 180.0, 210.0):
         feed = [("methane", 0.82), ("ethane", 0.07), ("propane", 0.04), ("n-butane", 0.02), ("C7+", 0.05, mass, 0.80)]
-        envelope = trace_envelope(characterise(feed, n_pseudo=2).mixture("pr"), characterise(feed, n_pseudo=2).z,
-                                  check_stability=False)
+        result = characterise(feed, n_pseudo=2)
+        envelope = trace_envelope(result.mixture("pr"), result.z, check_stability=False)
         temperatures.append(envelope.special("cricondentherm")["values"]["T"])
     assert np.all(np.diff(temperatures) > 20.0), temperatures
 
@@ -239,3 +239,13 @@ def test_lump_refuses_too_many_pseudo_components():
     groups = characterise(ANALYSIS).groups
     with pytest.raises(InputError, match="n_pseudo=100: the number of pseudo-components"):
         lump(groups, 100)
+
+
+def test_rows_may_be_components_or_mappings():
+    oil = custom_component("lab-solvent", 480.0, 3.3e6, 0.27)
+    rows = [{"name": "methane", "z": 0.9}, (oil, 0.05), {"name": "C7+", "z": 0.05, "molar_mass": 150.0,
+                                                         "specific_gravity": 0.78}]
+    result = characterise(rows)
+    assert result.components[1] is oil
+    assert result.z[:2] == pytest.approx([0.9, 0.05], rel=1e-15)
+    assert "lab-solvent" not in result.molar_masses and result.molar_masses["methane"] == pytest.approx(16.04, abs=0.01)

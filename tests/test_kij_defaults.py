@@ -5,7 +5,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from contin import InputError
-from contin_thermo import custom_component, lookup, trace_envelope
+from contin_thermo import CAUTION, custom_component, lookup, trace_envelope
 from contin_thermo._characterise import characterise
 from contin_thermo._kij import chueh_prausnitz, critical_volume, default_kij, kij_table
 
@@ -72,6 +72,9 @@ def test_characterised_feed_gets_every_default_with_its_source():
     assert heavy == sorted(heavy) and 0.0 < heavy[0]  # heavier lumps: larger size ratio to methane
     assert pairs[("methane", "ethane")]["kij"] == 0.0 and "common practice" in pairs[("methane", "ethane")]["source"]
     assert pairs[("hydrogen sulfide", "methane")]["kij"] == 0.0850
+    unknown = pairs[("hydrogen sulfide", result.components[-1].name)]  # H2S with heavy ends: not in the file
+    assert unknown["kij"] == 0.0 and "no default for this pair in the table" in unknown["source"]
+    assert kij.caution == CAUTION
     # The matrix is one the mixture accepts, and the envelope traces with it.
     envelope = trace_envelope(result.mixture("pr", kij="defaults"), result.z, check_stability=False)
     assert envelope.special("cricondentherm") is not None

@@ -36,6 +36,7 @@ import numpy as np
 
 from contin import InputError
 
+from ._caution import CAUTION
 from ._components import Component, lookup
 from ._eos import GAS_CONSTANT
 
@@ -47,6 +48,7 @@ _PSEUDO = re.compile(r"^C\d+(\+|-C\d+\+?| group)$")
 _SOURCE_CP = ("Chueh & Prausnitz, AIChE J. 13 (1967) 1099, exponent {n:g}; Vc = Zc R Tc/Pc with "
               "Zc = 0.291 - 0.080 omega (Pitzer et al. 1955, memory)")
 _SOURCE_ZERO = "no default for this pair: 0 (hydrocarbon pairs: common practice)"
+_SOURCE_UNKNOWN = "no default for this pair in the table: 0; give a value if one is published for it"
 
 
 @lru_cache(maxsize=1)
@@ -82,6 +84,13 @@ def _canonical(component: Component) -> str:
     return "heavy" if found.name in HEAVY_TABLE_NAMES else found.name
 
 
+def _hydrocarbon(kind: str) -> bool:
+    from ._characterise import _FORMULAS
+
+    formula = _FORMULAS.get(kind)
+    return kind == "heavy" or (formula is not None and set(formula) <= set("CH0123456789"))
+
+
 @dataclass(frozen=True)
 class KijDefaults:
     """A k_ij matrix with the source of every pair.
@@ -90,12 +99,14 @@ class KijDefaults:
         names: component names, in order; eos: ``pr`` or ``srk``.
         matrix: symmetric (N, N) with zero diagonal, read-only.
         sources: ``(name_i, name_j) -> source`` for every pair i < j.
+        caution: the project's caution (interaction parameters are fitted, not universal).
     """
 
     names: tuple[str, ...]
     eos: str
     matrix: np.ndarray
     sources: dict
+    caution: str = CAUTION
 
     def pairs(self) -> list[dict]:
         """Every pair i < j: ``component_1``, ``component_2``, ``kij``, ``source`` (for the run record)."""
@@ -144,7 +155,8 @@ def default_kij(
     for i in range(n):
         for j in range(i + 1, n):
             pair = frozenset((kinds[i], kinds[j]))
-            value, source = 0.0, _SOURCE_ZERO
+            value = 0.0
+            source = _SOURCE_ZERO if _hydrocarbon(kinds[i]) and _hydrocarbon(kinds[j]) else _SOURCE_UNKNOWN
             if len(pair) == 2 and pair in table:
                 value, source = table[pair]
             elif pair == frozenset(("methane", "heavy")) and methane_heavy == "chueh-prausnitz":

@@ -34,6 +34,7 @@ import numpy as np
 
 from contin import InputError
 
+from ._caution import CAUTION
 from ._components import Component
 from ._eos import GAS_CONSTANT, family
 
@@ -70,12 +71,14 @@ class VolumeShifts:
         names: component names; eos: ``srk`` or ``pr``.
         c: shifts, m^3/mol (read-only array); v_translated = v - sum x_i c_i.
         sources: where each shift comes from.
+        caution: the project's caution (translated densities are estimates too).
     """
 
     names: tuple[str, ...]
     eos: str
     c: np.ndarray
     sources: tuple[str, ...]
+    caution: str = CAUTION
 
     def of(self, x: Sequence[float]) -> float:
         """The mixture's shift sum x_i c_i (m^3/mol) for mole fractions ``x`` (normalised here)."""
