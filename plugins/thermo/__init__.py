@@ -8,30 +8,39 @@ results do not replace measured data, applicable design codes or review by a qua
 from ._binary import BinaryDiagram, pxy, txy
 from ._build import mixture
 from ._caution import CAUTION, caution_comment
+from ._characterise import Characterisation, PseudoComponent, characterise
 from ._components import Component, all_components, custom_component, load_components, lookup, parse_component
 from ._envelope import Envelope, trace_envelope
 from ._eos import FAMILIES, GAS_CONSTANT, CubicFamily, family
+from ._kij import KijDefaults, default_kij
 from ._mixture import Mixture
 from ._mixture_critical import critical_point as mixture_critical_point
 from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
 from ._stability import tangent_plane_test
+from ._translation import VolumeShifts, translate_curve, volume_shifts
 from ._units import parse_pressure, parse_temperature
 
 __all__ = [
     "BinaryDiagram",
     "CAUTION",
+    "Characterisation",
     "Component",
     "CubicFamily",
     "CurveResult",
     "Envelope",
     "FAMILIES",
     "GAS_CONSTANT",
+    "KijDefaults",
     "Mixture",
+    "PseudoComponent",
     "PureFluid",
+    "VolumeShifts",
     "all_components",
     "caution_comment",
+    "characterise",
     "critical_point",
     "custom_component",
+    "default_kij",
     "family",
     "load_components",
     "lookup",
@@ -45,5 +54,7 @@ __all__ = [
     "spinodal_curve",
     "tangent_plane_test",
     "trace_envelope",
+    "translate_curve",
     "txy",
+    "volume_shifts",
 ]
