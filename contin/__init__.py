@@ -9,6 +9,7 @@ from ._cache import CompileCache, default_cache
 from ._crossing import Crossing, Landing
 from ._errors import ContinError, InputError, TraceError
 from ._events import Event
+from ._follow import follow
 from ._lyapunov import first_lyapunov_coefficient
 from ._natural import sweep
 from ._options import TraceOptions
@@ -54,6 +55,7 @@ __all__ = [
     "document_record",
     "expression_event",
     "first_lyapunov_coefficient",
+    "follow",
     "json_document",
     "load_problem",
     "plot_branch",
