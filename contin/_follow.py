@@ -94,9 +94,12 @@ class _FoldSystem(_Defining):
     def __init__(self, system, values, first, second, b, c) -> None:
         super().__init__(system, values, first, second, ())
         self.b, self.c = b, c
+        self.last = None  # (u, parameters, null_vectors result, F_uz[v] or None) of the last point
 
     def null_vectors(self, u, full):
         """(F, [F_u | F_p | F_q], v, w, g) at a point."""
+        if self.last is not None and np.array_equal(self.last[0], u) and np.array_equal(self.last[1], full):
+            return self.last[2]
         f, jacobian = self.calculus.full(u, full)
         n = self.n
         matrix = _bordered(jacobian[:, :n], self.b, self.c)
@@ -104,7 +107,20 @@ class _FoldSystem(_Defining):
         rhs[n] = 1.0
         right = np.linalg.solve(matrix, rhs)
         left = np.linalg.solve(matrix.T, rhs)
-        return f, jacobian, right[:n], left[:n], float(right[n])
+        found = f, jacobian, right[:n], left[:n], float(right[n])
+        self.last = (u.copy(), full.copy(), found, None)
+        return found
+
+    def along_null_vector(self, u, full, v):
+        """F_uz[v] (n x (n + 2)), kept for the point last linearised (the converged point of a step,
+        where the events are evaluated next)."""
+        last = self.last
+        if last is not None and last[3] is not None and np.array_equal(last[0], u) and np.array_equal(last[1], full):
+            return last[3]
+        along = self.calculus.along(u, v, full)
+        if last is not None and np.array_equal(last[0], u) and np.array_equal(last[1], full):
+            self.last = (last[0], last[1], last[2], along)
+        return along
 
     def residual(self, y, p):
         u, full = self.split(y, p)
@@ -114,7 +130,7 @@ class _FoldSystem(_Defining):
     def linearise(self, y, p, free):
         u, full = self.split(y, p)
         f, jacobian, v, w, g = self.null_vectors(u, full)
-        gradient = -(w @ self.calculus.along(u, v, full))  # d g / d(u, p, q)
+        gradient = -(w @ self.along_null_vector(u, full, v))  # d g / d(u, p, q)
         n = self.n
         whole = np.vstack([jacobian, gradient])
         return np.append(f, g), whole[:, : n + 1], self._free_column(whole, y, p, free)
@@ -128,7 +144,7 @@ class _FoldSystem(_Defining):
         """<w, F_uu[v, v]> with the bordered normalisation: zero at a cusp."""
         u, full = self.split(y, p)
         _, _, v, w, _ = self.null_vectors(u, full)
-        return float(w @ (self.calculus.along(u, v, full, accurate=True)[:, : self.n] @ v))
+        return float(w @ (self.along_null_vector(u, full, v)[:, : self.n] @ v))
 
     def bogdanov_takens_test(self, y, p) -> float:
         """<w, v>: zero where the zero eigenvalue of F_u becomes double (a Jordan block)."""

@@ -54,8 +54,8 @@ class JacobianCalculus:
         blocks = [np.asarray(ju, dtype=float)]
         if self.columns:
             blocks.append(np.asarray(jp, dtype=float).reshape(-1, 1))
-            for k in self.columns[1:]:
-                blocks.append(np.asarray(self.system.linearise(u, p, k)[2], dtype=float).reshape(-1, 1))
+            if len(self.columns) > 1:  # the other columns without a second Jacobian of the unknowns
+                blocks.append(np.asarray(self.system.parameter_jacobian(u, p), dtype=float)[:, list(self.columns[1:])])
         return np.asarray(f, dtype=float), np.hstack(blocks)
 
     def _step(self, u: np.ndarray, x: np.ndarray, power: float) -> float:
