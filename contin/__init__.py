@@ -7,7 +7,9 @@ from ._bifurcation import switch_branch
 from ._branch import Branch, SpecialPoint
 from ._cache import CompileCache, default_cache
 from ._crossing import Crossing, Landing
+from ._diagram import Diagram, build_diagram
 from ._errors import ContinError, InputError, TraceError
+from ._explore import explore
 from ._events import Event
 from ._follow import follow
 from ._lyapunov import first_lyapunov_coefficient
@@ -34,6 +36,7 @@ __all__ = [
     "CompileCache",
     "ContinError",
     "Crossing",
+    "Diagram",
     "Event",
     "InputError",
     "Landing",
@@ -50,9 +53,11 @@ __all__ = [
     "TraceOptions",
     "__version__",
     "analyse_structure",
+    "build_diagram",
     "compile_expression",
     "default_cache",
     "document_record",
+    "explore",
     "expression_event",
     "first_lyapunov_coefficient",
     "follow",
