@@ -78,3 +78,19 @@ def test_a_point_without_a_complex_pair_is_refused_with_a_message():
     system = contin.SymbolicSystem({"fx": "-x + beta", "fy": "x - 2*y"}, {"x": 0.0, "y": 0.0}, {"beta": 0.0}, kind="ode")
     with pytest.raises(contin.InputError, match="no complex pair of eigenvalues.*not a Hopf point"):
         contin.first_lyapunov_coefficient(system, [0.0, 0.0], [0.0])
+
+
+def test_a_coefficient_that_cannot_be_computed_is_nan_not_a_crash():
+    # A residual that refuses |x| > 1e-3: its Jacobian at the Hopf point (steps of about 6e-6) is fine,
+    # the second differences for l1 (steps of about 2.5e-3) are not; l1 is then NaN.
+    from contin._lyapunov import lyapunov_facts
+
+    def residual(u, p):
+        x, y = u
+        if abs(x) > 1e-3:
+            raise ValueError("outside the model's range")
+        return [p[0] * x - y + x * (x * x + y * y), x + p[0] * y + y * (x * x + y * y)]
+
+    system = contin.CallableSystem(residual, ["x", "y"], {"beta": 0.0}, kind="ode")
+    facts = lyapunov_facts(system, np.array([0.0, 0.0]), np.array([0.0]))
+    assert set(facts) == {"first_lyapunov_coefficient"} and np.isnan(facts["first_lyapunov_coefficient"])
