@@ -561,7 +561,18 @@ def switch_branch(branch, point, system, *, direction: int = 1, guess: str = "bi
     if not (math.isfinite(step) and step > 0.0):
         raise InputError(f"step={trace_keywords.get('step')!r} must be a positive finite number")
     x0 = x_star + step * perpendicular
-    switched = trace(system, x0[:n], free=branch.free, parameters={**parameters, branch.free: float(x0[n])},
-                     tangent=perpendicular, direction=1, **trace_keywords)
+    try:
+        switched = trace(system, x0[:n], free=branch.free, parameters={**parameters, branch.free: float(x0[n])},
+                         tangent=perpendicular, direction=1, **trace_keywords)
+    except InputError as error:
+        if "singular" not in str(error):
+            raise
+        where = ", ".join(f"{c} = {v:.6g}" for c, v in zip(columns, x_star))
+        used = switch.get("note") or ("the bifurcation equation (coefficients "
+                                      f"{', '.join(f'{v:.3g}' for v in switch.get('coefficients', ()))}) was used"
+                                      if switch["guess"] == "bifurcation_equation" else "the perpendicular guess was used")
+        raise InputError(f"switching cannot decide at the branch point at {where} (a degenerate branch point?): "
+                         f"{used}, and its guess starts where the Jacobian is singular; start contin.trace near "
+                         "the other branch yourself (with tangent=)") from None
     switched.stats["switch"] = switch
     return switched

@@ -60,3 +60,15 @@ def test_an_unknown_guess_is_refused_with_a_message(shallow):
     system, branch, point = shallow
     with pytest.raises(contin.InputError, match="guess='perpendicullar' is not known.*did you mean 'perpendicular'"):
         contin.switch_branch(branch, point, system, guess="perpendicullar")
+
+
+def test_a_degenerate_branch_point_is_refused_with_a_message():
+    # u (u^2 - p^3) = 0: u = 0 meets the cusp u^2 = p^3 at the origin, where every second derivative
+    # vanishes (exact): the bifurcation equation holds only rounding, and every guess from it or the
+    # perpendicular one starts where the Jacobian is singular.
+    system = contin.SymbolicSystem({"f": "u*(u**2 - p**3)"}, {"u": 0.0}, {"p": -1.0})
+    branch = contin.trace(system, free="p", bounds={"p": (-1.0, 1.0)}, step=0.05)
+    (point,) = branch.special("branch_point")
+    with pytest.raises(contin.InputError, match=r"switching cannot decide at the branch point at u = 0, p = .*"
+                                                r"degenerate branch point\?.*start contin.trace near the other branch"):
+        contin.switch_branch(branch, point, system, bounds={"p": (-1.0, 1.0)}, step=0.05)
