@@ -25,9 +25,11 @@ Hlavacek, SIAM J. Appl. Math. 45, 1985; Kuznetsov 2004, section 10.2)
 
     F = 0,   (F_u^2 + kappa I) v = 0,   <c, v> = 1,   <c, F_u v> = 0,
 
-2n + 2 equations in (u, v, kappa, p, q), with c fixed at the start. It stays regular where omega goes
-to zero, so the Bogdanov-Takens point (kappa = 0) is crossed and located; the trace stops there,
-since beyond it the curve is one of neutral saddles.
+2n + 2 equations in (u, v, kappa, p, q), with c fixed at the start. It does not divide by omega, so
+the curve reaches omega = 0; there the fold curve (with kappa = 0 and v its null vector, which also
+solves these equations) crosses it, so the Bogdanov-Takens point is a branch point of this system,
+located by the driver's branch-point refinement and reported as ``bogdanov_takens``; the trace stops
+just past it (kappa < 0: the curve goes on as one of neutral saddles).
 
 Codimension-two points are located as terminal or non-terminal events of the driver on converged
 points: ``cusp`` on a fold curve where the quadratic coefficient <w, F_uu[v, v]> changes sign,
