@@ -7,8 +7,12 @@ from ._bifurcation import switch_branch
 from ._branch import Branch, SpecialPoint
 from ._cache import CompileCache, default_cache
 from ._crossing import Crossing, Landing
+from ._diagram import Diagram, build_diagram
 from ._errors import ContinError, InputError, TraceError
+from ._explore import explore
 from ._events import Event
+from ._follow import follow
+from ._lyapunov import first_lyapunov_coefficient
 from ._natural import sweep
 from ._options import TraceOptions
 from ._output import json_document
@@ -32,6 +36,7 @@ __all__ = [
     "CompileCache",
     "ContinError",
     "Crossing",
+    "Diagram",
     "Event",
     "InputError",
     "Landing",
@@ -48,10 +53,14 @@ __all__ = [
     "TraceOptions",
     "__version__",
     "analyse_structure",
+    "build_diagram",
     "compile_expression",
     "default_cache",
     "document_record",
+    "explore",
     "expression_event",
+    "first_lyapunov_coefficient",
+    "follow",
     "json_document",
     "load_problem",
     "plot_branch",

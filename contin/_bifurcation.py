@@ -440,17 +440,22 @@ def _trace_keyword_names() -> tuple[str, ...]:
                  if parameter.kind is inspect.Parameter.KEYWORD_ONLY)
 
 
-def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords):
+def switch_branch(branch, point, system, *, direction: int = 1, guess: str = "bifurcation_equation",
+                  **trace_keywords):
     """Trace the other branch through a simple branch point found on ``branch``.
 
     At a simple branch point the null space of dG/dx (n x (n + 1)) is two-dimensional: it holds the
-    tangents of both crossing branches. The new trace starts one ``step`` (the trace keyword, 0.01 by
-    default) from the branch point along the null vector orthogonal to the traced branch's tangent,
-    and corrects that guess on the hyperplane orthogonal to the same vector (Keller 1977, section 6;
-    Seydel 2010, section 5.6). This is the simple perpendicular guess: the algebraic bifurcation
-    equation is not solved, so where the second branch crosses at a shallow angle the guess may fall
-    back onto the first branch (the new branch then looks like the old one: compare them), and a
-    branch point where more than two branches meet is not resolved.
+    tangents of both crossing branches. With ``guess="bifurcation_equation"`` (the default) the
+    direction of the other branch is the root of the algebraic bifurcation equation (second-order
+    data at the point, :mod:`contin._switching`; Keller 1977, Allgower & Georg 1990) that is not the
+    traced branch's; where that equation gives no two real directions (a degenerate point) the
+    perpendicular guess is used instead and ``stats["switch"]["note"]`` says why. With
+    ``guess="perpendicular"`` the direction is the null vector orthogonal to the traced branch's
+    tangent (Keller 1977, section 6; Seydel 2010, section 5.6), which may fall back onto the first
+    branch where the second crosses it at a shallow angle. The new trace starts one ``step`` (the
+    trace keyword, 0.01 by default) from the branch point along that direction and corrects the guess
+    on the hyperplane orthogonal to it. ``stats["switch"]`` tells which guess was used. A branch
+    point where more than two branches meet is not resolved.
 
     Args:
         branch: the :class:`~contin.Branch` the branch point was found on.
@@ -459,6 +464,7 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
         direction: +1 or -1, which way along the new branch: +1 moves the free parameter up, or, where
             the perpendicular direction leaves it fixed (a vertical branch, as at a pitchfork), the
             first unknown that moves.
+        guess: ``"bifurcation_equation"`` or ``"perpendicular"`` (see above).
         trace_keywords: passed on to :func:`contin.trace` (``step``, ``max_step``, ``bounds``,
             ``events``, ...); ``start``, ``free``, ``parameters`` and ``tangent`` are set here.
 
@@ -484,6 +490,9 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     if isinstance(direction, bool) or direction not in (1, -1):
         raise InputError(f"direction={direction!r} must be 1 or -1")
+    if guess not in ("bifurcation_equation", "perpendicular"):
+        raise InputError(f"guess={guess!r} is not known; use 'bifurcation_equation' or 'perpendicular'"
+                         f"{suggest(str(guess), ('bifurcation_equation', 'perpendicular'))}")
     columns = tuple(system.unknowns) + (branch.free,)
     if branch.free not in system.parameters or columns != tuple(branch.columns):
         raise InputError(f"system does not match the branch: the branch has columns {', '.join(branch.columns)}, "
@@ -530,6 +539,17 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
         along = np.array([1.0, 0.0])
     perpendicular = np.array([-along[1], along[0]]) @ null
     perpendicular /= np.linalg.norm(perpendicular)
+    switch = {"guess": "perpendicular"}
+    if guess == "bifurcation_equation":
+        from ._switching import bifurcation_directions
+
+        other, facts = bifurcation_directions(extended, x_star, jacobian, reference)
+        if other is None:
+            switch["note"] = f"{facts['reason']}; the perpendicular guess is used"
+        else:
+            perpendicular = other
+            switch = {"guess": "bifurcation_equation", "coefficients": list(facts["coefficients"]),
+                      "cosine_to_traced_branch": facts["cosine_to_traced_branch"]}
     largest = float(np.abs(perpendicular).max())
     order = [n] + list(range(n))  # the free parameter first, then the unknowns in order
     leading = next(k for k in order if abs(perpendicular[k]) >= 1e-3 * largest)
@@ -541,5 +561,18 @@ def switch_branch(branch, point, system, *, direction: int = 1, **trace_keywords
     if not (math.isfinite(step) and step > 0.0):
         raise InputError(f"step={trace_keywords.get('step')!r} must be a positive finite number")
     x0 = x_star + step * perpendicular
-    return trace(system, x0[:n], free=branch.free, parameters={**parameters, branch.free: float(x0[n])},
-                 tangent=perpendicular, direction=1, **trace_keywords)
+    try:
+        switched = trace(system, x0[:n], free=branch.free, parameters={**parameters, branch.free: float(x0[n])},
+                         tangent=perpendicular, direction=1, **trace_keywords)
+    except InputError as error:
+        if "singular" not in str(error):
+            raise
+        where = ", ".join(f"{c} = {v:.6g}" for c, v in zip(columns, x_star))
+        used = switch.get("note") or ("the bifurcation equation (coefficients "
+                                      f"{', '.join(f'{v:.3g}' for v in switch.get('coefficients', ()))}) was used"
+                                      if switch["guess"] == "bifurcation_equation" else "the perpendicular guess was used")
+        raise InputError(f"switching cannot decide at the branch point at {where} (a degenerate branch point?): "
+                         f"{used}, and its guess starts where the Jacobian is singular; start contin.trace near "
+                         "the other branch yourself (with tangent=)") from None
+    switched.stats["switch"] = switch
+    return switched

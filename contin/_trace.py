@@ -16,6 +16,7 @@ from ._errors import InputError, TraceError
 from ._events import Event, crossed
 from ._extended import CallbackFailure, Counters, Extended, describe_non_finite
 from ._locate import Located, locate_level, locate_zero
+from ._lyapunov import lyapunov_facts
 from ._names import suggest
 from ._options import TraceOptions
 from ._status import Status
@@ -799,6 +800,7 @@ class _Run:
                 self.special.append(self.special_point("branch_point", "branch point", index, located))
             elif kind == "hopf":
                 facts = {key: payload[key] for key in ("angular_frequency", "period")}
+                facts.update(lyapunov_facts(self.system, *self.extended.split(located.x)))
                 self.special.append(self.special_point("hopf", "Hopf point", index, located, facts))
             elif kind == "event":
                 event = payload

@@ -25,7 +25,7 @@ def test_brusselator_hopf_point_and_frequency(a):
     assert hopf.values["v"] == pytest.approx((1.0 + a * a) / a, abs=1e-8)
     assert hopf.info["angular_frequency"] == pytest.approx(a, abs=1e-8)
     assert hopf.info["period"] == pytest.approx(2 * math.pi / a, abs=1e-8)
-    assert set(hopf.info) == {"angular_frequency", "period"}
+    assert set(hopf.info) == {"angular_frequency", "period", "first_lyapunov_coefficient"}
     assert hopf.name == "Hopf point"
     assert hopf.located_to <= 1e-9
     assert branch.special("branch_point") == ()
