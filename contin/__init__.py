@@ -3,7 +3,7 @@
 The public face of the engine; everything not named here is private and free to change.
 """
 
-from ._bifurcation import switch_branch
+from ._switching import switch_branch
 from ._branch import Branch, SpecialPoint
 from ._cache import CompileCache, default_cache
 from ._crossing import Crossing, Landing

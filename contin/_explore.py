@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._bifurcation import switch_branch
+from ._switching import switch_branch
 from ._branch import Branch
 from ._diagram import Diagram, build_diagram
 from ._errors import InputError

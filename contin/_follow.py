@@ -297,7 +297,7 @@ def follow(branch: Branch, special_point, system: System, free: Sequence[str] = 
             system, ``free`` repeats a name, leaves out ``branch.free`` or names a parameter the
             system does not have, a keyword set here or not taken by :func:`contin.trace`.
     """
-    from ._bifurcation import _trace_keyword_names
+    from ._switching import trace_keyword_names
     from ._trace import trace
 
     if not isinstance(branch, Branch):
@@ -309,7 +309,7 @@ def follow(branch: Branch, special_point, system: System, free: Sequence[str] = 
                          "pass the system that was traced")
     names = _check_free(free, system, branch)
     point = _point_of(branch, special_point, system)
-    allowed = _trace_keyword_names()
+    allowed = trace_keyword_names()
     for name in sorted(trace_keywords):
         if name in _SET_HERE:
             raise InputError(f"follow sets {name!r} itself (from the special point); leave it out")

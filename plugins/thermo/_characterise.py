@@ -75,7 +75,7 @@ from contin import InputError
 from contin._names import suggest
 
 from ._caution import CAUTION
-from ._components import OMEGA_REFUSE_RANGE, OMEGA_WARN_RANGE, Component, lookup
+from ._components import FORMULAS as _FORMULAS, OMEGA_REFUSE_RANGE, OMEGA_WARN_RANGE, Component, lookup
 
 __all__ = [
     "CORRELATIONS",
@@ -127,14 +127,6 @@ _LUMP_SHARED = ("z: sum; molar mass: mole-fraction average; specific gravity: vo
 
 # Standard atomic weights (IUPAC, conventional values), for the molar masses of the table's fluids.
 _ATOMS = {"C": 12.011, "H": 1.008, "N": 14.007, "O": 15.999, "S": 32.06, "Ar": 39.948, "He": 4.002602}
-_FORMULAS = {
-    "methane": "CH4", "ethane": "C2H6", "propane": "C3H8", "n-butane": "C4H10", "isobutane": "C4H10",
-    "n-pentane": "C5H12", "isopentane": "C5H12", "n-hexane": "C6H14", "n-heptane": "C7H16", "n-octane": "C8H18",
-    "n-nonane": "C9H20", "n-decane": "C10H22", "n-dodecane": "C12H26", "ethylene": "C2H4", "propylene": "C3H6",
-    "cyclohexane": "C6H12", "benzene": "C6H6", "toluene": "C7H8", "nitrogen": "N2", "oxygen": "O2", "argon": "Ar",
-    "hydrogen": "H2", "helium": "He", "carbon monoxide": "CO", "carbon dioxide": "CO2", "hydrogen sulfide": "H2S",
-    "sulfur dioxide": "SO2", "ammonia": "NH3", "water": "H2O", "methanol": "CH4O",
-}
 _PLUS = re.compile(r"^\s*C(\d+)\s*\+\s*$", re.IGNORECASE)
 
 

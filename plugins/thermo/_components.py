@@ -295,3 +295,14 @@ def parse_component(text: str, argument: str = "--component") -> Component:
             "e.g. 'my-oil,620.5,2.1e6,0.52'"
         )
     return custom_component(*parts, source=f"{argument} on the command line", argument=f"{argument} {text!r}")
+
+
+#: Molecular formulas of fluids of the table (for molar masses and for telling hydrocarbons apart).
+FORMULAS = {
+    "methane": "CH4", "ethane": "C2H6", "propane": "C3H8", "n-butane": "C4H10", "isobutane": "C4H10",
+    "n-pentane": "C5H12", "isopentane": "C5H12", "n-hexane": "C6H14", "n-heptane": "C7H16", "n-octane": "C8H18",
+    "n-nonane": "C9H20", "n-decane": "C10H22", "n-dodecane": "C12H26", "ethylene": "C2H4", "propylene": "C3H6",
+    "cyclohexane": "C6H12", "benzene": "C6H6", "toluene": "C7H8", "nitrogen": "N2", "oxygen": "O2", "argon": "Ar",
+    "hydrogen": "H2", "helium": "He", "carbon monoxide": "CO", "carbon dioxide": "CO2", "hydrogen sulfide": "H2S",
+    "sulfur dioxide": "SO2", "ammonia": "NH3", "water": "H2O", "methanol": "CH4O",
+}

@@ -37,7 +37,7 @@ import numpy as np
 from contin import InputError
 
 from ._caution import CAUTION
-from ._components import Component, lookup
+from ._components import FORMULAS, Component, lookup
 from ._eos import GAS_CONSTANT
 
 __all__ = ["KijDefaults", "chueh_prausnitz", "critical_volume", "default_kij", "kij_table"]
@@ -85,9 +85,7 @@ def _canonical(component: Component) -> str:
 
 
 def _hydrocarbon(kind: str) -> bool:
-    from ._characterise import _FORMULAS
-
-    formula = _FORMULAS.get(kind)
+    formula = FORMULAS.get(kind)
     return kind == "heavy" or (formula is not None and set(formula) <= set("CH0123456789"))
 
 
