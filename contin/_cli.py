@@ -226,6 +226,45 @@ def _main(argv, stdout, stderr) -> int:
         return 130
 
 
+def _run_curves(namespace: argparse.Namespace, problem, name: str, outputs, targets) -> int:
+    """``contin run`` on a problem with ``follow`` or ``explore``: several branches and their diagram."""
+    from ._output import fill_text
+    from ._problem import run_curves
+
+    csv_path, json_path, plot_path, record_path = targets
+    if record_path is not None:
+        raise InputError("--record keeps one branch; a problem with follow or explore gives several: "
+                         "leave --record out (--out writes every branch)")
+    columns = tuple(problem.system.unknowns) + (problem.options["free"],)
+    x_axis, y_axis = _axes(namespace.axes, columns)
+    diagram = run_curves(problem)
+    document = {"branches": [branch.to_dict() for branch in diagram.branches], "diagram": diagram.to_dict()}
+    if json_path is not None:
+        json_text = json.dumps(document, indent=1) + "\n"
+        outputs.add("--out", json_path, lambda target: fill_text(target, json_text))
+        folder = json_path.parent
+        for number, branch in enumerate(diagram.branches):
+            target = csv_path if number == 0 else outputs.inside("--out", folder, f"{name}-{number}.csv")
+            outputs.add("--out", target, lambda where, text=branch.to_csv(): fill_text(where, text))
+    if plot_path is not None:
+        from ._plot import _pyplot, save_figure
+
+        _pyplot(headless=True)
+        ax = diagram.plot(x_axis, y_axis)
+        outputs.add("--plot", plot_path, lambda target: save_figure(ax.figure, target))
+    outputs.commit()
+    if namespace.json:
+        print(json.dumps(document))
+    else:
+        for number, branch in enumerate(diagram.branches):
+            heading = "the one-parameter branch" if number == 0 else (
+                f"{branch.stats.get('curve', 'branch')} curve in {', '.join(branch.columns[len(columns) - 1:])}"
+                if "curve" in branch.stats else f"branch {number}")
+            print(f"-- branch {number}: {heading}")
+            print(summary(branch, name))
+    return 0 if all(branch.status.success for branch in diagram.branches) else 1
+
+
 def _sweep(namespace: argparse.Namespace) -> int:
     """``contin sweep``: every combination of ``[sweep] over``, saved as it finishes; exit 1 if a run failed."""
     from ._output import read_input_text
@@ -350,6 +389,8 @@ def _run(namespace: argparse.Namespace) -> int:
             problem = load_problem(path, backend=namespace.backend)
             text = _read_text(path)
             file_name = path.name
+            if problem.curves is not None:
+                return _run_curves(namespace, problem, name, outputs, targets)
         columns = tuple(problem.system.unknowns) + (problem.options.get("free", ""),)
         x_axis, y_axis = _axes(namespace.axes, columns)
         progress = Progress(columns, quiet=namespace.quiet or namespace.json, label=name)

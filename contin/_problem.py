@@ -48,13 +48,14 @@ from ._errors import InputError
 from ._names import suggest
 from ._symbolic import SymbolicSystem, compile_expression
 
-__all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "TOP_KEYS", "TRACE_KEYS", "EVENT_KEYS",
-           "SWEEP_KEYS"]
+__all__ = ["Problem", "load_problem", "problem_from_text", "run_problem", "run_curves", "TOP_KEYS", "TRACE_KEYS",
+           "EVENT_KEYS", "SWEEP_KEYS"]
 
 TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace", "events", "sweep")
 SWEEP_KEYS = ("over", "output")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
-              "folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction")
+              "folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction", "follow",
+              "start_at", "explore", "max_branches")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
 _REQUIRED = ("unknowns", "parameters", "equations", "trace")
 
@@ -70,6 +71,8 @@ class Problem:
         options: keyword arguments for :func:`contin.trace` from ``[trace]`` (read-only mapping).
         events: the :class:`~contin.Event` objects of ``[[events]]``.
         sweep: from ``[sweep]``: ``{"over": {name: (values...)}, "output": folder}``, or None.
+        curves: from ``[trace]`` ``follow``/``explore``: ``{"follow": "fold" | "hopf", "second": name,
+            "start_at": row or None}`` or ``{"explore": True, "max_branches": N}``; None for one branch.
     """
 
     path: Path
@@ -78,6 +81,7 @@ class Problem:
     options: Mapping[str, Any]
     events: tuple = field(default=())
     sweep: Mapping[str, Any] | None = None
+    curves: Mapping[str, Any] | None = None
 
     @property
     def name(self) -> str:
@@ -234,9 +238,11 @@ class _Reader:
         labels = {name: f"{self.where('equations', name)}: equation {name!r}" for name in equations}
         system = self.build(equations, unknowns, parameters, constants, kind, labels)
         options = self.trace_options(system)
+        curves = options.pop("curves", None)
         events = self.events(system)
         sweep = self.sweep(system, options["free"])
-        return Problem(self.path, system, MappingProxyType(dict(unknowns)), MappingProxyType(options), events, sweep)
+        return Problem(self.path, system, MappingProxyType(dict(unknowns)), MappingProxyType(options), events, sweep,
+                       None if curves is None else MappingProxyType(curves))
 
     def sweep(self, system: SymbolicSystem, free: str) -> Mapping[str, Any] | None:
         """``[sweep]``: over = { name = [values] } of fixed parameters (their product), output = "folder"."""
@@ -302,6 +308,9 @@ class _Reader:
         if "free" not in table:
             raise self.fail("trace", None, "[trace] needs free = \"name\": the parameter that varies along the branch")
         free = table["free"]
+        curves = self.curves(table, system)
+        if curves is not None and "follow" in curves:
+            free = free[0]
         if not isinstance(free, str) or free not in system.parameters:
             hint = suggest(str(free), system.parameters)
             raise self.fail(
@@ -353,7 +362,53 @@ class _Reader:
             if corrector not in ("arclength", "local"):
                 raise self.fail("trace", "corrector", f"corrector = {corrector!r}; use \"arclength\" or \"local\"")
             options["corrector"] = corrector
+        if curves is not None:
+            options["curves"] = curves
         return options
+
+    def curves(self, table: Mapping, system: SymbolicSystem) -> dict | None:
+        """``follow = "fold" | "hopf"`` with ``free = [p, q]`` (and ``start_at``), or ``explore = true``
+        (and ``max_branches``): what is traced besides the one-parameter branch."""
+        follow, explore = table.get("follow"), table.get("explore")
+        for key, needs in (("start_at", "follow"), ("max_branches", "explore")):
+            if key in table and needs not in table:
+                raise self.fail("trace", key, f"{key} goes with {needs} = ...")
+        if follow is None and explore is None:
+            free = table.get("free")
+            if isinstance(free, list):
+                raise self.fail("trace", "free", f"free = {free!r} names two parameters, which goes with follow = "
+                                "\"fold\" or \"hopf\"; for one branch give one name, e.g. free = \"p\"")
+            return None
+        if follow is not None and explore is not None:
+            raise self.fail("trace", "explore", "follow and explore both given; a problem file does one or the other")
+        if explore is not None:
+            if not isinstance(explore, bool):
+                raise self.fail("trace", "explore", f"explore = {explore!r}; use true or false")
+            budget = table.get("max_branches", 8)
+            if isinstance(budget, bool) or not isinstance(budget, int) or budget < 1:
+                raise self.fail("trace", "max_branches", f"max_branches = {budget!r}; give a whole number of at least 1")
+            return {"explore": True, "max_branches": budget} if explore else None
+        if follow not in ("fold", "hopf"):
+            raise self.fail("trace", "follow", f"follow = {follow!r}; use \"fold\" or \"hopf\""
+                                               f"{suggest(str(follow), ('fold', 'hopf'))}")
+        if follow == "hopf" and system.kind != "ode":
+            raise self.fail("trace", "follow", "follow = \"hopf\" needs kind = \"ode\": Hopf points belong to "
+                                               "equilibria of du/dt = F(u, p)")
+        free = table.get("free")
+        if not (isinstance(free, list) and len(free) == 2 and all(isinstance(n, str) for n in free)):
+            raise self.fail("trace", "free", f"with follow, free = {free!r} must name two parameters, e.g. "
+                                             "free = [\"p\", \"q\"] (the branch's, then the second)")
+        if free[0] == free[1]:
+            raise self.fail("trace", "free", f"free names {free[0]!r} twice; give two different parameters")
+        for name in free:
+            if name not in system.parameters:
+                raise self.fail("trace", "free", f"free names {name!r}, which is not a declared parameter "
+                                f"(parameters: {', '.join(system.parameters)}){suggest(name, system.parameters)}")
+        start_at = table.get("start_at")
+        if start_at is not None and (isinstance(start_at, bool) or not isinstance(start_at, int) or start_at < 0):
+            raise self.fail("trace", "start_at", f"start_at = {start_at!r}; give the point number of a special point "
+                                                 "in the summary (a whole number)")
+        return {"follow": follow, "second": free[1], "start_at": start_at}
 
     def coordinate_table(self, key: str, value: object, coordinates: tuple[str, ...], system: SymbolicSystem) -> dict:
         example = "{ p = [-2.0, 2.0] }" if key == "bounds" else "{ p = [0.1, 0.2] }"
@@ -425,3 +480,79 @@ def run_problem(problem: Problem, **overrides: Any):
         return trace(problem.system, dict(problem.start), events=list(problem.events), **options)
     except InputError as error:
         raise InputError(f"{problem.path}: [trace]: {error}") from None
+
+
+def run_curves(problem: Problem, on_point=None):
+    """Trace a problem whose ``[trace]`` has ``follow`` or ``explore``: the one-parameter branch first,
+    then the curve of its fold or Hopf point in two parameters (:func:`contin.follow`), or every branch
+    leaving its branch points (:func:`contin.explore`).
+
+    Returns:
+        The :class:`~contin.Diagram` (``branches`` and the graph).
+
+    Raises:
+        InputError: the branch has no such point to follow (or none at ``start_at``), or what the
+            engine refuses, prefixed with the file.
+    """
+    from ._diagram import build_diagram
+    from ._explore import explore
+    from ._follow import follow
+
+    curves = problem.curves
+    if curves is None:
+        raise InputError(f"{problem.path}: [trace] has neither follow nor explore")
+    options = dict(problem.options)
+    try:
+        if "explore" in curves:
+            free = options.pop("free")
+            options.pop("direction", None)
+            return explore(problem.system, dict(problem.start), free=free, max_branches=curves["max_branches"],
+                           events=list(problem.events), **options)
+        first = run_problem(problem, on_point=on_point)
+        kind, free = curves["follow"], first.free
+        candidates = [sp for sp in first.special_points if sp.kind == kind and
+                      (kind == "hopf" or sp.info.get("coordinate") == free)]
+        if curves["start_at"] is not None:
+            candidates = [sp for sp in candidates if sp.index == curves["start_at"]]
+            if not candidates:
+                raise InputError(f"[trace]: start_at = {curves['start_at']} is not the point number of a "
+                                 f"{'fold in ' + free if kind == 'fold' else 'Hopf point'} on the branch (those are "
+                                 f"{[sp.index for sp in first.special_points if sp.kind == kind] or 'none'})")
+        if not candidates:
+            raise InputError(f"[trace]: follow = {kind!r}, but the branch has no "
+                             f"{'fold in ' + free if kind == 'fold' else 'Hopf point'} to follow (its special points: "
+                             f"{', '.join(sp.kind for sp in first.special_points) or 'none'})")
+        keep = {key: options[key] for key in ("step", "min_step", "max_step", "max_points", "tolerance", "bounds")
+                if key in options}
+        # The curve both ways from the point: the second parameter up, then down.
+        pieces = [follow(first, candidates[0], problem.system, free=(free, curves["second"]), direction=way, **keep)
+                  for way in (1, -1)]
+    except InputError as error:
+        message = str(error)
+        raise InputError(message if message.startswith(str(problem.path)) else f"{problem.path}: {message}") from None
+    diagram = build_diagram([first])
+    for piece in pieces:
+        _add_curve(diagram, piece, candidates[0])
+    return diagram
+
+
+def _add_curve(diagram, curve, origin) -> None:
+    """Put a followed curve into a one-branch diagram: its special points as nodes, joined from the
+    point it was followed from."""
+    graph = diagram.graph
+    number = len(diagram.branches)
+    source = next((node for node, data in graph.nodes(data=True) if data["index"] == origin.index
+                   and data["kind"] == origin.kind), None)
+    chain = [(source, 0)] if source is not None else []
+    last = len(curve.points) - 1
+    entries = [(sp.kind, sp.name, sp.index) for sp in curve.special_points]
+    if not entries or entries[-1][2] != last:
+        entries.append(("end", f"end ({curve.status.label})", last))
+    for kind, name, index in entries:
+        key = f"n{graph.number_of_nodes()}"
+        graph.add_node(key, kind=kind, name=name, branch=number, index=index,
+                       **{c: float(v) for c, v in zip(curve.columns, curve.points[index])})
+        chain.append((key, index))
+    for (a, i), (b, j) in zip(chain, chain[1:]):
+        graph.add_edge(a, b, branch=number, points=int(j - i + 1))
+    diagram.branches = (*diagram.branches, curve)
