@@ -13,7 +13,7 @@ from ._envelope import Envelope, trace_envelope
 from ._eos import FAMILIES, GAS_CONSTANT, CubicFamily, family
 from ._mixture import Mixture
 from ._mixture_critical import critical_point as mixture_critical_point
-from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
+from ._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
 from ._stability import tangent_plane_test
 from ._units import parse_pressure, parse_temperature
 
@@ -27,7 +27,7 @@ __all__ = [
     "FAMILIES",
     "GAS_CONSTANT",
     "Mixture",
-    "PureFluid",
+    "CubicFluid",
     "all_components",
     "caution_comment",
     "critical_point",

@@ -18,7 +18,7 @@ from ._caution import CAUTION
 from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
 from ._components import all_components, custom_component, load_components, lookup
 from ._eos import FAMILIES, family
-from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
+from ._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
 
 __all__ = ["register", "run_pure"]
 
@@ -68,7 +68,7 @@ def register(subparsers) -> None:
         epilog="examples:\n"
                "  contin thermo saturation --fluid propane --eos pr --at-pressures '1 atm' --plot propane.png\n"
                "  contin thermo saturation --tc 431.2 --pc 39.7bar --omega 0.21 --name blend-A --eos srk --json\n"
-               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature -40degC --units engineering",
+               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature -40degC --units degC-bar",
     )
     _add_fluid_options(saturation)
     _add_range_options(saturation)
@@ -127,7 +127,7 @@ def _single(text, kind: str, argument: str):
     return parse_quantity(text, kind, argument)
 
 
-def _fluid(args) -> PureFluid:
+def _fluid(args) -> CubicFluid:
     own = [name for name in ("tc", "pc", "omega") if getattr(args, name) is not None]
     if args.components_file is not None and own:
         raise InputError(f"--components-file and --{own[0]} cannot be combined: name a fluid of the file with "
@@ -153,10 +153,10 @@ def _fluid(args) -> PureFluid:
         )
     else:
         raise InputError("name the fluid with --fluid NAME (see `contin thermo components`) or give --tc, --pc and --omega")
-    return PureFluid(component, family(args.eos, "--eos"))
+    return CubicFluid(component, family(args.eos, "--eos"))
 
 
-def _check_two_phase(fluid: PureFluid, start: float | None) -> None:
+def _check_two_phase(fluid: CubicFluid, start: float | None) -> None:
     """Refuse constants whose model fluid has no vapour-liquid region at the start temperature.
 
     A cubic equation of state is subcritical at T exactly when a(T)/(b R T) exceeds its value at the

@@ -157,7 +157,7 @@ _EXAMPLES = {
                 "  contin thermo envelope --mixture 'methane=0.82,ethane=0.09,propane=0.05,n-butane=0.03,n-pentane=0.01' "
                 "--eos pr --plot envelope.png\n"
                 "  contin thermo envelope --mixture 'methane=0.7,carbon dioxide=0.2,n-hexane=0.1' --kij "
-                "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units engineering --csv env.csv\n"
+                "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units degC-bar --csv env.csv\n"
                 "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json",
     "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
            "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
