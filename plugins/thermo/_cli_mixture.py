@@ -145,7 +145,7 @@ def _common(parser, *, fractions: bool = True) -> None:
     parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
     parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                         help="a user component (K, Pa); repeatable")
-    parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state")
+    parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state: srk or pr")
     parser.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     parser.add_argument("--csv", default=None, metavar="FILE", help="write the points as CSV")
     if fractions:
@@ -184,7 +184,8 @@ def register(thermo_subparsers) -> None:
     envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
     envelope.set_defaults(handler=run_envelope)
-    for name, option, unit in (("pxy", "--temperature", "K"), ("txy", "--pressure", "PA")):
+    for name, option, unit, example in (("pxy", "--temperature", "K", "'30 degC' or '86 degF'"),
+                                        ("txy", "--pressure", "PA", "'5 bar' or '2 MPa'")):
         parser = thermo_subparsers.add_parser(
             name, help=f"binary {name} diagram", epilog=_EXAMPLES[name],
             description=f"Trace the {name} diagram of a binary by continuation in composition, from one pure "
@@ -193,7 +194,7 @@ def register(thermo_subparsers) -> None:
         _common(parser, fractions=False)
         add_output_options(parser)
         parser.add_argument(option, required=True, metavar=unit,
-                            help=f"fixed {option[2:]} ({unit} if bare; units such as '30 degC' or '5 bar' allowed)")
+                            help=f"fixed {option[2:]} ({unit} if bare; with a unit, e.g. {example})")
         parser.add_argument("--plot", default=None, metavar="FILE", help=f"draw the {name} diagram")
         parser.set_defaults(handler=run_binary, diagram=name)
 

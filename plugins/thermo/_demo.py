@@ -290,7 +290,7 @@ def register(subparsers) -> None:
         description="Trace the phase envelope of an invented rich gas (cricondentherm, critical point, "
                     "cricondenbar), the saturation curves of two of its components, and the envelope for "
                     "four values of one interaction parameter; write CSV, JSON and PNG files.",
-        epilog="example: contin demo --out contin-demo --units degF-psia",
+        epilog="examples:\n  contin demo\n  contin demo --out contin-demo --units degF-psia",
     )
     parser.add_argument("--out", default="contin-demo", metavar="DIR",
                         help="folder for the CSV, JSON and PNG files (default: ./contin-demo)")
