@@ -69,51 +69,23 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
 def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
     """Symmetric kij matrix from ``"methane-ethane=0.01,..."``; zero for pairs not given.
 
-    Names may contain hyphens (``n-butane``): every split at a hyphen is tried and the one whose two
-    sides are both components of the mixture is used.
+    The text is split into (pair, value) items here; the pairs are read by the model layer's
+    :func:`contin_thermo._kij.kij_matrix` (hyphenated names such as ``n-butane`` work).
 
     Raises:
         InputError: a malformed entry, a pair not in the mixture, a value outside (-1, 1), a pair of
-            a component with itself.
+            a component with itself, a pair given twice.
     """
-    from ._components import lookup
+    from ._kij import kij_matrix
     from ._units import parse_number
 
-    n = len(names)
-    kij = np.zeros((n, n))
-    if not text:
-        return kij
-    given: dict[tuple[int, int], str] = {}
-    for part in [p.strip() for p in str(text).split(",") if p.strip()]:
+    items = []
+    for part in [p.strip() for p in str(text or "").split(",") if p.strip()]:
         if "=" not in part:
             raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
         pair, value = part.rsplit("=", 1)
-        number = parse_number(value, f"--kij entry {part[:60]!r}")
-        found = None
-        pieces = pair.strip().split("-")
-        for k in range(1, len(pieces)):
-            a, b = "-".join(pieces[:k]), "-".join(pieces[k:])
-            try:
-                ca, cb = lookup(a, extra, argument="--kij"), lookup(b, extra, argument="--kij")
-            except InputError:
-                continue
-            if ca.name in names and cb.name in names:
-                found = (names.index(ca.name), names.index(cb.name))
-                break
-        if found is None:
-            raise InputError(f"--kij pair {pair.strip()!r} is not a pair of components of the mixture ({', '.join(names)})")
-        i, j = found
-        if i == j:
-            raise InputError(f"--kij pair {pair.strip()!r} pairs a component with itself; kij is zero on the diagonal")
-        if not -1.0 < number < 1.0:
-            raise InputError(f"--kij {pair.strip()!r} = {number:g} lies outside (-1, 1)")
-        key = (min(i, j), max(i, j))
-        if key in given:
-            raise InputError(f"--kij gives the pair {names[key[0]]}-{names[key[1]]} twice ({given[key]!r} and "
-                             f"{pair.strip()!r}); give each pair once")
-        given[key] = pair.strip()
-        kij[i, j] = kij[j, i] = number
-    return kij
+        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
+    return kij_matrix(items, list(names), extra, argument="--kij")
 
 
 def build_mixture(args, *, fractions: bool = True):
