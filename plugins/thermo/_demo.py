@@ -25,9 +25,10 @@ from ._caution import CAUTION
 from ._cli_common import add_units_option
 from ._components import lookup
 from ._eos import family
-from ._envelope import trace_envelope
-from ._mixture import Mixture
-from ._pure import saturation_curve
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # the models are imported when the demo runs: registering the command stays cheap
+    from ._mixture import Mixture
 from ._units import output_units
 
 __all__ = ["FEED", "SCENARIO", "INTERACTION_STUDY", "run_demo", "register"]
@@ -47,6 +48,8 @@ SPECIAL_KINDS = ("cricondentherm", "critical", "cricondenbar")
 
 
 def _mixture(kij_value: float = 0.0) -> tuple[Mixture, np.ndarray]:
+    from ._mixture import Mixture
+
     names = list(FEED)
     kij = np.zeros((len(names), len(names)))
     (a, b), _ = INTERACTION_STUDY
@@ -207,6 +210,9 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
             half-written), or an unknown unit system.
     """
     from contin._plot import _pyplot
+
+    from ._envelope import trace_envelope
+    from ._pure import saturation_curve
 
     stream = stream if stream is not None else sys.stdout
     shown = output_units(units)
