@@ -24,7 +24,7 @@ from scipy.optimize import fsolve
 
 from contin_thermo._components import lookup
 from contin_thermo._eos import family
-from contin_thermo._pure import PureFluid, SaturationSystem, saturation_curve
+from contin_thermo._pure import CubicFluid, SaturationSystem, saturation_curve
 
 COLD = """
 import time, json
@@ -53,7 +53,7 @@ def warm(fluid: str, eos: str, repeat: int) -> tuple[float, object]:
     return statistics.median(times), result
 
 
-def evaluation_cost(fluid: PureFluid, repeat: int = 2000) -> float:
+def evaluation_cost(fluid: CubicFluid, repeat: int = 2000) -> float:
     """Seconds per call of the system's combined residual-and-Jacobian evaluation."""
     system = SaturationSystem(fluid)
     x_l, x_v, p = fluid.saturation_at(0.7)
@@ -66,7 +66,7 @@ def evaluation_cost(fluid: PureFluid, repeat: int = 2000) -> float:
     return (time.perf_counter() - began) / repeat
 
 
-def natural_stepping(fluid: PureFluid, points: int) -> dict:
+def natural_stepping(fluid: CubicFluid, points: int) -> dict:
     """Step T on a uniform grid from 0.4 Tc to Tc with fsolve on (ln(v_l/b - 1), ln(v_v/b - 1))."""
     grid = np.linspace(0.4, 1.0, points)
     x_l, x_v, _ = fluid.saturation_at(grid[0])
@@ -107,7 +107,7 @@ def natural_stepping(fluid: PureFluid, points: int) -> dict:
             "last_point_is_the_critical_point": bool(solved == points and abs(gap_at_last) < 1e-9)}
 
 
-def _reduced_mu(fluid: PureFluid, x: float, theta: float, p: float) -> float:
+def _reduced_mu(fluid: CubicFluid, x: float, theta: float, p: float) -> float:
     f = fluid.family
     alpha, _ = fluid.alpha(theta)
     if f.delta1 == f.delta2:
@@ -123,7 +123,7 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=20)
     args = parser.parse_args()
     for eos in ("vdw", "rk", "srk", "pr"):
-        fluid = PureFluid(lookup(args.fluid), family(eos))
+        fluid = CubicFluid(lookup(args.fluid), family(eos))
         cold_times = cold(args.fluid, eos)
         seconds, result = warm(args.fluid, eos, args.repeat)
         points = len(result.points)

@@ -1,77 +1,59 @@
 """contin: pseudo-arclength continuation of parameter-dependent nonlinear systems F(u, p) = 0.
 
-The public face of the engine; everything not named here is private and free to change.
+The public face of the engine; everything not named here is private and free to change. Names are
+imported on first use (see ``contin._lazy``): ``import contin`` and the command line start without
+sympy, scipy or matplotlib.
 """
 
-from ._switching import switch_branch
-from ._branch import Branch, SpecialPoint
-from ._cache import CompileCache, default_cache
-from ._crossing import Crossing, Landing
-from ._diagram import Diagram, build_diagram
-from ._errors import ContinError, InputError, TraceError
-from ._explore import explore
-from ._events import Event
-from ._follow import follow
-from ._lyapunov import first_lyapunov_coefficient
-from ._natural import sweep
-from ._options import TraceOptions
-from ._output import json_document
-from ._plot import plot_branch
-from ._problem import Problem, load_problem, run_problem
-from ._progress import Progress
-from ._record import document_record, read_record, restart, run_record, write_record
-from ._sensitivity import Sensitivities, sensitivities
-from ._status import Status
-from ._structure import Structure, StructureWarning, analyse_structure
-from ._study import run_study
-from ._symbolic import SymbolicSystem, compile_expression, expression_event
-from ._system import CallableSystem, System
-from ._trace import trace
+from ._lazy import lazy_exports
 
 __version__ = "0.1.0"
 
-__all__ = [
-    "Branch",
-    "CallableSystem",
-    "CompileCache",
-    "ContinError",
-    "Crossing",
-    "Diagram",
-    "Event",
-    "InputError",
-    "Landing",
-    "Problem",
-    "Progress",
-    "Sensitivities",
-    "SpecialPoint",
-    "Status",
-    "Structure",
-    "StructureWarning",
-    "SymbolicSystem",
-    "System",
-    "TraceError",
-    "TraceOptions",
-    "__version__",
-    "analyse_structure",
-    "build_diagram",
-    "compile_expression",
-    "default_cache",
-    "document_record",
-    "explore",
-    "expression_event",
-    "first_lyapunov_coefficient",
-    "follow",
-    "json_document",
-    "load_problem",
-    "plot_branch",
-    "read_record",
-    "restart",
-    "run_problem",
-    "run_record",
-    "run_study",
-    "sensitivities",
-    "sweep",
-    "switch_branch",
-    "trace",
-    "write_record",
-]
+# public name -> the private module that defines it ("module:attribute" where the names differ)
+_EXPORTS = {
+    "Branch": "._branch",
+    "CallableSystem": "._system",
+    "CompileCache": "._cache",
+    "ContinError": "._errors",
+    "Crossing": "._crossing",
+    "Diagram": "._diagram",
+    "Event": "._events",
+    "InputError": "._errors",
+    "Landing": "._crossing",
+    "Problem": "._problem",
+    "Progress": "._progress",
+    "Sensitivities": "._sensitivity",
+    "SpecialPoint": "._branch",
+    "Status": "._status",
+    "Structure": "._structure",
+    "StructureWarning": "._structure",
+    "SymbolicSystem": "._symbolic",
+    "System": "._system",
+    "TraceError": "._errors",
+    "TraceOptions": "._options",
+    "analyse_structure": "._structure",
+    "build_diagram": "._diagram",
+    "compile_expression": "._symbolic",
+    "default_cache": "._cache",
+    "document_record": "._record",
+    "explore": "._explore",
+    "expression_event": "._symbolic",
+    "first_lyapunov_coefficient": "._lyapunov",
+    "follow": "._follow",
+    "json_document": "._output",
+    "load_problem": "._problem",
+    "plot_branch": "._plot",
+    "read_record": "._record",
+    "restart": "._record",
+    "run_problem": "._problem",
+    "run_record": "._record",
+    "run_study": "._study",
+    "sensitivities": "._sensitivity",
+    "sweep": "._natural",
+    "switch_branch": "._switching",
+    "trace": "._trace",
+    "write_record": "._record",
+}
+
+__all__ = sorted(["__version__", *_EXPORTS])
+__getattr__, __dir__ = lazy_exports(__name__, _EXPORTS, globals())

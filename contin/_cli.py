@@ -121,7 +121,7 @@ def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.Argument
     )
     source = run.add_mutually_exclusive_group()
     source.add_argument("problem", nargs="?", metavar="PROBLEM.toml", help="the problem file")
-    source.add_argument("--example", metavar="NAME", help="run a shipped example problem file")
+    source.add_argument("--example", metavar="NAME", help="run a shipped example problem file, e.g. stirred_tank (see --list-examples)")
     source.add_argument("--list-examples", action="store_true", help="list the shipped example problem files")
     source.add_argument("--from", dest="record_in", metavar="RECORD",
                         help="continue from a run record (with --restart-at)")
@@ -297,9 +297,16 @@ def _sweep(namespace: argparse.Namespace) -> int:
 
 
 def _warning_printer(stderr):
-    """Warnings as one ``contin: warning:`` line each, without the file and line of the code that warned."""
+    """Warnings as one ``contin: warning:`` line each, without the file and line of the code that warned,
+    and each text once per run (the structure of a system is checked by more than one step)."""
+    shown: set[tuple[type, str]] = set()
+
     def show(message, category, filename, lineno, file=None, line=None):
-        print(f"contin: warning: {_one_line(str(message))}", file=stderr)
+        text = _one_line(str(message))
+        if (category, text) in shown:
+            return
+        shown.add((category, text))
+        print(f"contin: warning: {text}", file=stderr)
 
     return show
 

@@ -204,7 +204,7 @@ _OPTIONS = {
                                     "blend-X,520,2.9e6,-0.9"]),
     "--temperature": _QUANTITY, "--pressure": _QUANTITY, "--from-pressure": _QUANTITY,
     "--quality": st.sampled_from(["0.5", "0.1,0.9", "2", "nan", "a", ""]), "--units": st.sampled_from(
-        ["si", "engineering", "imperial"]), "--name": _TEXT,
+        ["si", "degC-bar", "degF-psia", "engineering", "imperial"]), "--name": _TEXT,
 }
 _FLAGS = ["--json", "--quiet", "--normalise"]
 _COMMANDS = ["saturation", "spinodal", "critical", "components", "envelope", "pxy", "txy", ""]

@@ -220,3 +220,36 @@ def test_ctrl_c_mid_trace_writes_the_partial_files_and_exits_130(tmp_path, capsy
         "contin: interrupted after 6 points; the partial results were written"]
     document = json.loads((out / "stirred_tank.json").read_text())
     assert document["status"] == "interrupted" and len(document["points"]) == 6
+
+
+SPLIT_PROBLEM = """\
+kind = "algebraic"
+
+[unknowns]
+x = 0.1
+y = 1.0
+
+[parameters]
+a = 0.01
+
+[equations]
+first = "x**2 - a"
+second = "y**2 - a - 1"
+
+[trace]
+free = "a"
+bounds = { a = [0.0, 1.0] }
+max_points = 50
+"""
+
+
+def test_a_structure_warning_reaches_the_user_as_one_line_once(tmp_path, capsys):
+    path = tmp_path / "split.toml"
+    path.write_text(SPLIT_PROBLEM)
+    code = main(["run", str(path), "--quiet"])
+    out, err = capsys.readouterr()
+    assert code == 0 and "bound" in out
+    # x**2 = a and y**2 = a + 1 share no unknown: two independent subsystems, told once, without a file path
+    assert err.splitlines() == [
+        "contin: warning: the system splits into 2 independent subsystems (equation groups {first}; {second}); "
+        "the free parameter moves each of them separately"]

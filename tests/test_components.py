@@ -48,6 +48,34 @@ def test_aliases_and_case_are_accepted(alias, name):
     assert lookup(alias).name == name
 
 
+@pytest.mark.parametrize("alias, name", [("nC6", "n-hexane"), ("n-C7", "n-heptane"), ("nc8", "n-octane"),
+                                         ("nC10", "n-decane"), ("n-C12", "n-dodecane"), ("heptane", "n-heptane")])
+def test_n_alkanes_keep_their_n_prefixed_names(alias, name):
+    assert lookup(alias).name == name
+
+
+@pytest.mark.parametrize("bare, alkane", [("C6", "n-hexane"), ("C7", "n-heptane"), ("c8", "n-octane"),
+                                          ("C9", "n-nonane"), ("C10", "n-decane"), ("C12", "n-dodecane")])
+def test_bare_carbon_numbers_are_fractions_not_components(bare, alkane):
+    # in gas and oil analyses C6, C7, ... are carbon-number fractions, not n-alkanes (common practice)
+    count = bare[1:]
+    with pytest.raises(InputError, match=rf"^--fluid: 'C{count}' is a carbon-number fraction in gas analyses, not a "
+                                         rf"component here; for {alkane} write 'nC{count}' or '{alkane}'$"):
+        lookup(bare)
+
+
+def test_carbon_number_without_a_table_alkane_and_plus_fractions():
+    with pytest.raises(InputError, match=r"^--mixture: 'C11' is a carbon-number fraction in gas analyses, not a "
+                                         r"component here; describe the fraction as a component of your own with "
+                                         r"its Tc, Pc and omega$"):
+        lookup("C11", argument="--mixture")
+    with pytest.raises(InputError, match=r"^--fluid: 'C7\+' is a plus fraction in gas analyses \(all of carbon "
+                                         r"number 7 and above\), not a component here"):
+        lookup("C7+")
+    mine = custom_component("C7", 540.0, 2.7e6, 0.35)
+    assert lookup("C7", extra=[mine]) is mine  # a component of the user's own may take the name
+
+
 def test_unknown_fluid_suggests_the_closest_name():
     with pytest.raises(InputError, match=r"unknown component 'metane' in --fluid; did you mean 'methane'\?"):
         lookup("metane")

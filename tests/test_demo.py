@@ -40,7 +40,7 @@ def test_demo_writes_every_file_and_prints_the_special_points(demo):
     ])
     for kind in ("cricondentherm", "critical", "cricondenbar"):
         assert kind in out
-    assert "degC" in out and "bar" in out  # engineering units in the summary by default
+    assert "degC" in out and "bar" in out  # degC-bar units in the summary by default
     assert out.rstrip().splitlines()[-1].startswith("Caution:")
     envelope = json.loads((folder / "envelope.json").read_text())
     kinds = {sp["kind"] for sp in envelope["special_points"]}

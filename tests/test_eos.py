@@ -139,10 +139,10 @@ def test_family_names_are_case_insensitive():
 def test_scalar_alpha_of_the_pure_fluid_matches_the_family(name):
     # The hot-path scalar copy in contin_thermo._pure must be the family's alpha (common practice).
     from contin_thermo._components import custom_component
-    from contin_thermo._pure import PureFluid
+    from contin_thermo._pure import CubicFluid
 
     f = family(name)
-    fluid = PureFluid(custom_component("x", 350.0, 4e6, 0.6), f)
+    fluid = CubicFluid(custom_component("x", 350.0, 4e6, 0.6), f)
     for theta in (0.3, 0.9, 1.0, 1.7):
         alpha, dalpha, _ = f.alpha(theta * 350.0, 350.0, 0.6)
         got = fluid.alpha(theta)

@@ -138,7 +138,7 @@ def test_thermo_outputs_share_the_same_checks(tmp_path, capsys):
 
 
 def test_thermo_critical_mixture_csv_follows_units(tmp_path, capsys):
-    code, _, err = run(capsys, *MIXTURE_CRITICAL, "--csv", str(tmp_path / "c.csv"), "--units", "engineering")
+    code, _, err = run(capsys, *MIXTURE_CRITICAL, "--csv", str(tmp_path / "c.csv"), "--units", "degC-bar")
     assert code == 0, err
     text = (tmp_path / "c.csv").read_text()
     assert "T [degC], P [bar]" in text

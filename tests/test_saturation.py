@@ -9,7 +9,7 @@ from hypothesis import given, settings, strategies as st
 from contin import InputError
 from contin_thermo._components import custom_component, lookup
 from contin_thermo._eos import GAS_CONSTANT, family
-from contin_thermo._pure import PureFluid, critical_point, saturation_curve
+from contin_thermo._pure import CubicFluid, critical_point, saturation_curve
 
 # An invented fluid, with round critical constants, for reduced-variable checks.
 TEST_FLUID = custom_component("test fluid", 400.0, 4.0e6, 0.2)
@@ -120,7 +120,7 @@ def test_near_critical_points_follow_the_square_root_law(eos):
 def test_rows_have_equal_pressures_and_fugacities(tr, omega, eos):
     # Law: every output row is a coexistence state, checked with the direct pressure and fugacity
     # formulas (not the divided differences the trace solves) (common practice).
-    fluid = PureFluid(custom_component("x", 300.0, 5.0e6, omega), family(eos))
+    fluid = CubicFluid(custom_component("x", 300.0, 5.0e6, omega), family(eos))
     (row,) = saturation_curve(fluid, at_temperatures=[tr * 300.0]).at
     x_l, x_v = row[2] / fluid.b, row[3] / fluid.b
     p = row[1] / fluid.pressure_unit
@@ -155,7 +155,7 @@ def test_low_start_temperature_is_accurate():
     result = saturation_curve("methane", "pr", from_temperature=0.15 * 190.56)
     assert result.success
     first = result.points[0]
-    fluid = PureFluid(lookup("methane"), family("pr"))
+    fluid = CubicFluid(lookup("methane"), family("pr"))
     x_l, x_v = first[2] / fluid.b, first[3] / fluid.b
     assert x_v / x_l > 1e10
     p = first[1] / fluid.pressure_unit

@@ -5,7 +5,7 @@ import pytest
 
 from contin_thermo._components import custom_component, lookup
 from contin_thermo._eos import FAMILIES, GAS_CONSTANT, family
-from contin_thermo._pure import PureFluid, critical_point, saturation_curve, spinodal_curve
+from contin_thermo._pure import CubicFluid, critical_point, saturation_curve, spinodal_curve
 
 FLUIDS = ["methane", "n-decane", "carbon dioxide", "water"]
 
@@ -38,7 +38,7 @@ def test_spinodals_meet_at_the_critical_point(eos):
 
 @pytest.mark.parametrize("eos", sorted(FAMILIES))
 def test_spinodal_rows_have_zero_slope(eos):
-    fluid = PureFluid(lookup("propane"), family(eos))
+    fluid = CubicFluid(lookup("propane"), family(eos))
     result = spinodal_curve(fluid, at_temperatures=[200.0, 300.0, 360.0])
     for row in result.at:
         theta = row[0] / 369.83
@@ -85,7 +85,7 @@ def test_pressure_and_fugacity_agree_with_the_helmholtz_module(eos):
     c = lookup("n-butane")
     twin = custom_component("n-butane twin", c.Tc, c.Pc, c.omega)
     mixture = mixture_module.Mixture((c, twin), family(eos))
-    fluid = PureFluid(c, family(eos))
+    fluid = CubicFluid(c, family(eos))
     for theta, x in ((0.6, 1.3), (0.6, 1.25), (0.8, 40.0), (1.2, 3.0)):
         T, v = theta * c.Tc, x * fluid.b
         state = mixture.state(T, v, np.array([0.5, 0.5]))

@@ -21,12 +21,12 @@ def data_rows(path):
     return list(csv.reader(lines))
 
 
-def test_engineering_units_in_summary_and_csv_but_json_stays_si(tmp_path, capsys):
-    si, engineering = tmp_path / "si.csv", tmp_path / "eng.csv"
+def test_degc_bar_units_in_summary_and_csv_but_json_stays_si(tmp_path, capsys):
+    si, engineering = tmp_path / "si.csv", tmp_path / "degc.csv"
     code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(si))
     assert code == 0 and "T [K], P [Pa]" in out
     code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(engineering),
-                       "--units", "engineering")
+                       "--units", "degC-bar")
     assert code == 0 and "T [degC], P [bar]" in out
     a, b = data_rows(si), data_rows(engineering)
     assert a[0] == b[0][:len(a[0])]
@@ -35,7 +35,7 @@ def test_engineering_units_in_summary_and_csv_but_json_stays_si(tmp_path, capsys
         assert float(row_eng[1]) == pytest.approx(float(row_si[1]) / 1e5)    # 1 bar = 1e5 Pa (exact)
         assert float(row_eng[2]) == pytest.approx(float(row_si[2]))          # volumes stay in m3/mol
     assert "# units: T [degC], P [bar]" in engineering.read_text()
-    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--json", "--units", "engineering")
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--json", "--units", "degC-bar")
     document = json.loads(out)
     assert document["special_points"][0]["values"]["T"] == pytest.approx(369.83)  # JSON in K regardless
 
@@ -64,7 +64,7 @@ def test_unwritable_destinations_are_refused_before_any_work(tmp_path, capsys):
 
 def test_unknown_units_option_value_is_refused(capsys):
     code, _, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--units", "imperial")
-    assert code == 2 and "invalid choice: 'imperial'" in err
+    assert code == 2 and "--units: unknown unit system 'imperial'" in err and "use si, degC-bar or degF-psia" in err
 
 
 def test_pressure_given_as_a_temperature_is_refused(capsys):
@@ -114,3 +114,32 @@ def test_thermo_records_hold_tolerances(tmp_path, capsys):
     saved = json.loads(record.read_text())
     assert saved["options"] == {"tolerance": 1e-12, "max_step": 0.5}
     assert {"setup_seconds", "trace_seconds"} <= set(saved["result"]["stats"])
+
+
+def test_degf_psia_units_in_summary_and_csv(tmp_path, capsys):
+    si, customary = tmp_path / "si.csv", tmp_path / "degf.csv"
+    code, _, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(si))
+    assert code == 0
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--csv", str(customary),
+                       "--units", "degF-psia")
+    assert code == 0 and "T [degF], P [psia]" in out
+    assert "# units: T [degF], P [psia]" in customary.read_text()
+    for row_si, row_us in zip(data_rows(si)[1:], data_rows(customary)[1:]):
+        # degF = K x 9/5 - 459.67; 1 psi = 6894.757293168361 Pa (both exact, definition)
+        assert float(row_us[0]) == pytest.approx(float(row_si[0]) * 1.8 - 459.67)
+        assert float(row_us[1]) == pytest.approx(float(row_si[1]) / 6894.757293168361)
+
+
+def test_units_engineering_is_refused_naming_the_sets(capsys):
+    code, out, err = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--units", "engineering")
+    assert code == 2 and out == ""
+    assert err.strip().splitlines() == [
+        "contin: error: --units: unknown unit system 'engineering': the sets are named by the units they contain; "
+        "use si, degC-bar or degF-psia"]
+
+
+def test_temperature_input_in_fahrenheit(capsys):
+    code, out, _ = run(capsys, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--json",
+                       "--at-temperatures", "32 degF")
+    at = json.loads(out)["at"]
+    assert code == 0 and len(at) == 1 and at[0][0] == pytest.approx(273.15, rel=1e-12)  # 32 degF = 273.15 K (exact)

@@ -94,7 +94,7 @@ def test_components_file(capsys, tmp_path):
     (["saturation", "--tc", "300", "--eos", "pr"], "your own fluid needs --tc, --pc and --omega; missing --pc, --omega"),
     (["saturation", "--eos", "pr"], "name the fluid with --fluid NAME"),
     (["saturation", "--fluid", "propane", "--eos", "pengrobinson"], "unknown equation of state 'pengrobinson' in --eos"),
-    (["critical", "--fluid", "propane", "--eos", "pr", "--kij", "a-b=0.1"], "--kij and --component apply to mixtures only"),
+    (["critical", "--fluid", "propane", "--eos", "pr", "--kij", "a-b=0.1"], "--kij, --component and --normalise apply to mixtures only"),
     (["saturation", "--fluid", "propane", "--eos", "pr", "--from-temperature", "500"], "--from-temperature 500 K is not below the critical temperature"),
 ])
 def test_bad_input_messages(capsys, argv, message):

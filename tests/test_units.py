@@ -67,11 +67,51 @@ def test_not_a_number_and_unphysical_values_are_refused():
 
 
 def test_output_unit_systems():
-    engineering = output_units("engineering")
-    assert engineering.temperature_from_si(273.15) == pytest.approx(0.0)
-    assert engineering.pressure_from_si(1e5) == pytest.approx(1.0)
-    with pytest.raises(InputError, match="unknown unit system 'imperial'"):
+    metric = output_units("degC-bar")
+    assert metric.temperature_from_si(273.15) == pytest.approx(0.0)
+    assert metric.pressure_from_si(1e5) == pytest.approx(1.0)
+    customary = output_units("degF-psia")
+    # degF = K x 9/5 - 459.67 (exact, definition): 273.15 K = 32 degF, 373.15 K = 212 degF
+    assert customary.temperature_from_si(273.15) == pytest.approx(32.0, abs=1e-12)
+    assert customary.temperature_from_si(373.15) == pytest.approx(212.0, abs=1e-12)
+    # 1 psi = 0.45359237 kg x 9.80665 m/s^2 / (0.0254 m)^2 = 6894.757293168361 Pa (exact, definition)
+    assert customary.pressure_from_si(6894.757293168361) == pytest.approx(1.0, rel=1e-15)
+    assert customary.pressure_from_si(101325.0) == pytest.approx(14.695948775513449, rel=1e-14)
+    with pytest.raises(InputError, match="unknown unit system 'imperial'.*use si, degC-bar or degF-psia"):
         output_units("imperial")
+
+
+def test_engineering_is_refused_with_the_names_of_the_unit_sets():
+    # "engineering" meant degC and bar here but US customary units elsewhere: it is gone
+    with pytest.raises(InputError, match=r"^--units: unknown unit system 'engineering': the sets are named by the "
+                                         r"units they contain; use si, degC-bar or degF-psia"):
+        output_units("engineering")
+
+
+@pytest.mark.parametrize("text, kelvin", [
+    # degF = K x 9/5 - 459.67 and degR = K x 9/5 (exact, definition)
+    ("32 degF", 273.15), ("212degF", 373.15), ("-40 degF", 233.15), ("0 degF", 255.37222222222223),
+    ("491.67 degR", 273.15), ("671.67degR", 373.15), ("1.8 degR", 1.0),
+])
+def test_fahrenheit_and_rankine_on_input(text, kelvin):
+    assert parse_temperature(text, "--temperature") == pytest.approx(kelvin, rel=1e-15)
+
+
+def test_fahrenheit_at_or_below_absolute_zero_is_refused():
+    with pytest.raises(InputError, match=r"--temperature: '-459.67 degF' is at or below absolute zero"):
+        parse_temperature("-459.67 degF", "--temperature")
+    with pytest.raises(InputError, match=r"--temperature: '0 degR' is at or below absolute zero"):
+        parse_temperature("0 degR", "--temperature")
+    with pytest.raises(InputError, match=r"unknown temperature unit 'degf'.*did you mean 'degF'"):
+        parse_temperature("100 degf", "--temperature")
+
+
+@settings(max_examples=200, derandomize=True)
+@given(kelvin=st.floats(1.0, 5000.0), unit=st.sampled_from(["K", "degC", "degF", "degR"]))
+def test_temperature_round_trip_in_every_unit(kelvin, unit):
+    from contin_thermo._units import TEMPERATURE_UNITS
+    shown = TEMPERATURE_UNITS[unit][1](kelvin)
+    assert parse_temperature(repr(shown) + " " + unit, "--temperature") == pytest.approx(kelvin, rel=1e-12)
 
 
 @settings(max_examples=200, derandomize=True)

@@ -3,58 +3,50 @@ critical points; mixture phase envelopes, critical points, stability and binary 
 
 Every thermodynamic result carries :data:`CAUTION`: cubic equations of state are approximate, and
 results do not replace measured data, applicable design codes or review by a qualified engineer.
+Names are imported on first use (see ``contin._lazy``), so that the command line starts fast.
 """
 
-from ._binary import BinaryDiagram, pxy, txy
-from ._build import mixture
-from ._caution import CAUTION, caution_comment
-from ._characterise import Characterisation, PseudoComponent, characterise
-from ._components import Component, all_components, custom_component, load_components, lookup, parse_component
-from ._envelope import Envelope, trace_envelope
-from ._eos import FAMILIES, GAS_CONSTANT, CubicFamily, family
-from ._kij import KijDefaults, default_kij
-from ._mixture import Mixture
-from ._mixture_critical import critical_point as mixture_critical_point
-from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
-from ._stability import tangent_plane_test
-from ._translation import VolumeShifts, translate_curve, volume_shifts
-from ._units import parse_pressure, parse_temperature
+from contin._lazy import lazy_exports
 
-__all__ = [
-    "BinaryDiagram",
-    "CAUTION",
-    "Characterisation",
-    "Component",
-    "CubicFamily",
-    "CurveResult",
-    "Envelope",
-    "FAMILIES",
-    "GAS_CONSTANT",
-    "KijDefaults",
-    "Mixture",
-    "PseudoComponent",
-    "PureFluid",
-    "VolumeShifts",
-    "all_components",
-    "caution_comment",
-    "characterise",
-    "critical_point",
-    "custom_component",
-    "default_kij",
-    "family",
-    "load_components",
-    "lookup",
-    "mixture",
-    "mixture_critical_point",
-    "parse_component",
-    "parse_pressure",
-    "parse_temperature",
-    "pxy",
-    "saturation_curve",
-    "spinodal_curve",
-    "tangent_plane_test",
-    "trace_envelope",
-    "translate_curve",
-    "txy",
-    "volume_shifts",
-]
+# public name -> the private module that defines it ("module:attribute" where the names differ)
+_EXPORTS = {
+    "BinaryDiagram": "._binary",
+    "CAUTION": "._caution",
+    "Component": "._components",
+    "CubicFamily": "._eos",
+    "CubicFluid": "._pure",
+    "CurveResult": "._pure",
+    "Envelope": "._envelope",
+    "FAMILIES": "._eos",
+    "GAS_CONSTANT": "._eos",
+    "Mixture": "._mixture",
+    "all_components": "._components",
+    "caution_comment": "._caution",
+    "critical_point": "._pure",
+    "custom_component": "._components",
+    "family": "._eos",
+    "load_components": "._components",
+    "lookup": "._components",
+    "mixture": "._build",
+    "mixture_critical_point": "._mixture_critical:critical_point",
+    "parse_component": "._components",
+    "parse_pressure": "._units",
+    "parse_temperature": "._units",
+    "pxy": "._binary",
+    "saturation_curve": "._pure",
+    "spinodal_curve": "._pure",
+    "tangent_plane_test": "._stability",
+    "trace_envelope": "._envelope",
+    "txy": "._binary",
+    "Characterisation": "._characterise",
+    "PseudoComponent": "._characterise",
+    "characterise": "._characterise",
+    "KijDefaults": "._kij",
+    "default_kij": "._kij",
+    "VolumeShifts": "._translation",
+    "translate_curve": "._translation",
+    "volume_shifts": "._translation",
+}
+
+__all__ = sorted(_EXPORTS)
+__getattr__, __dir__ = lazy_exports(__name__, _EXPORTS, globals())

@@ -66,7 +66,7 @@ class BinaryDiagram:
                                     components=list(self.mixture.names))
 
     def to_csv(self, path, units: str = "si"):
-        """Write the rows as CSV with the caution and units header (``units``: ``si`` or ``engineering``)."""
+        """Write the rows as CSV with the caution and units header (``units``: ``si``, ``degC-bar`` or ``degF-psia``)."""
         from ._report import write_csv
         from ._units import convert_rows, output_units
 

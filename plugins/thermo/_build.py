@@ -10,6 +10,7 @@ from contin import InputError
 
 from ._components import Component, lookup
 from ._eos import CubicFamily, family
+from ._kij import kij_matrix
 from ._mixture import Mixture
 
 __all__ = ["mixture"]
@@ -36,16 +37,13 @@ def mixture(
         InputError: an unknown component (with the nearest name), a repeated component, a pair that is
             not in the mixture, a kij outside (-1, 1).
     """
-    from ._cli_mixture import parse_kij
-
     chosen = tuple(c if isinstance(c, Component) else lookup(c, extra, argument="components") for c in components)
     model = family(eos, "eos") if isinstance(eos, str) else eos
     names = [c.name for c in chosen]
     if kij is None or isinstance(kij, np.ndarray):
         matrix = kij
     elif isinstance(kij, Mapping):
-        text = ",".join(f"{pair}={float(value)!r}" for pair, value in kij.items())
-        matrix = parse_kij(text, names, extra)
+        matrix = kij_matrix(kij, names, extra, argument="kij")
     else:
         raise InputError("kij must be a mapping such as {'methane-ethane': 0.01} or a symmetric matrix")
     return Mixture(chosen, model, matrix)

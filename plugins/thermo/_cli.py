@@ -18,7 +18,7 @@ from ._caution import CAUTION
 from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
 from ._components import all_components, custom_component, load_components, lookup
 from ._eos import FAMILIES, family
-from ._pure import CurveResult, PureFluid, critical_point, saturation_curve, spinodal_curve
+from ._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
 
 __all__ = ["register", "run_pure"]
 
@@ -32,26 +32,26 @@ def _mixture_module():
 
 def _add_fluid_options(parser: argparse.ArgumentParser, *, eos_required: bool = True) -> None:
     parser.add_argument("--fluid", metavar="NAME", help="a fluid of the component table (name or alias, e.g. propane, CO2, nC4)")
-    parser.add_argument("--tc", metavar="K", help="critical temperature of your own fluid (with --pc and --omega)")
+    parser.add_argument("--tc", metavar="K", help="critical temperature of your own fluid (with --pc and --omega), K if bare, e.g. 431.2 or '158 degC'")
     parser.add_argument("--pc", metavar="PA", help="critical pressure of your own fluid, Pa (or with a unit: 46bar)")
-    parser.add_argument("--omega", metavar="W", help="acentric factor of your own fluid")
+    parser.add_argument("--omega", metavar="W", help="acentric factor of your own fluid, e.g. 0.21")
     parser.add_argument("--name", default="custom fluid", help="name of your own fluid (default: 'custom fluid')")
     parser.add_argument("--components-file", metavar="FILE",
                         help="extra components from a CSV (name,Tc,Pc,omega) or TOML ([[component]]) file")
     parser.add_argument("--eos", required=eos_required, metavar="|".join(FAMILIES),
                         help="cubic equation of state: vdw, rk, srk or pr")
-    parser.add_argument("--json", action="store_true", help="print one JSON object (SI units) instead of a summary")
-    parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (SI units, caution in the header)")
+    parser.add_argument("--json", action="store_true", help="print one JSON object (always SI units) instead of a summary")
+    parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (in the --units set, caution in the header)")
     parser.add_argument("--plot", metavar="FILE", help="draw P-T and T-rho diagrams into FILE (PNG, PDF, SVG)")
     add_output_options(parser)
 
 
 def _add_range_options(parser: argparse.ArgumentParser, *, pressures: bool = True) -> None:
-    parser.add_argument("--from-temperature", metavar="K", help="lowest temperature (default 0.4 Tc)")
-    parser.add_argument("--at-temperatures", metavar="T1,T2,...", help="also give rows exactly at these temperatures")
+    parser.add_argument("--from-temperature", metavar="K", help="lowest temperature (default 0.4 Tc), K if bare, e.g. 150 or '-40 degC'")
+    parser.add_argument("--at-temperatures", metavar="T1,T2,...", help="also give rows exactly at these temperatures, e.g. '0 degC,20 degC' or 250,300")
     if pressures:
         parser.add_argument("--at-pressures", metavar="P1,P2,...",
-                            help="also give rows exactly at these pressures (e.g. 101325 for the normal boiling point)")
+                            help="also give rows exactly at these pressures, Pa if bare, e.g. '1 atm' (the normal boiling point) or 5bar,10bar")
 
 
 def register(subparsers) -> None:
@@ -59,6 +59,9 @@ def register(subparsers) -> None:
     thermo = subparsers.add_parser(
         "thermo", help="cubic equations of state: saturation curves, spinodals, critical points",
         description="Thermodynamics of cubic equations of state. " + CAUTION,
+        epilog="examples:\n  contin thermo saturation --fluid propane --eos pr\n"
+               "  contin thermo envelope --mixture 'methane=0.9,propane=0.1' --eos pr\n"
+               "  contin thermo components\n  contin thermo SUBCOMMAND --help",
     )
     commands = thermo.add_subparsers(dest="thermo_command", metavar="SUBCOMMAND")
     saturation = commands.add_parser(
@@ -68,7 +71,7 @@ def register(subparsers) -> None:
         epilog="examples:\n"
                "  contin thermo saturation --fluid propane --eos pr --at-pressures '1 atm' --plot propane.png\n"
                "  contin thermo saturation --tc 431.2 --pc 39.7bar --omega 0.21 --name blend-A --eos srk --json\n"
-               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature -40degC --units engineering",
+               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature=-40degC --units degC-bar",
     )
     _add_fluid_options(saturation)
     _add_range_options(saturation)
@@ -94,6 +97,8 @@ def register(subparsers) -> None:
     critical.add_argument("--kij", metavar="A-B=K,...", help="binary interaction parameters (with --mixture)")
     critical.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                           help="an extra component for --mixture (repeatable)")
+    critical.add_argument("--normalise", action="store_true",
+                          help="scale the mole fractions of --mixture to sum to 1")
     critical.set_defaults(handler=_run_critical, curve="critical")
     components = commands.add_parser("components", help="list the component table",
                                      description="List the shipped components with their constants and sources.",
@@ -127,7 +132,7 @@ def _single(text, kind: str, argument: str):
     return parse_quantity(text, kind, argument)
 
 
-def _fluid(args) -> PureFluid:
+def _fluid(args) -> CubicFluid:
     own = [name for name in ("tc", "pc", "omega") if getattr(args, name) is not None]
     if args.components_file is not None and own:
         raise InputError(f"--components-file and --{own[0]} cannot be combined: name a fluid of the file with "
@@ -153,10 +158,10 @@ def _fluid(args) -> PureFluid:
         )
     else:
         raise InputError("name the fluid with --fluid NAME (see `contin thermo components`) or give --tc, --pc and --omega")
-    return PureFluid(component, family(args.eos, "--eos"))
+    return CubicFluid(component, family(args.eos, "--eos"))
 
 
-def _check_two_phase(fluid: PureFluid, start: float | None) -> None:
+def _check_two_phase(fluid: CubicFluid, start: float | None) -> None:
     """Refuse constants whose model fluid has no vapour-liquid region at the start temperature.
 
     A cubic equation of state is subcritical at T exactly when a(T)/(b R T) exceeds its value at the
@@ -251,8 +256,8 @@ def _run_critical(args) -> int:
         if module is None or not hasattr(module, "run_critical"):
             raise InputError("--mixture needs the mixture commands, which are not installed in this version")
         return int(module.run_critical(args) or 0)
-    if args.kij is not None or args.component:
-        raise InputError("--kij and --component apply to mixtures only; add --mixture, or drop them")
+    if args.kij is not None or args.component or args.normalise:
+        raise InputError("--kij, --component and --normalise apply to mixtures only; add --mixture, or drop them")
     if args.eos is None:
         raise InputError("--eos is required: choose vdw, rk, srk or pr")
     return run_pure(args)

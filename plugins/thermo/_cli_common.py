@@ -11,17 +11,22 @@ import contin
 from contin import InputError
 from contin._output import fill_text
 
-from ._units import UNIT_SYSTEMS, output_units
+from ._units import UNIT_SYSTEMS_HELP, output_units
 
-__all__ = ["add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+__all__ = ["add_units_option", "add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
            "queue", "finish"]
+
+
+def add_units_option(parser: argparse.ArgumentParser, default: str, shown: str) -> None:
+    """Add ``--units SET`` (checked by :func:`output_units` before any work, so that an unknown set is
+    refused with a message naming the sets, not argparse's list of choices)."""
+    parser.add_argument("--units", default=default, metavar="SET",
+                        help=f"units of {shown}: {UNIT_SYSTEMS_HELP} (default: {default}); JSON is always SI")
 
 
 def add_output_options(parser: argparse.ArgumentParser) -> None:
     """Add ``--units``, ``--record`` and ``--quiet`` (``--json``, ``--csv``, ``--plot`` are the command's own)."""
-    parser.add_argument("--units", default="si", choices=sorted(UNIT_SYSTEMS),
-                        help="units of the printed summary and the CSV file: si (K, Pa) or engineering "
-                             "(degC, bar); JSON is always SI")
+    add_units_option(parser, "si", "the printed summary and the CSV file")
     parser.add_argument("--record", metavar="FILE",
                         help="write a run record: the command, component data and kij used, versions, result")
     parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")

@@ -69,51 +69,23 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
 def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
     """Symmetric kij matrix from ``"methane-ethane=0.01,..."``; zero for pairs not given.
 
-    Names may contain hyphens (``n-butane``): every split at a hyphen is tried and the one whose two
-    sides are both components of the mixture is used.
+    The text is split into (pair, value) items here; the pairs are read by the model layer's
+    :func:`contin_thermo._kij.kij_matrix` (hyphenated names such as ``n-butane`` work).
 
     Raises:
         InputError: a malformed entry, a pair not in the mixture, a value outside (-1, 1), a pair of
-            a component with itself.
+            a component with itself, a pair given twice.
     """
-    from ._components import lookup
+    from ._kij import kij_matrix
     from ._units import parse_number
 
-    n = len(names)
-    kij = np.zeros((n, n))
-    if not text:
-        return kij
-    given: dict[tuple[int, int], str] = {}
-    for part in [p.strip() for p in str(text).split(",") if p.strip()]:
+    items = []
+    for part in [p.strip() for p in str(text or "").split(",") if p.strip()]:
         if "=" not in part:
             raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
         pair, value = part.rsplit("=", 1)
-        number = parse_number(value, f"--kij entry {part[:60]!r}")
-        found = None
-        pieces = pair.strip().split("-")
-        for k in range(1, len(pieces)):
-            a, b = "-".join(pieces[:k]), "-".join(pieces[k:])
-            try:
-                ca, cb = lookup(a, extra, argument="--kij"), lookup(b, extra, argument="--kij")
-            except InputError:
-                continue
-            if ca.name in names and cb.name in names:
-                found = (names.index(ca.name), names.index(cb.name))
-                break
-        if found is None:
-            raise InputError(f"--kij pair {pair.strip()!r} is not a pair of components of the mixture ({', '.join(names)})")
-        i, j = found
-        if i == j:
-            raise InputError(f"--kij pair {pair.strip()!r} pairs a component with itself; kij is zero on the diagonal")
-        if not -1.0 < number < 1.0:
-            raise InputError(f"--kij {pair.strip()!r} = {number:g} lies outside (-1, 1)")
-        key = (min(i, j), max(i, j))
-        if key in given:
-            raise InputError(f"--kij gives the pair {names[key[0]]}-{names[key[1]]} twice ({given[key]!r} and "
-                             f"{pair.strip()!r}); give each pair once")
-        given[key] = pair.strip()
-        kij[i, j] = kij[j, i] = number
-    return kij
+        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
+    return kij_matrix(items, list(names), extra, argument="--kij")
 
 
 def build_mixture(args, *, fractions: bool = True):
@@ -145,7 +117,7 @@ def _common(parser, *, fractions: bool = True) -> None:
     parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
     parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                         help="a user component (K, Pa); repeatable")
-    parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state")
+    parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state: srk or pr")
     parser.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     parser.add_argument("--csv", default=None, metavar="FILE", help="write the points as CSV")
     if fractions:
@@ -157,7 +129,7 @@ _EXAMPLES = {
                 "  contin thermo envelope --mixture 'methane=0.82,ethane=0.09,propane=0.05,n-butane=0.03,n-pentane=0.01' "
                 "--eos pr --plot envelope.png\n"
                 "  contin thermo envelope --mixture 'methane=0.7,carbon dioxide=0.2,n-hexane=0.1' --kij "
-                "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units engineering --csv env.csv\n"
+                "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units degC-bar --csv env.csv\n"
                 "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json",
     "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
            "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
@@ -184,7 +156,8 @@ def register(thermo_subparsers) -> None:
     envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
     envelope.set_defaults(handler=run_envelope)
-    for name, option, unit in (("pxy", "--temperature", "K"), ("txy", "--pressure", "PA")):
+    for name, option, unit, example in (("pxy", "--temperature", "K", "'30 degC' or '86 degF'"),
+                                        ("txy", "--pressure", "PA", "'5 bar' or '2 MPa'")):
         parser = thermo_subparsers.add_parser(
             name, help=f"binary {name} diagram", epilog=_EXAMPLES[name],
             description=f"Trace the {name} diagram of a binary by continuation in composition, from one pure "
@@ -193,7 +166,7 @@ def register(thermo_subparsers) -> None:
         _common(parser, fractions=False)
         add_output_options(parser)
         parser.add_argument(option, required=True, metavar=unit,
-                            help=f"fixed {option[2:]} ({unit} if bare; units such as '30 degC' or '5 bar' allowed)")
+                            help=f"fixed {option[2:]} ({unit} if bare; with a unit, e.g. {example})")
         parser.add_argument("--plot", default=None, metavar="FILE", help=f"draw the {name} diagram")
         parser.set_defaults(handler=run_binary, diagram=name)
 

@@ -8,6 +8,8 @@ Users add their own fluids with :func:`custom_component` or from a CSV or TOML f
 
 from __future__ import annotations
 
+import re
+
 import csv
 import io
 import tomllib
@@ -258,6 +260,29 @@ def all_components() -> tuple[Component, ...]:
     return _table()
 
 
+_CARBON_NUMBER = re.compile(r"^\s*[cC](\d{1,3})(\+?)\s*$", re.ASCII)
+
+
+def _carbon_number_fraction(name, extra: Sequence[Component]) -> str:
+    """Why a bare ``C7`` (or ``C7+``) is not a component here, with what to write instead; "" otherwise.
+
+    In gas and oil analyses ``C6``, ``C7``, ... name carbon-number fractions (everything boiling between
+    two n-alkanes), not the n-alkane itself, so the table gives them no meaning (common practice).
+    """
+    match = _CARBON_NUMBER.match(str(name))
+    if not match or int(match.group(1)) < 6:
+        return ""
+    count, plus = int(match.group(1)), match.group(2)
+    shown = f"C{count}{plus}"
+    alkane = next((c for c in (*extra, *_table()) if f"nC{count}" in c.aliases), None)
+    if plus:
+        return (f"{shown!r} is a plus fraction in gas analyses (all of carbon number {count} and above), not a "
+                "component here; describe it as a component of your own with its Tc, Pc and omega")
+    instead = (f"for {alkane.name} write 'nC{count}' or {alkane.name!r}" if alkane is not None
+               else "describe the fraction as a component of your own with its Tc, Pc and omega")
+    return f"{shown!r} is a carbon-number fraction in gas analyses, not a component here; {instead}"
+
+
 def lookup(name: str, extra: Sequence[Component] = (), argument: str = "--fluid") -> Component:
     """The component called ``name`` (name or alias, case-insensitive; ``_`` counts as a space).
 
@@ -273,6 +298,9 @@ def lookup(name: str, extra: Sequence[Component] = (), argument: str = "--fluid"
     for component in (*extra, *_table()):
         if key == _key(component.name) or any(key == _key(a) for a in component.aliases):
             return component
+    fraction = _carbon_number_fraction(name, extra)
+    if fraction:
+        raise InputError(f"{argument}: {fraction}")
     choices = [c.name for c in (*extra, *_table())]
     hint = suggest(str(name).strip(), choices) or suggest(
         str(name).strip(), [a for c in (*extra, *_table()) for a in c.aliases]

@@ -22,12 +22,14 @@ import numpy as np
 from contin import InputError
 
 from ._caution import CAUTION
+from ._cli_common import add_units_option
 from ._components import lookup
 from ._eos import family
-from ._envelope import trace_envelope
-from ._mixture import Mixture
-from ._pure import saturation_curve
-from ._units import UNIT_SYSTEMS, output_units
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # the models are imported when the demo runs: registering the command stays cheap
+    from ._mixture import Mixture
+from ._units import output_units
 
 __all__ = ["FEED", "SCENARIO", "INTERACTION_STUDY", "run_demo", "register"]
 
@@ -46,6 +48,8 @@ SPECIAL_KINDS = ("cricondentherm", "critical", "cricondenbar")
 
 
 def _mixture(kij_value: float = 0.0) -> tuple[Mixture, np.ndarray]:
+    from ._mixture import Mixture
+
     names = list(FEED)
     kij = np.zeros((len(names), len(names)))
     (a, b), _ = INTERACTION_STUDY
@@ -198,7 +202,7 @@ def _format_p(units, pascal: float) -> str:
     return f"{value:.4g} {units.pressure}" if units.pressure != "Pa" else f"{value:.6g} Pa"
 
 
-def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "engineering", stream=None) -> dict:
+def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar", stream=None) -> dict:
     """Run the demo, write its files into ``out``, print the summary to ``stream``; return the results.
 
     Raises:
@@ -206,6 +210,9 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "engineerin
             half-written), or an unknown unit system.
     """
     from contin._plot import _pyplot
+
+    from ._envelope import trace_envelope
+    from ._pure import saturation_curve
 
     stream = stream if stream is not None else sys.stdout
     shown = output_units(units)
@@ -289,12 +296,11 @@ def register(subparsers) -> None:
         description="Trace the phase envelope of an invented rich gas (cricondentherm, critical point, "
                     "cricondenbar), the saturation curves of two of its components, and the envelope for "
                     "four values of one interaction parameter; write CSV, JSON and PNG files.",
-        epilog="example: contin demo --out contin-demo --units engineering",
+        epilog="examples:\n  contin demo\n  contin demo --out contin-demo --units degF-psia",
     )
     parser.add_argument("--out", default="contin-demo", metavar="DIR",
                         help="folder for the CSV, JSON and PNG files (default: ./contin-demo)")
-    parser.add_argument("--units", default="engineering", choices=sorted(UNIT_SYSTEMS),
-                        help="units of the printed summary (files are always SI)")
+    add_units_option(parser, "degC-bar", "the printed summary (files are always SI)")
     parser.set_defaults(handler=_handle)
 
 

@@ -420,7 +420,7 @@ class Envelope:
 
         Args:
             path: the file.
-            units: ``"si"`` (K, Pa) or ``"engineering"`` (degC, bar) for temperatures and pressures.
+            units: ``"si"`` (K, Pa), ``"degC-bar"`` or ``"degF-psia"`` for temperatures and pressures.
         """
         from ._report import write_csv
         from ._units import convert_rows, output_units

@@ -53,7 +53,7 @@ from ._eos import GAS_CONSTANT, CubicFamily, family
 from ._report import csv_text, atomic_write_text
 
 __all__ = [
-    "PureFluid",
+    "CubicFluid",
     "CurveResult",
     "saturation_curve",
     "spinodal_curve",
@@ -85,7 +85,7 @@ _PSI_DERIVATIVE_SERIES = tuple((k - 1) / (2.0 * k + 1.0) for k in range(2, 17))
 # The fluid in reduced form
 # ---------------------------------------------------------------------------------------------
 @dataclass(frozen=True)
-class PureFluid:
+class CubicFluid:
     """A component with a cubic family, in the reduced form used by the curve systems.
 
     Attributes:
@@ -256,11 +256,11 @@ class PureFluid:
         raise InputError(f"no saturation pressure found at T/Tc = {theta:.6g}")  # pragma: no cover
 
 
-def _fluid_from(fluid, eos) -> PureFluid:
-    if isinstance(fluid, PureFluid):
+def _fluid_from(fluid, eos) -> CubicFluid:
+    if isinstance(fluid, CubicFluid):
         return fluid
     component = fluid if isinstance(fluid, Component) else lookup(str(fluid))
-    return PureFluid(component, family(eos))
+    return CubicFluid(component, family(eos))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -472,7 +472,7 @@ FREE = "reduced_temperature"
 class _CurveSystem(contin.System):
     """A pure-fluid system whose one evaluation gives the residual and both Jacobians exactly."""
 
-    def __init__(self, fluid: PureFluid, unknowns: tuple[str, ...], equations: tuple[str, ...]) -> None:
+    def __init__(self, fluid: CubicFluid, unknowns: tuple[str, ...], equations: tuple[str, ...]) -> None:
         self.fluid = fluid
         self.unknowns = unknowns
         self.parameters = (FREE,)
@@ -509,7 +509,7 @@ class SaturationSystem(_CurveSystem):
       the liquid pressure's cancellation.
     """
 
-    def __init__(self, fluid: PureFluid) -> None:
+    def __init__(self, fluid: CubicFluid) -> None:
         super().__init__(fluid, SATURATION_UNKNOWNS, ("equal_pressure", "equal_area", "pressure"))
 
     def evaluate(self, u, p):
@@ -558,7 +558,7 @@ class SpinodalSystem(_CurveSystem):
     Both are symmetric in the two roots, so the double root at the critical point is removed.
     """
 
-    def __init__(self, fluid: PureFluid) -> None:
+    def __init__(self, fluid: CubicFluid) -> None:
         super().__init__(fluid, SPINODAL_UNKNOWNS, ("divided_difference_of_slope", "mean_slope"))
         # p_x = sum_j -n_j c_j (x + o_j)^-(n_j + 1)
         self.slope_terms = tuple((o, n + 1, -float(n)) for o, n, _, _ in fluid.terms)
@@ -657,7 +657,7 @@ class CurveResult:
         """CSV text: caution and units as comment lines, then the points (and no at rows).
 
         Args:
-            units: ``"si"`` (K, Pa) or ``"engineering"`` (degC, bar) for temperatures and pressures.
+            units: ``"si"`` (K, Pa), ``"degC-bar"`` or ``"degF-psia"`` for temperatures and pressures.
         """
         from ._units import convert_rows, output_units
 
@@ -711,7 +711,7 @@ def _as_values(values, argument: str) -> list[float]:
     return sorted(out)
 
 
-def _start_theta(fluid: PureFluid, from_temperature: float | None) -> float:
+def _start_theta(fluid: CubicFluid, from_temperature: float | None) -> float:
     Tc = fluid.component.Tc
     if from_temperature is None:
         return DEFAULT_FROM_REDUCED_TEMPERATURE
@@ -783,7 +783,7 @@ def _snap(row: list[float], requested: dict[int, list[float]]) -> list[float]:
     return row
 
 
-def _saturation_row(fluid: PureFluid, x: np.ndarray) -> list[float]:
+def _saturation_row(fluid: CubicFluid, x: np.ndarray) -> list[float]:
     """Output row from engine coordinates (mu, sigma, pi, theta)."""
     mu, sigma, pi, theta = (float(v) for v in x)
     sigma = max(sigma, 0.0)
@@ -806,7 +806,7 @@ def _saturation_row(fluid: PureFluid, x: np.ndarray) -> list[float]:
     return [T, P, b * x_l, b * x_v, 1.0 / (b * x_l), 1.0 / (b * x_v), GAS_CONSTANT * T * total]
 
 
-def _spinodal_row(fluid: PureFluid, x: np.ndarray) -> list[float]:
+def _spinodal_row(fluid: CubicFluid, x: np.ndarray) -> list[float]:
     mu, sigma, theta = (float(v) for v in x)
     ph = _Phases(mu, max(sigma, 0.0))
     x_l = 1.0 + ph.e * math.exp(-ph.delta)
@@ -816,7 +816,7 @@ def _spinodal_row(fluid: PureFluid, x: np.ndarray) -> list[float]:
             fluid.b * x_v, float(fluid.reduced_pressure(x_v, theta)) * unit]
 
 
-def _check_temperatures(fluid: PureFluid, temperatures: list[float], theta0: float) -> None:
+def _check_temperatures(fluid: CubicFluid, temperatures: list[float], theta0: float) -> None:
     Tc = fluid.component.Tc
     for T in temperatures:
         if T > Tc:
@@ -849,7 +849,7 @@ def saturation_curve(
     with the phase width set to zero).
 
     Args:
-        fluid: a component name or alias, a :class:`Component`, or a :class:`PureFluid`.
+        fluid: a component name or alias, a :class:`Component`, or a :class:`CubicFluid`.
         eos: ``vdw``, ``rk``, ``srk`` or ``pr`` (or a :class:`CubicFamily`).
         from_temperature: lowest temperature, K (default 0.4 Tc; at least 0.1 Tc, below Tc).
         at_temperatures: temperatures (K) at which rows are returned exactly, within the range.

@@ -1,8 +1,9 @@
-"""Temperatures and pressures with units on input; SI or engineering units on output.
+"""Temperatures and pressures with units on input; named unit sets on output.
 
-Input accepts a bare number (SI: K, Pa) or a number followed by a unit: ``K``, ``degC``, ``bar``,
-``MPa``, ``kPa``, ``Pa``, ``psia``, ``atm``. Files and JSON are always SI; the printed summary and
-CSV may use engineering units (degC, bar).
+Input accepts a bare number (SI: K, Pa) or a number followed by a unit: ``K``, ``degC``, ``degF``,
+``degR``, ``bar``, ``MPa``, ``kPa``, ``Pa``, ``psia``, ``atm``. Files and JSON are always SI; the
+printed summary and CSV may use a unit set named by what it contains: ``si`` (K, Pa), ``degC-bar``
+or ``degF-psia``.
 """
 
 from __future__ import annotations
@@ -19,6 +20,7 @@ __all__ = [
     "PRESSURE_UNITS",
     "TEMPERATURE_UNITS",
     "UNIT_SYSTEMS",
+    "UNIT_SYSTEMS_HELP",
     "OutputUnits",
     "parse_pressure",
     "parse_quantity",
@@ -32,11 +34,16 @@ __all__ = [
 
 # 1 atm = 101325 Pa (exact, definition); 1 psi = 0.45359237 kg x 9.80665 m/s^2 / (0.0254 m)^2 (exact).
 PSI = 0.45359237 * 9.80665 / 0.0254**2
-CELSIUS_OFFSET = 273.15  # 0 degC = 273.15 K (exact)
+CELSIUS_OFFSET = 273.15  # 0 degC = 273.15 K (exact, definition)
+# degR = K x 9/5 and degF = degR - 459.67 (exact, definition: 0 degC = 32 degF = 491.67 degR).
+RANKINE_PER_KELVIN = 9.0 / 5.0
+FAHRENHEIT_OFFSET = 459.67
 
 TEMPERATURE_UNITS: dict[str, tuple[Callable[[float], float], Callable[[float], float]]] = {
     "K": (lambda v: v, lambda k: k),
     "degC": (lambda v: v + CELSIUS_OFFSET, lambda k: k - CELSIUS_OFFSET),
+    "degF": (lambda v: (v + FAHRENHEIT_OFFSET) / RANKINE_PER_KELVIN, lambda k: k * RANKINE_PER_KELVIN - FAHRENHEIT_OFFSET),
+    "degR": (lambda v: v / RANKINE_PER_KELVIN, lambda k: k * RANKINE_PER_KELVIN),
 }
 PRESSURE_UNITS: dict[str, float] = {
     "Pa": 1.0,
@@ -152,7 +159,7 @@ def parse_quantity(text: str | float, kind: str, argument: str) -> float:
 
 
 def parse_temperature(text: str | float, argument: str = "temperature") -> float:
-    """A temperature in K from a bare number (K) or a number with a unit (K, degC)."""
+    """A temperature in K from a bare number (K) or a number with a unit (K, degC, degF, degR)."""
     return parse_quantity(text, "temperature", argument)
 
 
@@ -186,14 +193,17 @@ class OutputUnits:
 
 UNIT_SYSTEMS = {
     "si": OutputUnits("si", "K", "Pa"),
-    "engineering": OutputUnits("engineering", "degC", "bar"),
+    "degC-bar": OutputUnits("degC-bar", "degC", "bar"),
+    "degF-psia": OutputUnits("degF-psia", "degF", "psia"),
 }
+UNIT_SYSTEMS_HELP = "si (K, Pa), degC-bar or degF-psia"
 
 
 def output_units(name: str, argument: str = "--units") -> OutputUnits:
-    """The output unit system ``si`` or ``engineering``."""
+    """The output unit set ``si``, ``degC-bar`` or ``degF-psia`` (named by the units it contains)."""
     if name not in UNIT_SYSTEMS:
-        raise InputError(f"{argument}: unknown unit system {name!r} (use si or engineering){suggest(name, UNIT_SYSTEMS)}")
+        raise InputError(f"{argument}: unknown unit system {_shown(name)!r}: the sets are named by the units "
+                         f"they contain; use si, degC-bar or degF-psia{suggest(str(name), UNIT_SYSTEMS)}")
     return UNIT_SYSTEMS[name]
 
 
