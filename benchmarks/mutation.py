@@ -240,17 +240,19 @@ def main(argv=None) -> int:
     WORK = _copy_tree(args.revision)
     env = _env(WORK)
     deadline = time.monotonic() + args.budget
-    for name in args.modules:
-        result = run_module(name, args, env, deadline)
-        if args.json:
-            print(json.dumps(result), flush=True)
-        else:
-            print(f"{name}: " + ", ".join(f"{k} {result.get(k)}" for k in (
-                "mutants", "sampled", "killed", "survived", "timed_out", "not_covered",
-                "not_run", "killed_ratio", "coverage_with_branches", "branches_missed")), flush=True)
-            for survivor in result.get("survivors", []):
-                print("    " + survivor)
-    shutil.rmtree(WORK, ignore_errors=True)
+    try:
+        for name in args.modules:
+            result = run_module(name, args, env, deadline)
+            if args.json:
+                print(json.dumps(result), flush=True)
+            else:
+                print(f"{name}: " + ", ".join(f"{k} {result.get(k)}" for k in (
+                    "mutants", "sampled", "killed", "survived", "timed_out", "not_covered",
+                    "not_run", "killed_ratio", "coverage_with_branches", "branches_missed")), flush=True)
+                for survivor in result.get("survivors", []):
+                    print("    " + survivor)
+    finally:
+        shutil.rmtree(WORK, ignore_errors=True)
     return 0
 
 

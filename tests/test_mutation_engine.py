@@ -204,3 +204,55 @@ def test_restart_in_another_parameter_keeps_the_direction():
     # leave along opposite sides: x moves opposite ways.
     up, down = first_step(fold, 1), first_step(fold, -1)
     assert np.sign(up[0]) == -np.sign(down[0]) != 0
+
+
+def test_status_messages_say_how_the_trace_ended():
+    # Every message starts with its verdict, so a reader of a log line knows at once.
+    for status in contin.Status:
+        if status is contin.Status.INTERRUPTED:
+            assert status.message.startswith("interrupted: ")
+        elif status.success:
+            assert status.message.startswith("completed: ")
+        else:
+            assert status.message.startswith("stopped: ")
+
+
+def test_crossing_test_edge_cases():
+    from contin._events import crossed
+
+    # A zero exactly at the first end was counted by the previous step; non-finite values never cross.
+    assert not crossed(0.0, 1.0) and not crossed(0.0, -1.0)
+    assert crossed(-1.0, 0.0, 1) and crossed(1.0, 0.0, -1) and not crossed(1.0, 0.0, 1)
+    for bad in (math.nan, math.inf, -math.inf):
+        assert not crossed(bad, 1.0) and not crossed(-1.0, bad)
+
+
+@pytest.mark.parametrize("keywords, message", [
+    (dict(terminal="yes"), r"^event 'g': terminal='yes' must be True or False$"),
+    (dict(direction=2), r"^event 'g': direction=2 must be -1, 0 or 1$"),
+    (dict(direction=True), r"^event 'g': direction=True must be -1, 0 or 1$"),
+    (dict(kind=""), r"^event 'g': kind must be a non-empty string$"),
+])
+def test_bad_event_arguments_are_named(keywords, message):
+    with pytest.raises(contin.InputError, match=message):
+        contin.Event("g", lambda u, p: 0.0, **keywords)
+
+
+def test_crossing_gaps_out_of_order_are_named():
+    with pytest.raises(contin.InputError,
+                       match=r"^crossing gaps must satisfy 0 < smallest_gap \(0\.001\) <= gap \(0\.5\) < near \(0\.1\)$"):
+        contin.Crossing(coordinates=["u"], near=0.1, gap=0.5, smallest_gap=1e-3)
+
+
+def test_a_bound_names_its_coordinate():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"u": (-1.0, 0.35)})
+    (bound,) = branch.special("bound")
+    assert bound.info["coordinate"] == "u" and bound.name == "u = 0.35"
+    assert bound.values["u"] == pytest.approx(0.35, abs=1e-12)
+
+
+def test_a_given_tangent_across_the_branch_is_named_in_the_message():
+    # The branch u = p runs along (1, 1); a start tangent (1, -1) makes [dF/dx; tangent] singular.
+    with pytest.raises(contin.InputError, match=r"^the bordered Jacobian \[dF/dx; tangent\] is singular at the "
+                                                r"start point \(u = 0, p = 0\): start away"):
+        contin.trace(line_system(), {"u": 0.0}, free="p", tangent=[1.0, -1.0])
