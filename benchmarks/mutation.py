@@ -106,8 +106,9 @@ def _pytest(tests, env, timeout=None, extra=()):
                           text=True)
 
 
-def _coverage(path: str, tests, env) -> tuple[dict, set[int]]:
-    """Branch coverage of one source file by its tests: figures, and the executed lines."""
+def _coverage(path: str, tests, env) -> tuple[dict, set[int] | None]:
+    """Branch coverage of one source file by its tests: figures, and the statements never run
+    (by their first line; the continuation lines of a statement count with it)."""
     data = WORK / ".coverage"
     env = dict(env, COVERAGE_FILE=str(data))
     _pytest(tests, env, extra=("-m", "coverage", "run", "--branch", f"--include={WORK / path}"))
@@ -118,7 +119,7 @@ def _coverage(path: str, tests, env) -> tuple[dict, set[int]]:
         files = json.loads(report.stdout)["files"]
         entry = next(iter(files.values()))
     except (ValueError, KeyError, StopIteration):
-        return {"coverage_with_branches": None}, set()
+        return {"coverage_with_branches": None}, None
     summary = entry["summary"]
     figures = {
         "coverage_with_branches": round(summary["percent_covered"], 1),
@@ -126,7 +127,12 @@ def _coverage(path: str, tests, env) -> tuple[dict, set[int]]:
         "branches_missed": summary.get("missing_branches"),
         "lines_not_reached": _ranges(entry["missing_lines"]),
     }
-    return figures, set(entry["executed_lines"])
+    missing = set(entry["missing_lines"])
+    starts = sorted(set(entry["executed_lines"]) | missing)
+    # a continuation line belongs to the statement that starts before it
+    not_run = {line for line in range(1, max(starts, default=0) + 200)
+               if (first := max((s for s in starts if s <= line), default=None)) in missing}
+    return figures, not_run
 
 
 def _ranges(lines) -> str:
@@ -173,9 +179,9 @@ def run_module(name, args, env, deadline) -> dict:
     if base.returncode != 0:
         result["error"] = "the tests fail on the unmutated source: " + base.stdout[-300:]
         return result
-    covered: set[int] | None = None
+    not_run: set[int] | None = None
     if not args.no_coverage:
-        figures, covered = _coverage(path, tests, env)
+        figures, not_run = _coverage(path, tests, env)
         result.update(figures)
     source, ids = _mutants(path)
     result["mutants"] = len(ids)
@@ -192,7 +198,7 @@ def run_module(name, args, env, deadline) -> dict:
             mutated = _mutated(source, path, mutation_id)
             line = mutation_id.line_number + 1
             where = f"{path}:{line}: {_diff(source, mutated)}"
-            if covered is not None and line not in covered:
+            if not_run is not None and line in not_run:
                 counts["not_covered"] += 1
                 survivors.append("not covered " + where)
                 continue

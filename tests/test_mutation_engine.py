@@ -7,6 +7,7 @@ central finite difference computed in the test.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -178,6 +179,7 @@ def test_sensitivities_of_a_two_unknown_non_symmetric_system_match_finite_differ
     assert checked >= 10
     (fold,) = result.folds
     assert fold["free"]["q"] == pytest.approx(-9.0 / 8.0, abs=1e-8)
+    assert fold["index"] == branch.special("fold")[0].index and fold["name"] == "fold in lam"
     # Against re-traced branches at q +- h: the fold's lam moves by the same amount.
     folds = [_trace_fold_system(q)[1].special("fold") for q in (1.0 + h, 1.0 - h)]
     assert [len(f) for f in folds] == [1, 1]
@@ -256,3 +258,13 @@ def test_a_given_tangent_across_the_branch_is_named_in_the_message():
     with pytest.raises(contin.InputError, match=r"^the bordered Jacobian \[dF/dx; tangent\] is singular at the "
                                                 r"start point \(u = 0, p = 0\): start away"):
         contin.trace(line_system(), {"u": 0.0}, free="p", tangent=[1.0, -1.0])
+
+
+def test_restart_and_record_messages_are_whole_and_exact(tmp_path):
+    _, branch = _trace_fold_system(1.0)
+    last = len(branch) - 1
+    with pytest.raises(contin.InputError, match=rf"^--restart-at {last + 1}: the branch has points 0 to {last}$"):
+        contin.restart(branch, last + 1, two_parameter_fold_system())
+    missing = tmp_path / "none.json"
+    with pytest.raises(contin.InputError, match="^" + re.escape(f"run record {str(missing)!r} does not exist") + "$"):
+        contin.read_record(missing)
