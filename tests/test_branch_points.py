@@ -31,7 +31,7 @@ def test_branch_point_is_found_and_located(problem):
     assert branch.success, branch.message
     found = branch.special("branch_point")
     assert len(found) == len(problem.extra["branch_points"])
-    for point, expected in zip(found, problem.extra["branch_points"]):
+    for point, expected in zip(found, problem.extra["branch_points"], strict=True):
         for name, value in expected.items():
             assert point.values[name] == pytest.approx(value, abs=1e-9), (problem.source, name)
         assert point.located_to <= 1e-9

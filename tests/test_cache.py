@@ -44,7 +44,7 @@ def test_second_build_comes_from_disk_and_agrees(tmp_path, backend):
     assert len(entries(tmp_path)) == 1
     second = build(tmp_path, backend)  # a fresh cache object: what a second process sees
     assert second.cache_source == "disk"
-    for a, b in zip(values(first), values(second)):
+    for a, b in zip(values(first), values(second), strict=True):
         np.testing.assert_array_equal(a, b)
 
 
@@ -104,7 +104,7 @@ def test_bad_entry_is_discarded_and_rebuilt(tmp_path, backend, damage):
     path.write_bytes(data)
     rebuilt = build(tmp_path, backend)
     assert rebuilt.cache_source == "built"
-    for a, b in zip(reference, values(rebuilt)):
+    for a, b in zip(reference, values(rebuilt), strict=True):
         np.testing.assert_array_equal(a, b)
     assert build(tmp_path, backend).cache_source == "disk"  # the rebuilt entry is good again
 
@@ -182,7 +182,7 @@ def test_text_entry_round_trips_every_allowed_function(tmp_path):
     assert (first.cache_source, second.cache_source) == ("built", "disk")
     for point in ([0.4, 0.3, 0.2], [0.7, 1.1, 0.9], [1.3, -0.2, -0.5]):
         u, p = np.array(point), np.array([0.1])
-        for a, b in zip(first.evaluate(u, p), second.evaluate(u, p)):
+        for a, b in zip(first.evaluate(u, p), second.evaluate(u, p), strict=True):
             np.testing.assert_allclose(a, b, rtol=1e-15, atol=1e-15)
 
 

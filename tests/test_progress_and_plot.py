@@ -58,7 +58,7 @@ def test_branch_plot_marks_special_points_in_words(tmp_path):
     drawn = np.column_stack([line.get_xdata(), line.get_ydata()])
     # Smooth Hermite segments between the points, and the drawn path goes through every exact point.
     assert len(drawn) > len(branch)
-    for p, u in zip(branch.column("p"), branch.column("u")):
+    for p, u in zip(branch.column("p"), branch.column("u"), strict=True):
         assert np.min(np.hypot(drawn[:, 0] - p, drawn[:, 1] - u)) < 1e-12
     for suffix in (".png", ".svg", ".pdf"):
         path = save_figure(ax.figure, tmp_path / f"s{suffix}")

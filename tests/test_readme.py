@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 import os
 import re
 import shlex
@@ -54,12 +55,14 @@ def test_tutorial_commands_all_run(tutorial, capsys, monkeypatch):
     folder, commands = tutorial
     monkeypatch.chdir(folder)
     assert any(c.startswith("contin thermo envelope") for c in commands)
+    outputs = {}
     for command in commands:
         words = shlex.split(command)
         if words[0] == "contin":
             code = main(words[1:])
             captured = capsys.readouterr()
             assert code == 0, f"{command}\n{captured.err}"
+            outputs[command] = captured.out
         else:
             assert words[0] == "python", command
             result = subprocess.run([sys.executable, *words[1:]], cwd=folder, capture_output=True, text=True,
@@ -74,3 +77,47 @@ def test_tutorial_commands_all_run(tutorial, capsys, monkeypatch):
     assert kinds.get(restart_at) == "fold"
     assert sum(kind == "fold" for kind in kinds.values()) == 2  # "the two folds"
     assert len(list((folder / "study").glob("*.json"))) == 4  # the study kept its four cases
+    check_tutorial_outputs(outputs, restart_at)
+
+
+def _special_lines(summary: str, word: str) -> list[dict]:
+    """The coordinate values of the summary lines that start with ``word`` (and their point number)."""
+    found = []
+    for line in summary.splitlines():
+        if line.strip().startswith(word):
+            values = {k: float(v) for k, v in re.findall(r"(\w+) = ([-+0-9.e]+)", line)}
+            point = re.search(r"\(point (\d+)\)", line)
+            found.append({"values": values, "point": int(point.group(1)) if point else None})
+    return found
+
+
+def check_tutorial_outputs(outputs: dict, restart_at: int) -> None:
+    """What the tutorial's prose claims of each command's output, checked against exact answers.
+
+    The cabinet's balance q exp(t / (1 + t/6)) = t (exact): a fold where t f'(t) = 1 with
+    f = 6t / (6 + t), i.e. t^2 - 24 t + 36 = 0, t = 12 -+ 6 sqrt 3 (the runaway limit and the return).
+    """
+    summary = outputs["contin run cabinet.toml"]
+
+    def q_of(t):
+        return t * math.exp(-t / (1 + t / 6))
+
+    folds = _special_lines(summary, "fold")
+    assert [f["values"]["t"] for f in folds] == pytest.approx([12 - 6 * math.sqrt(3), 12 + 6 * math.sqrt(3)], abs=1e-8)
+    assert [f["values"]["q"] for f in folds] == pytest.approx([q_of(f["values"]["t"]) for f in folds], abs=1e-8)
+    assert folds[0]["point"] == restart_at  # "the summary lists it as point 12"
+    (event,) = _special_lines(summary, "event")
+    assert event["values"]["t"] == pytest.approx(10.0, abs=1e-8) and event["values"]["q"] == pytest.approx(q_of(10.0), abs=1e-8)
+    at = [line for line in _special_lines(summary, "q = 0.2")]
+    assert len(at) == 3  # q = 0.2 is met on the lower, middle and upper parts of the S
+    for item in at:
+        assert item["values"]["q"] == 0.2 and q_of(item["values"]["t"]) == pytest.approx(0.2, abs=1e-9)
+    document = json.loads(outputs["contin run cabinet.toml --json --out results --record results/cabinet-record.json"])
+    assert document["status"] == "bound_reached" and document["columns"] == ["t", "q"]
+    # The restart from the first fold in the other direction runs back down the lower part to q = 0,
+    # meeting q = 0.2 again on the lower part only.
+    restarted = outputs["contin run --from results/cabinet-record.json --restart-at 12 --direction -1"]
+    assert "status: bound_reached" in restarted
+    assert [b["values"] for b in _special_lines(restarted, "bound")] == [{"q": 0.0, "t": 0.0}]
+    (again,) = _special_lines(restarted, "q = 0.2")
+    assert again["values"]["t"] == pytest.approx(at[0]["values"]["t"], abs=1e-9) and again["values"]["t"] < folds[0]["values"]["t"]

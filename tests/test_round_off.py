@@ -62,7 +62,7 @@ def test_same_statuses_and_special_points_as_the_default_kernels(runs, setting):
     _, reference = runs["default"]
     _, records = runs[setting]
     found = {}
-    for expected, got in zip(reference, records):
+    for expected, got in zip(reference, records, strict=True):
         difference = differences(expected["outcome"], got["outcome"], rel=SAME)
         if difference:
             found[expected["case"]] = difference

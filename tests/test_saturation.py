@@ -229,7 +229,7 @@ def test_narrow_and_wide_formulas_agree_where_they_meet(order, offset):
     above = _pure._saturation_terms(_pure._Phases(mu, high * (1 + 1e-9)), offset, order)
     assert rho(low * (1 - 1e-9)) < _pure._SERIES_LIMIT <= rho(high * (1 + 1e-9))
     assert w0 > 0
-    for a, b in zip(below, above):
+    for a, b in zip(below, above, strict=True):
         assert a == pytest.approx(b, rel=1e-6, abs=1e-12)
 
 

@@ -64,7 +64,7 @@ def test_spinodals_bracket_the_saturation_states():
     temperatures = [250.0, 300.0, 350.0]
     sat = saturation_curve("propane", "pr", at_temperatures=temperatures).at
     spin = spinodal_curve("propane", "pr", at_temperatures=temperatures).at
-    for s, p in zip(sat, spin):
+    for s, p in zip(sat, spin, strict=True):
         assert s[0] == p[0]
         assert s[2] < p[1] < p[3] < s[3]
         assert p[2] < s[1] < p[4]

@@ -91,5 +91,5 @@ def test_batched_fugacities_match_the_single_phase_ones():
     rng = np.random.default_rng(7)
     W = rng.dirichlet(np.ones(2), size=12)
     batched = ln_phi_batch(MIXTURE, 230.0, 2e6, W)
-    for w, row in zip(W, batched):
+    for w, row in zip(W, batched, strict=True):
         assert np.allclose(row, MIXTURE.ln_phi(230.0, 2e6, w, "stable"), rtol=0, atol=1e-10)

@@ -31,7 +31,7 @@ def test_study_results_in_case_order(executor):
         if pool:
             pool.shutdown()
     fold = 2 / (3 * 3 ** 0.5)
-    for case, entry in zip(cases, results):
+    for case, entry in zip(cases, results, strict=True):
         assert entry["case"] == case
         assert entry["result"]["folds"] == pytest.approx([-fold - case["c"], fold - case["c"]], abs=1e-10)
 

@@ -77,7 +77,7 @@ def test_back_ends_agree_to_rounding():
     u, p = np.array([0.7, -0.1, 0.2]), np.array([0.3, 1.1])
     one = SymbolicSystem(MIXED, START, PARAMETERS, backend="sympy").evaluate(u, p)
     two = SymbolicSystem(MIXED, START, PARAMETERS, backend="symengine").evaluate(u, p)
-    for a, b in zip(one, two):
+    for a, b in zip(one, two, strict=True):
         np.testing.assert_allclose(a, b, rtol=1e-13, atol=1e-14)
 
 
@@ -172,7 +172,7 @@ def test_pickled_system_works_in_a_new_process_state(backend):
     system = SymbolicSystem(MIXED, START, PARAMETERS, backend=backend)
     clone = pickle.loads(pickle.dumps(system))
     u, p = np.array([0.1, 0.2, 0.3]), np.array([0.4, 0.5])
-    for a, b in zip(system.evaluate(u, p), clone.evaluate(u, p)):
+    for a, b in zip(system.evaluate(u, p), clone.evaluate(u, p), strict=True):
         np.testing.assert_array_equal(a, b)
 
 

@@ -65,7 +65,37 @@ def test_critical_json(capsys):
     document = json.loads(out)
     assert document["special_points"][0]["kind"] == "critical"
     # Between the pure critical temperatures of methane (190.56 K) and ethane (305.32 K) (Poling et al., memory)
-    assert 190.56 < document["special_points"][0]["values"]["T"] < 305.32
+    values = document["special_points"][0]["values"]
+    assert 190.56 < values["T"] < 305.32
+    # An independent criterion (Gibbs' conditions for a binary at fixed T and P, common practice):
+    # d ln f1 / dx1 = d^2 ln f1 / dx1^2 = 0 at the critical composition; computed here from the
+    # model's fugacities by central differences, not by the Heidemann-Khalil solve the tool uses.
+    assert_binary_critical(["methane", "ethane"], 0.8, values["T"], values["P"])
+
+
+def assert_binary_critical(names, x1, T, P):
+    import math
+
+    import numpy as np
+
+    from contin_thermo._components import lookup
+    from contin_thermo._eos import family
+    from contin_thermo._mixture import Mixture
+
+    mixture = Mixture(tuple(lookup(n) for n in names), family("pr"))
+
+    def ln_f1(T, P, x):
+        return math.log(x) + mixture.ln_phi(T, P, np.array([x, 1.0 - x]), "stable")[0]
+
+    def derivatives(T, P, h=1e-4):
+        a, b, c = (ln_f1(T, P, x1 + k * h) for k in (-1, 0, 1))
+        return (c - a) / (2 * h), (c - 2 * b + a) / h**2
+
+    first, second = derivatives(T, P)
+    # truncation O(h^2) of the third derivative (about 1e-6 and 1e-5 here) against O(0.1-10) away from it
+    assert abs(first) < 1e-5 and abs(second) < 1e-4
+    for off in ((T + 5.0, P), (T, P * 1.05)):
+        assert abs(derivatives(*off)[0]) > 0.1
 
 
 def test_pxy_temperature_with_a_unit_and_a_plot(capsys, tmp_path):
@@ -77,16 +107,32 @@ def test_pxy_temperature_with_a_unit_and_a_plot(capsys, tmp_path):
     assert document["columns"] == ["x1", "y1", "P", "v_liquid", "v_vapour"]
     assert picture.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     # 30 degC = 303.15 K exactly (definition of the Celsius scale): the pure n-butane end sits at that T,
-    # where its PR vapour pressure lies between 2 and 4 bar (NIST WebBook about 2.8 bar; memory).
+    # where its PR vapour pressure lies between 2 and 4 bar (NIST WebBook about 2.8 bar; memory) and
+    # equals the same model's pure-fluid saturation pressure.
     assert 2e5 < document["points"][0][2] < 4e5
+    assert document["points"][0][0] == 0.0
+    assert document["points"][0][2] == pytest.approx(_pure_row("n-butane", T=303.15)[1], rel=1e-8)
 
 
 def test_txy_pressure_in_bar(capsys):
     code, out, _ = run(["txy", "--mixture", "propane,n-butane", "--pressure", "5 bar", "--eos", "pr", "--json"], capsys)
     assert code == 0
     rows = json.loads(out)["points"]
-    # 5 bar is 5e5 Pa (definition): the pure propane end boils near 273 K there (common practice: about 0 degC).
+    # 5 bar is 5e5 Pa (definition): the pure propane end boils near 273 K there (common practice: about 0 degC),
+    # at the same model's pure-fluid saturation temperature.
     assert 265.0 < rows[-1][2] < 280.0
+    assert rows[-1][0] == pytest.approx(1.0, abs=1e-12)
+    assert rows[-1][2] == pytest.approx(_pure_row("propane", P=5e5)[0], rel=1e-8)
+
+
+def _pure_row(fluid, T=None, P=None):
+    """(T, P) of the pure-fluid PR saturation curve at a requested temperature or pressure."""
+    from contin_thermo._pure import saturation_curve
+
+    curve = saturation_curve(fluid, "pr", at_temperatures=[T] if T else (), at_pressures=[P] if P else ())
+    (row,) = curve.at
+    columns = list(curve.columns)
+    return float(row[columns.index("T")]), float(row[columns.index("P")])
 
 
 def test_unknown_temperature_unit(capsys):

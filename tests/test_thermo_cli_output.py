@@ -30,7 +30,7 @@ def test_degc_bar_units_in_summary_and_csv_but_json_stays_si(tmp_path, capsys):
     assert code == 0 and "T [degC], P [bar]" in out
     a, b = data_rows(si), data_rows(engineering)
     assert a[0] == b[0][:len(a[0])]
-    for row_si, row_eng in zip(a[1:], b[1:]):
+    for row_si, row_eng in zip(a[1:], b[1:], strict=True):
         assert float(row_eng[0]) == pytest.approx(float(row_si[0]) - 273.15)  # 0 degC = 273.15 K (exact)
         assert float(row_eng[1]) == pytest.approx(float(row_si[1]) / 1e5)    # 1 bar = 1e5 Pa (exact)
         assert float(row_eng[2]) == pytest.approx(float(row_si[2]))          # volumes stay in m3/mol

@@ -1,0 +1,270 @@
+"""Engine behaviours that one-line breaks of the source used to slip past (found by mutation testing).
+
+Each test names the break it catches; every expected value is exact (derived in the comment) or a
+central finite difference computed in the test.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pytest
+
+import contin
+
+
+def line_system():
+    # u - p = 0: the branch is the diagonal u = p, traced with p increasing (exact).
+    return contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["u"], {"p": 0.0},
+                                 jacobian=lambda u, p: [[1.0]], parameter_jacobian=lambda u, p: [[-1.0]])
+
+
+@pytest.mark.parametrize("direction, expected", [(-1, [1.0]), (1, [2.0]), (0, [1.0, 2.0])])
+def test_event_direction_selects_falling_or_rising_crossings(direction, expected):
+    # g = (u - 1)(u - 2) falls through zero at u = 1 and rises through it at u = 2 (exact).
+    event = contin.Event("g", lambda u, p: (u[0] - 1.0) * (u[0] - 2.0), direction=direction)
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-0.5, 3.0)},
+                          events=[event])
+    found = [sp.values["u"] for sp in branch.special("event")]
+    assert found == pytest.approx(expected, abs=1e-10)
+
+
+def test_an_event_function_that_raises_ends_the_trace_and_says_so():
+    def g(u, p):
+        if u[0] > 1.0:
+            raise ZeroDivisionError("no value past u = 1")
+        return u[0] - 5.0
+
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-0.5, 3.0)},
+                          events=[contin.Event("g", g)])
+    assert branch.status is contin.Status.INTERRUPTED
+    assert isinstance(branch.cause, ZeroDivisionError)
+    assert "'g'" in branch.message and "ZeroDivisionError" in branch.message
+    assert "\n" not in branch.message
+    assert branch.column("u").max() <= 1.0 + 0.1 + 1e-12  # stopped within one step of the failure
+
+
+def test_a_requested_value_at_the_start_point_is_reported():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-0.5, 1.0)},
+                          at={"p": [0.0, 0.5]})
+    assert [sp.values["p"] for sp in branch.at] == pytest.approx([0.0, 0.5], abs=1e-14)
+    assert branch.at[0].index == 0
+
+
+def test_status_table():
+    labels = [status.label for status in contin.Status]
+    assert len(labels) == len(set(labels))
+    for status in contin.Status:
+        assert "\n" not in status.message and status.message.strip() == status.message
+        assert str(status) == status.label
+    completed = {s for s in contin.Status if s.success}
+    assert completed == {contin.Status.COMPLETED, contin.Status.BOUND_REACHED, contin.Status.MAX_POINTS,
+                         contin.Status.CLOSED_LOOP, contin.Status.TERMINAL_EVENT}
+
+
+def test_max_points_is_a_success():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, max_points=5)
+    assert branch.status is contin.Status.MAX_POINTS
+    assert branch.success
+    assert len(branch) == 5
+    assert "\n" not in branch.message and "(5)" in branch.message
+
+
+def test_bounds_on_a_fixed_parameter_are_checked_against_its_value():
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0] - p[1]], ["u"], {"p": 0.0, "q": 0.0})
+    with pytest.raises(contin.InputError, match=r"parameter 'q' is fixed at 0\.0, outside its bounds \[1\.0, 2\.0\]"):
+        contin.trace(system, {"u": 0.0}, free="p", bounds={"q": (1.0, 2.0)})
+    # Inside its bounds it is accepted and changes nothing.
+    branch = contin.trace(system, {"u": 0.0}, free="p", bounds={"q": (-1.0, 1.0), "p": (-1.0, 0.5)})
+    assert branch.status is contin.Status.BOUND_REACHED
+
+
+def helix(pitch):
+    # u = (x, y), p = theta/(2 pi) ... as an implicit system: x = cos(2 pi z), y = sin(2 pi z) with the
+    # free parameter z = p; but the loop test needs the start approached again, so the third
+    # coordinate is the free parameter w with x = cos(s), y = sin(s), w = pitch * s (a helix of the
+    # given pitch per radian): F = [x - cos(w / pitch), y - sin(w / pitch)].
+    def residual(u, p):
+        s = p[0] / pitch
+        return [u[0] - math.cos(s), u[1] - math.sin(s)]
+
+    def parameter_jacobian(u, p):
+        s = p[0] / pitch
+        return [[math.sin(s) / pitch], [-math.cos(s) / pitch]]
+
+    return contin.CallableSystem(residual, ["x", "y"], {"w": 0.0}, jacobian=lambda u, p: np.eye(2),
+                                 parameter_jacobian=parameter_jacobian)
+
+
+def test_a_helix_that_passes_near_its_start_is_not_a_closed_loop():
+    # After one turn the helix is 2 pi * pitch above its start: more than the step's sagitta allows
+    # (0.25 L theta ~ 6e-4 for steps of 0.05), less than twenty times it. No loop: the bound ends it.
+    pitch = 1e-3
+    branch = contin.trace(helix(pitch), {"x": 1.0, "y": 0.0}, free="w", step=0.05, max_step=0.05,
+                          bounds={"w": (-1.0, 1.5 * 2 * math.pi * pitch)})
+    assert branch.status is contin.Status.BOUND_REACHED
+    assert not branch.special("closed_loop")
+    assert branch.column("w")[-1] == pytest.approx(1.5 * 2 * math.pi * pitch, abs=1e-12)
+
+
+def eight(eps):
+    # A closed space curve (x, y, w) = (sin 2s, 2 sin s, eps cos s): its projection on (x, y) is a
+    # figure eight whose two passes through the origin cross at right angles, 2 eps apart in w.
+    # Implicitly, with x, w unknown and y free: x = y w / eps, (y / 2)^2 + (w / eps)^2 = 1.
+    return contin.CallableSystem(
+        lambda u, p: [u[0] - p[0] * u[1] / eps, (p[0] / 2) ** 2 + (u[1] / eps) ** 2 - 1.0],
+        ["x", "w"], {"y": 0.0},
+        jacobian=lambda u, p: [[1.0, -p[0] / eps], [0.0, 2 * u[1] / eps**2]],
+        parameter_jacobian=lambda u, p: [[-u[1] / eps], [p[0] / 2]])
+
+
+def test_a_loop_closes_only_where_the_start_is_passed_the_same_way():
+    # Start at s = 0, (x, w, y) = (0, eps, 0). Half-way round (s = pi) the curve passes 2 eps from
+    # the start (within the closing test's reach) heading across it at right angles: not a loop
+    # yet. It closes after the whole turn, through both folds of y (y = 2 at s = pi/2, -2 at 3pi/2).
+    eps = 1e-8
+    branch = contin.trace(eight(eps), {"x": 0.0, "w": eps}, free="y", step=0.05, max_step=0.1)
+    assert branch.status is contin.Status.CLOSED_LOOP
+    assert [round(sp.values["y"], 9) for sp in branch.special("fold")] == [2.0, -2.0]
+    # It went all the way round: w / eps = cos s took the value -1 (s = pi) before closing.
+    assert branch.column("w").min() / eps == pytest.approx(-1.0, abs=1e-3)
+
+
+def two_parameter_fold_system():
+    # F = [x^2 - lam + q y, 2 y - x + q]: dF/du = [[2x, q], [-1, 2]] is not symmetric. Eliminating
+    # y = (x - q) / 2 gives lam = x^2 + q (x - q) / 2, with a fold at x = -q/4, lam* = -9 q^2 / 16, so
+    # d lam* / dq = -9 q / 8 (exact). At the fold the left null vector is (2, -1) and the right one
+    # (2, 1) for q = 1: only the left one gives -9/8.
+    return contin.CallableSystem(
+        lambda u, p: [u[0] ** 2 - p[0] + p[1] * u[1], 2 * u[1] - u[0] + p[1]], ["x", "y"],
+        {"lam": 0.0, "q": 1.0},
+        jacobian=lambda u, p: [[2 * u[0], p[1]], [-1.0, 2.0]],
+        parameter_jacobian=lambda u, p: [[-1.0, u[1]], [0.0, 1.0]],
+    )
+
+
+def _trace_fold_system(q):
+    system = two_parameter_fold_system()
+    # Start on the branch at x = 1: y = (1 - q) / 2, lam = 1 + q (1 - q) / 2.
+    start = {"x": 1.0, "y": (1.0 - q) / 2}
+    return system, contin.trace(system, start, free="lam", parameters={"q": q, "lam": 1 + q * (1 - q) / 2},
+                                direction=-1, step=0.05, bounds={"lam": (-2.0, 3.0), "x": (-3.0, 3.0)})
+
+
+def _solve_at(system, lam, q, guess):
+    u = np.array(guess, dtype=float)
+    for _ in range(30):
+        p = np.array([lam, q])
+        residual, ju, _ = system.linearise(u, p, 0)
+        u = u - np.linalg.solve(ju, residual)
+    return u
+
+
+def test_sensitivities_of_a_two_unknown_non_symmetric_system_match_finite_differences():
+    system, branch = _trace_fold_system(1.0)
+    result = contin.sensitivities(branch, system)
+    assert result.parameters == ("q",)
+    h = 1e-5
+    checked = 0
+    for i, row in enumerate(branch.points):
+        if not np.all(np.isfinite(result.points[i])):
+            continue
+        lam = row[-1]
+        up = _solve_at(system, lam, 1.0 + h, row[:-1])
+        down = _solve_at(system, lam, 1.0 - h, row[:-1])
+        assert result.points[i][:, 0] == pytest.approx((up - down) / (2 * h), rel=1e-6, abs=1e-6)
+        checked += 1
+    assert checked >= 10
+    (fold,) = result.folds
+    assert fold["free"]["q"] == pytest.approx(-9.0 / 8.0, abs=1e-8)
+    assert fold["index"] == branch.special("fold")[0].index and fold["name"] == "fold in lam"
+    # Against re-traced branches at q +- h: the fold's lam moves by the same amount.
+    folds = [_trace_fold_system(q)[1].special("fold") for q in (1.0 + h, 1.0 - h)]
+    assert [len(f) for f in folds] == [1, 1]
+    difference = (folds[0][0].values["lam"] - folds[1][0].values["lam"]) / (2 * h)
+    assert fold["free"]["q"] == pytest.approx(difference, abs=1e-5)
+
+
+def test_restart_in_another_parameter_keeps_the_direction():
+    system = two_parameter_fold_system()
+    _, branch = _trace_fold_system(1.0)
+    fold = branch.special("fold")[0].index
+
+    def first_step(index, direction):
+        again = contin.restart(branch, index, system, free="q", direction=direction, step=0.05,
+                               max_points=4)
+        assert again.free == "q"
+        assert again.column("q")[0] == pytest.approx(1.0, abs=1e-14)
+        return again.points[1] - again.points[0]
+
+    # From a regular point q moves the asked way.
+    for direction in (1, -1):
+        assert np.sign(first_step(3, direction)[-1]) == direction
+    # From the fold (singular dF/du: a fold in q too, so q grows either way) the two directions
+    # leave along opposite sides: x moves opposite ways.
+    up, down = first_step(fold, 1), first_step(fold, -1)
+    assert np.sign(up[0]) == -np.sign(down[0]) != 0
+
+
+def test_status_messages_say_how_the_trace_ended():
+    # Every message starts with its verdict, so a reader of a log line knows at once.
+    for status in contin.Status:
+        if status is contin.Status.INTERRUPTED:
+            assert status.message.startswith("interrupted: ")
+        elif status.success:
+            assert status.message.startswith("completed: ")
+        else:
+            assert status.message.startswith("stopped: ")
+
+
+def test_crossing_test_edge_cases():
+    from contin._events import crossed
+
+    # A zero exactly at the first end was counted by the previous step; non-finite values never cross.
+    assert not crossed(0.0, 1.0) and not crossed(0.0, -1.0)
+    assert crossed(-1.0, 0.0, 1) and crossed(1.0, 0.0, -1) and not crossed(1.0, 0.0, 1)
+    for bad in (math.nan, math.inf, -math.inf):
+        assert not crossed(bad, 1.0) and not crossed(-1.0, bad)
+
+
+@pytest.mark.parametrize("keywords, message", [
+    (dict(terminal="yes"), r"^event 'g': terminal='yes' must be True or False$"),
+    (dict(direction=2), r"^event 'g': direction=2 must be -1, 0 or 1$"),
+    (dict(direction=True), r"^event 'g': direction=True must be -1, 0 or 1$"),
+    (dict(kind=""), r"^event 'g': kind must be a non-empty string$"),
+])
+def test_bad_event_arguments_are_named(keywords, message):
+    with pytest.raises(contin.InputError, match=message):
+        contin.Event("g", lambda u, p: 0.0, **keywords)
+
+
+def test_crossing_gaps_out_of_order_are_named():
+    with pytest.raises(contin.InputError,
+                       match=r"^crossing gaps must satisfy 0 < smallest_gap \(0\.001\) <= gap \(0\.5\) < near \(0\.1\)$"):
+        contin.Crossing(coordinates=["u"], near=0.1, gap=0.5, smallest_gap=1e-3)
+
+
+def test_a_bound_names_its_coordinate():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"u": (-1.0, 0.35)})
+    (bound,) = branch.special("bound")
+    assert bound.info["coordinate"] == "u" and bound.name == "u = 0.35"
+    assert bound.values["u"] == pytest.approx(0.35, abs=1e-12)
+
+
+def test_a_given_tangent_across_the_branch_is_named_in_the_message():
+    # The branch u = p runs along (1, 1); a start tangent (1, -1) makes [dF/dx; tangent] singular.
+    with pytest.raises(contin.InputError, match=r"^the bordered Jacobian \[dF/dx; tangent\] is singular at the "
+                                                r"start point \(u = 0, p = 0\): start away"):
+        contin.trace(line_system(), {"u": 0.0}, free="p", tangent=[1.0, -1.0])
+
+
+def test_restart_and_record_messages_are_whole_and_exact(tmp_path):
+    _, branch = _trace_fold_system(1.0)
+    last = len(branch) - 1
+    with pytest.raises(contin.InputError, match=rf"^--restart-at {last + 1}: the branch has points 0 to {last}$"):
+        contin.restart(branch, last + 1, two_parameter_fold_system())
+    missing = tmp_path / "none.json"
+    with pytest.raises(contin.InputError, match="^" + re.escape(f"run record {str(missing)!r} does not exist") + "$"):
+        contin.read_record(missing)

@@ -1,0 +1,177 @@
+"""Envelope, stability and binary-diagram behaviours that one-line breaks of the source slipped past.
+
+Found by mutation testing (benchmarks/mutation.py); each test names the break it catches.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+
+from contin_thermo._binary import pxy
+from contin_thermo._components import lookup
+from contin_thermo._envelope import _assemble, trace_envelope
+from contin_thermo._eos import family
+from contin_thermo._mixture import Mixture
+from contin_thermo._stability import tangent_plane_test
+
+# An invented 50/50 blend (demo composition) under Peng-Robinson.
+BLEND = Mixture((lookup("methane"), lookup("propane")), family("pr"))
+Z = np.array([0.5, 0.5])
+
+
+@pytest.fixture(scope="module")
+def envelope():
+    return trace_envelope(BLEND, Z, check_stability=False)
+
+
+def test_special_points_are_rows_in_branch_order(envelope):
+    specials = envelope.special_points
+    assert [sp["kind"] for sp in specials] == ["cricondentherm", "critical", "cricondenbar"]
+    indices = [sp["index"] for sp in specials]
+    assert indices == sorted(indices) and len(set(indices)) == len(indices)
+    for sp in specials:
+        row = envelope.rows[sp["index"]]
+        assert (row[0], row[1]) == (sp["values"]["T"], sp["values"]["P"]), sp["kind"]
+    T, P = envelope.column("T").astype(float), envelope.column("P").astype(float)
+    assert specials[0]["values"]["T"] == T.max() and specials[2]["values"]["P"] == P.max()
+
+
+def test_slopes_at_the_cricondentherm_and_cricondenbar_vanish(envelope):
+    # Both are folds (of T and of P along the envelope): the reported slopes dT/dP and dP/dT are zero
+    # to the location tolerance, far below the slope of the neighbouring chords (finite differences).
+    rows = envelope.rows
+    for kind, key, scale in (("cricondentherm", "dT_dP", lambda T, P: T / P), ("cricondenbar", "dP_dT", lambda T, P: P / T)):
+        sp = envelope.special(kind)
+        i = sp["index"]
+        T, P = sp["values"]["T"], sp["values"]["P"]
+        assert abs(sp["info"][key]) <= 1e-6 * scale(T, P), kind
+        chord = [(rows[j + 1][1] - rows[j][1]) / (rows[j + 1][0] - rows[j][0]) for j in (i - 2, i + 1)]
+        if kind == "cricondenbar":  # dP/dT changes sign across the fold
+            assert chord[0] * chord[1] < 0
+        else:
+            assert (1 / chord[0]) * (1 / chord[1]) < 0
+
+
+def _with_fake_fold(branch, index):
+    """The branch with one more fold of ln T at row ``index`` (a second, lower-temperature T fold)."""
+    real = next(sp for sp in branch.special_points if sp.kind == "fold" and sp.info.get("coordinate") == "lnT")
+    point = branch.points[index]
+    fake = dataclasses.replace(real, index=index, point=point.copy(), tangent=branch.tangents[index].copy(),
+                               values=dict(zip(branch.columns, (float(v) for v in point), strict=True)))
+    specials = sorted([*branch.special_points, fake], key=lambda sp: sp.index)
+    return dataclasses.replace(branch, special_points=tuple(specials))
+
+
+def test_the_cricondentherm_is_the_highest_temperature_fold(envelope):
+    branch = envelope.branch
+    real = envelope.special("cricondentherm")
+    # A second T fold at a colder row (row 3, on the dew side): the cricondentherm stays the hottest.
+    assert envelope.rows[3][0] < real["values"]["T"]
+    _, _, specials, (status, _, success), _ = _assemble(BLEND, Z, _with_fake_fold(branch, 3), 1e5)
+    (cricondentherm,) = [sp for sp in specials if sp["kind"] == "cricondentherm"]
+    assert cricondentherm["index"] == real["index"]
+    assert cricondentherm["values"]["T"] == real["values"]["T"]
+    assert success and status == "bound_reached"
+
+
+def test_a_row_on_the_trivial_solution_makes_the_envelope_inconsistent(envelope):
+    branch = envelope.branch
+    n = BLEND.size
+    points = branch.points.copy()
+    points[5, :n] = 0.0  # ln K = 0 at a dew-side row that is not the critical point
+    _, _, _, (status, message, success), _ = _assemble(BLEND, Z, dataclasses.replace(branch, points=points), 1e5)
+    assert (status, success) == ("inconsistent", False)
+    assert "1 point(s) collapsed onto the trivial solution K = 1" in message and "\n" not in message
+
+
+# -- stability ---------------------------------------------------------------------------------------
+# A dew point of BLEND under PR (row 9 of its envelope): T = 305.8388 K, P = 2.797119 MPa.
+DEW_T, DEW_P = 305.83883617687695, 2797119.337205556
+
+
+def test_borderline_instability_just_inside_the_dew_curve():
+    # 1e-4 above the dew pressure the feed is inside the two-phase region, barely: tm is negative but
+    # tiny (between -1e-4 and -1e-7). Just below the dew pressure the feed is stable.
+    inside = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z)
+    assert not inside.stable
+    assert -1e-4 < inside.tm < -1e-6
+    outside = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 - 1e-4), Z)
+    assert outside.stable and outside.tm == 0.0
+
+
+def test_a_known_phase_is_not_taken_for_a_new_one():
+    # Just inside the dew curve the only phase below the tangent plane is the incipient liquid; once
+    # it is named as known, nothing else is found: stable. Ignoring it would say unstable.
+    inside = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z)
+    assert not inside.stable and inside.trial[1] > 0.8  # a propane-rich liquid
+    again = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z, known=(inside.trial,))
+    assert again.stable and again.tm == 0.0
+
+
+# An invented, strongly non-ideal kij (0.2, demo value) between propane and n-pentane: their liquids
+# split at low temperature (as in tests/test_stability.py).
+SPLIT = Mixture((lookup("propane"), lookup("n-pentane")), family("pr"), np.array([[0.0, 0.2], [0.2, 0.0]]))
+
+
+def _incipient(row, z):
+    K = np.array(row[6:], dtype=float)
+    return K * z / np.sum(K * z)
+
+
+@pytest.fixture(scope="module")
+def split_rows():
+    return trace_envelope(SPLIT, [0.5, 0.5], check_stability=False).rows
+
+
+def test_pure_component_trials_find_the_second_liquid(split_rows):
+    # At 250 K on the bubble curve the feed would rather split into two liquids; the nearly pure
+    # propane trial lies below the tangent plane at once, while the Wilson trials alone only reach a
+    # shallower point (tm -0.007 against -0.105 here).
+    z = np.array([0.5, 0.5])
+    row = min((r for r in split_rows if r[0] < 255.0), key=lambda r: abs(r[0] - 250.0))
+    known = (_incipient(row, z),)
+    with_pure = tangent_plane_test(SPLIT, row[0], row[1], z, known=known)
+    without = tangent_plane_test(SPLIT, row[0], row[1], z, known=known, pure_trials=False)
+    assert not with_pure.stable and not without.stable
+    assert with_pure.trial[0] > 0.99  # the propane-pure trial
+    assert with_pure.tm < without.tm - 0.05
+
+
+@pytest.mark.xfail(strict=True, reason="bug: tangent_plane_test with its default pure-component trials "
+                   "reports stable at 277.6 K, 0.548 MPa on the bubble curve of the split blend, where "
+                   "the Wilson trials alone (pure_trials=False) and an exhaustive grid find tm < -0.02")
+def test_more_trial_phases_never_hide_an_instability(split_rows):
+    z = np.array([0.5, 0.5])
+    row = min(split_rows, key=lambda r: abs(r[0] - 277.6))
+    known = (_incipient(row, z),)
+    without = tangent_plane_test(SPLIT, row[0], row[1], z, known=known, pure_trials=False)
+    assert not without.stable
+    assert not tangent_plane_test(SPLIT, row[0], row[1], z, known=known).stable
+
+
+# -- binary diagrams ---------------------------------------------------------------------------------
+
+def test_azeotrope_has_equal_phase_compositions():
+    # A large positive kij (invented value, 0.25) gives a maximum-pressure azeotrope: x1 = y1 there.
+    mixture = Mixture((lookup("ethane"), lookup("carbon dioxide")), family("pr"), np.array([[0, 0.25], [0.25, 0]]))
+    diagram = pxy(mixture, 250.0)
+    (azeotrope,) = [sp for sp in diagram.special_points if sp["kind"] == "azeotrope"]
+    row = diagram.rows[azeotrope["index"]]
+    assert row[0] == azeotrope["values"]["x1"]
+    assert abs(row[0] - row[1]) <= 1e-8 * row[0]
+    assert 0.0 < row[0] < 1.0 and row[3] < row[4]  # distinct liquid and vapour volumes
+    # and the pressure is a maximum there: above both neighbouring rows
+    assert row[2] >= diagram.rows[azeotrope["index"] - 1][2] and row[2] >= diagram.rows[azeotrope["index"] + 1][2]
+
+
+def test_closing_at_a_critical_point_is_a_completed_status():
+    # 250 K lies above methane's Tc (190.56 K, Poling et al. 5th ed.; memory): the region closes.
+    diagram = pxy(BLEND, 250.0)
+    assert (diagram.status, diagram.success) == ("terminal_event", True)
+    assert diagram.message.startswith("completed: the two-phase region closes at the critical point x1 = ")
+    assert "\n" not in diagram.message
+    assert [sp["kind"] for sp in diagram.special_points] == ["critical"]
