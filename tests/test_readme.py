@@ -42,7 +42,7 @@ def test_exactly_two_set_up_commands_and_ci_runs_the_second():
 @pytest.fixture(scope="module")
 def tutorial(tmp_path_factory):
     folder = tmp_path_factory.mktemp("readme")
-    for language in ("toml", "python"):
+    for language in ("toml", "python", "csv"):
         for block in blocks(language, section("Tutorial")):
             first = block.splitlines()[0]
             if first.startswith("# file:"):
@@ -77,6 +77,11 @@ def test_tutorial_commands_all_run(tutorial, capsys, monkeypatch):
     assert kinds.get(restart_at) == "fold"
     assert sum(kind == "fold" for kind in kinds.values()) == 2  # "the two folds"
     assert len(list((folder / "study").glob("*.json"))) == 4  # the study kept its four cases
+    # "your own fluid": the pseudo-components reproduce the plus fraction given (an identity).
+    characterised = json.loads(outputs["contin thermo characterise --feed analysis.csv --pseudo 4 --json"])
+    pseudo = characterised["components"]
+    assert len(pseudo) == 4 and sum(p["z"] for p in pseudo) == pytest.approx(0.0412, rel=1e-12)
+    assert sum(p["z"] * p["molar_mass"] for p in pseudo) / 0.0412 == pytest.approx(182.0, rel=1e-10)
     check_tutorial_outputs(outputs, restart_at)
 
 

@@ -105,6 +105,27 @@ def register(subparsers) -> None:
                                      epilog="examples:\n  contin thermo components\n  contin thermo components --json")
     components.add_argument("--json", action="store_true", help="print the table as JSON")
     components.set_defaults(handler=_run_components)
+    characterise = commands.add_parser(
+        "characterise", help="split and lump the plus fraction of a laboratory analysis",
+        description="Read a feed (TOML or CSV) whose analysis ends in a plus fraction (mole fraction, molar "
+                    "mass and specific gravity), split the plus fraction into carbon-number groups, give each "
+                    "group its constants by a published correlation, and lump them into pseudo-components. "
+                    + CAUTION,
+        epilog="examples:\n  contin thermo characterise --feed analysis.csv\n"
+               "  contin thermo characterise --feed analysis.toml --pseudo 4 --split exponential --json\n"
+               "feed file (CSV), one row per component:\n  methane, 82.10\n  C7+, 4.12, molar_mass=182.0, "
+               "specific_gravity=0.815",
+    )
+    characterise.add_argument("--feed", required=True, metavar="FILE", help="the analysis (.toml or .csv)")
+    characterise.add_argument("--pseudo", type=int, default=3, metavar="N", help="number of pseudo-components (default 3)")
+    characterise.add_argument("--split", default="gamma", help="gamma (Whitson 1983, default) or exponential "
+                                                               "(Pedersen et al. 1984)")
+    characterise.add_argument("--correlations", default="kesler-lee",
+                              help="kesler-lee (default) or riazi-daubert, for Tc, Pc and omega")
+    characterise.add_argument("--lumping", default="equal-mass", help="equal-mass (default) or whitson")
+    characterise.add_argument("--normalise", action="store_true", help="scale the amounts to sum to 1")
+    characterise.add_argument("--json", action="store_true", help="print the result as one JSON object")
+    characterise.set_defaults(handler=_run_characterise)
     module = _mixture_module()
     if module is not None and hasattr(module, "register"):
         module.register(commands)
@@ -261,6 +282,37 @@ def _run_critical(args) -> int:
     if args.eos is None:
         raise InputError("--eos is required: choose vdw, rk, srk or pr")
     return run_pure(args)
+
+
+def _run_characterise(args) -> int:
+    """``contin thermo characterise``: the pseudo-components of a feed's plus fraction, with methods and checks."""
+    from ._characterise import characterise
+    from ._feed import read_feed
+
+    rows = [{key: value for key, value in row.items() if key != "line"} for row in read_feed(args.feed)]
+    result = characterise(rows, split=args.split, correlations=args.correlations, n_pseudo=args.pseudo,
+                          lumping=args.lumping, normalise=args.normalise)
+    table = [p.as_dict() for p in result.pseudo]
+    if args.json:
+        print(json.dumps({"components": table, "feed": [{"name": c.name, "z": float(z)} for c, z in
+                                                       zip(result.components, result.z)],
+                          "watson_k": result.watson_k, "methods": result.methods, "checks": result.checks,
+                          "notes": list(result.notes), "caution": CAUTION}))
+        return 0
+    print(f"characterised feed: {args.feed}")
+    print(f"  {'name':10s} {'z':>9s} {'M g/mol':>9s} {'SG':>7s} {'Tb / K':>8s} {'Tc / K':>8s} {'Pc / bar':>9s} {'omega':>7s}")
+    for row in table:
+        print(f"  {row['name']:10s} {row['z']:9.5f} {row['molar_mass']:9.2f} {row['specific_gravity']:7.4f} "
+              f"{row['boiling_point']:8.2f} {row['Tc']:8.2f} {row['Pc'] / 1e5:9.3f} {row['omega']:7.4f}")
+    print(f"  Watson characterisation factor: {result.watson_k:.4f}")
+    print("methods:")
+    for step, text in result.methods.items():
+        print(f"  {step}: {text}")
+    print("checks: " + json.dumps(result.checks))
+    for note in result.notes:
+        print(f"note: {note}")
+    print(CAUTION)
+    return 0
 
 
 def _run_components(args) -> int:
