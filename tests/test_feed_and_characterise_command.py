@@ -122,3 +122,18 @@ def test_characterise_refuses_unknown_methods_in_one_line(tmp_path, capsys):
     assert main(["thermo", "characterise", "--feed", str(path), "--split", "gama"]) == 2
     err = capsys.readouterr().err
     assert "split='gama' is not known" in err and len(err.strip().splitlines()) == 1
+
+
+def test_an_envelope_of_an_analysis_uses_its_pseudo_components(tmp_path, capsys):
+    path = tmp_path / "analysis.csv"
+    path.write_text(CSV)
+    assert main(["thermo", "envelope", "--feed", str(path), "--eos", "pr", "--json"]) in (0, 1)
+    document = json.loads(capsys.readouterr().out)
+    names = document["components"]
+    assert names[:8] == ["nitrogen", "carbon dioxide", "methane", "ethane", "propane", "n-butane", "n-pentane",
+                         "n-hexane"]
+    assert [name.startswith("C") for name in names[8:]] == [True, True, True]  # three pseudo-components
+    assert sum(document["feed"]) == pytest.approx(1.0, abs=1e-12)
+    assert {"critical", "cricondenbar", "cricondentherm"} <= {sp["kind"] for sp in document["special_points"]}
+    code = main(["thermo", "envelope", "--feed", str(path), "--mixture", "methane=1", "--eos", "pr"])
+    assert code == 2 and "not allowed with argument" in capsys.readouterr().err

@@ -104,16 +104,31 @@ def build_mixture(args, *, fractions: bool = True):
     if getattr(args, "components_file", None):
         extra += tuple(c for c in load_components(args.components_file)
                        if not any(c.name == e.name for e in extra))
-    components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
-                                  fractions=fractions)
+    if getattr(args, "feed", None) is not None:
+        # A laboratory analysis: its plus fraction split and lumped into pseudo-components.
+        from ._characterise import characterise
+        from ._feed import read_feed
+
+        rows = [{key: value for key, value in row.items() if key != "line"} for row in read_feed(args.feed)]
+        characterised = characterise(rows, normalise=bool(getattr(args, "normalise", False)), extra=extra)
+        components, z = list(characterised.components), np.array(characterised.z, dtype=float)
+        extra = extra + tuple(c for c in components if not any(c.name == e.name for e in extra))
+    else:
+        components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
+                                      fractions=fractions)
     kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
     return Mixture(tuple(components), family(args.eos), kij), z
 
 
 def _common(parser, *, fractions: bool = True) -> None:
-    parser.add_argument("--mixture", required=True,
-                        help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'" if fractions
-                        else "the two components, e.g. 'propane,n-butane'")
+    if fractions:
+        source = parser.add_mutually_exclusive_group(required=True)
+        source.add_argument("--mixture", help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'")
+        source.add_argument("--feed", metavar="FILE",
+                            help="a laboratory analysis (.csv or .toml) whose plus fraction is characterised "
+                                 "(see contin thermo characterise), e.g. --feed analysis.csv")
+    else:
+        parser.add_argument("--mixture", required=True, help="the two components, e.g. 'propane,n-butane'")
     parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
     parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                         help="a user component (K, Pa); repeatable")
