@@ -109,7 +109,7 @@ class Passage:
         self.done = False
         self.side = 0.0  # sign of c on the approach
         self.crossed = False
-        self.approach: list[np.ndarray] = []  # the accepted points of the approach, for the jump's predictor
+        self.history: list[np.ndarray] = []  # the accepted passage points (both sides), for the predictor
         self.ratio = 0.6
 
     def distance(self, x: np.ndarray) -> float:
@@ -140,15 +140,15 @@ class Passage:
         self.key = key
         self.active = True
         self.side = 1.0 if x[self.key] > 0.0 else -1.0
-        self.approach = [np.array(x, dtype=float)]
+        self.history = [np.array(x, dtype=float)]
 
     def predict(self, level: float) -> np.ndarray | None:
         """Predictor of a passage step: each coordinate extrapolated to c = ``level`` by the quadratic
         through the last three passage points in c (the branch is smooth in c through the crossing,
         where the tangent is ill-conditioned). None with fewer than three points."""
-        if len(self.approach) < 3:
+        if len(self.history) < 3:
             return None
-        points = np.array(self.approach[-3:])
+        points = np.array(self.history[-3:])
         c = points[:, self.key]
         weights = np.empty(3)
         for i in range(3):
@@ -201,7 +201,7 @@ class Passage:
         """After an accepted passage step to x: note the crossing, and end the passage past ``near``."""
         if not self.crossed and x[self.key] * self.side < 0.0:
             self.crossed = True
-        self.approach.append(np.array(x, dtype=float))
+        self.history.append(np.array(x, dtype=float))
         if self.crossed and abs(x[self.key]) >= self.crossing.near * (1.0 - 1e-9):
             self.active = False
             self.done = True
@@ -214,4 +214,4 @@ class Passage:
             self.crossed = False
             self.gap = self.crossing.gap
             self.ratio = 0.6
-            self.approach = []
+            self.history = []

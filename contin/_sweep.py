@@ -107,11 +107,8 @@ def trace_one(text: str, label: str, values: dict, start: dict | None = None) ->
     from ._trace import trace
 
     problem = problem_from_text(text, label)
-    options = dict(problem.options)
-    parameters = dict(options.pop("parameters", {}) or {})
-    parameters.update(values)
     begin = dict(problem.start) if start is None else {**dict(problem.start), **start}
-    branch = trace(problem.system, begin, events=list(problem.events), parameters=parameters, **options)
+    branch = trace(problem.system, begin, events=list(problem.events), parameters=dict(values), **problem.options)
     document = branch.to_dict()
     document["success"] = branch.success
     document["sweep_values"] = dict(values)
@@ -214,7 +211,7 @@ def run_sweep(text: str, label: str, over: Mapping[str, Sequence[float]], folder
         return trace_one, (text, label, grid[index], start)
 
     if executor is None:
-        for count, index in enumerate(pending):
+        for index in pending:
             progress.show(len(finished), 1, len(errors))
             function, arguments = submit(index)
             try:

@@ -546,7 +546,7 @@ def _trace_branch(mixture: Mixture, z: np.ndarray, system: EnvelopeSystem, x0: n
     )
 
 
-def _phase_sides(mixture: Mixture, z: np.ndarray, w: np.ndarray, v_feed: np.ndarray, v_incipient: np.ndarray,
+def _phase_sides(mixture: Mixture, z: np.ndarray, lnK: np.ndarray, v_feed: np.ndarray, v_incipient: np.ndarray,
                  T: np.ndarray, critical_rows: Sequence[int]) -> np.ndarray:
     """``dew``, ``bubble`` or ``liquid-liquid`` for each row, from the nature of the two phases.
 
@@ -571,9 +571,11 @@ def _phase_sides(mixture: Mixture, z: np.ndarray, w: np.ndarray, v_feed: np.ndar
     sides = np.where(bubble, "bubble", "dew").astype(object)
     family = mixture.family
     limit = 0.5 * family.z_c / family.omega_b
+    w = np.exp(lnK) * z
+    w = w / w.sum(axis=1, keepdims=True)
     composition = np.where(bubble[:, None], w, z[None, :])
     vapour_volume = np.where(bubble, v_incipient, v_feed)
-    near_critical = np.max(np.abs(np.log(w / z[None, :])), axis=1) <= _NEAR_CRITICAL  # the passage's rows
+    near_critical = np.max(np.abs(lnK), axis=1) <= _NEAR_CRITICAL  # the passage's rows (ln K fixed there)
     liquid = ((passed > 0) & ~near_critical & (vapour_volume < limit * (composition @ mixture.b))
               & (T < composition @ mixture.Tc))
     sides[liquid] = "liquid-liquid"
@@ -685,9 +687,7 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     v_feed = np.exp(points[:, n + 1])
     v_incipient = np.exp(points[:, n + 2]) / (np.exp(lnK) @ z)
     critical = branch.special("critical")
-    w = np.exp(lnK) * z
-    side = _phase_sides(mixture, z, w / w.sum(axis=1, keepdims=True), v_feed, v_incipient, T,
-                        [sp.index for sp in critical])
+    side = _phase_sides(mixture, z, lnK, v_feed, v_incipient, T, [sp.index for sp in critical])
     rows = [[float(T[i]), float(P[i]), str(side[i]), float(v_feed[i]), float(v_incipient[i]), None,
              *[float(v) for v in np.exp(lnK[i])]] for i in range(len(points))]
     columns = ("T", "P", "side", "v_feed", "v_incipient", "stable", *[f"K_{name}" for name in mixture.names])
