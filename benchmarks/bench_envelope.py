@@ -14,10 +14,10 @@ CHILD = r"""
 import json, time, sys
 began = time.perf_counter()
 import numpy as np
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
-from contin_thermo._envelope import trace_envelope
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
+from contin_thermo.curves._envelope import trace_envelope
 n = int(sys.argv[1])
 # Components of a gas condensate, lightest first; the heaviest get the smallest fractions. Helium and
 # hydrogen are left out on purpose: dissolved in a liquid they give no low-pressure bubble point (the

@@ -22,14 +22,14 @@ import time
 import numpy as np
 from scipy.optimize import fsolve
 
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._pure import CubicFluid, SaturationSystem, saturation_curve
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.curves._pure import CubicFluid, SaturationSystem, saturation_curve
 
 COLD = """
 import time, json
 began = time.perf_counter()
-from contin_thermo._pure import saturation_curve
+from contin_thermo.curves._pure import saturation_curve
 imported = time.perf_counter()
 result = saturation_curve({fluid!r}, {eos!r})
 done = time.perf_counter()

@@ -26,8 +26,8 @@ import time
 
 import numpy as np
 
-from contin._cache import CompileCache
-from contin._symbolic import SymbolicSystem, symengine_available
+from contin.systems._cache import CompileCache
+from contin.systems._symbolic import SymbolicSystem, symengine_available
 
 
 def chain(n: int) -> tuple[dict, dict, dict]:

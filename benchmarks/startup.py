@@ -19,9 +19,8 @@ import subprocess
 import sys
 import tempfile
 import time
-from pathlib import Path
 
-CONTIN = [sys.executable, "-c", "import sys; from contin._cli import main; sys.exit(main())"]
+CONTIN = [sys.executable, "-c", "import sys; from contin.commands._cli import main; sys.exit(main())"]
 CASES = {
     "help": [*CONTIN, "--help"],
     "saturation_warm": [*CONTIN, "thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--quiet"],

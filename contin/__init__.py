@@ -1,58 +1,58 @@
 """contin: pseudo-arclength continuation of parameter-dependent nonlinear systems F(u, p) = 0.
 
 The public face of the engine; everything not named here is private and free to change. Names are
-imported on first use (see ``contin._lazy``): ``import contin`` and the command line start without
+imported on first use (see ``contin.base._lazy``): ``import contin`` and the command line start without
 sympy, scipy or matplotlib.
 """
 
-from ._lazy import lazy_exports
+from .base._lazy import lazy_exports
 
-__version__ = "0.1.0"
+from .base._version import __version__  # noqa: F401 (public)
 
 # public name -> the private module that defines it ("module:attribute" where the names differ)
 _EXPORTS = {
-    "Branch": "._branch",
-    "CallableSystem": "._system",
-    "CompileCache": "._cache",
-    "ContinError": "._errors",
-    "Crossing": "._crossing",
-    "Diagram": "._diagram",
-    "Event": "._events",
-    "InputError": "._errors",
-    "Landing": "._crossing",
-    "Problem": "._problem",
-    "Progress": "._progress",
-    "Sensitivities": "._sensitivity",
-    "SpecialPoint": "._branch",
-    "Status": "._status",
-    "Structure": "._structure",
-    "StructureWarning": "._structure",
-    "SymbolicSystem": "._symbolic",
-    "System": "._system",
-    "TraceError": "._errors",
-    "TraceOptions": "._options",
-    "analyse_structure": "._structure",
-    "build_diagram": "._diagram",
-    "compile_expression": "._symbolic",
-    "default_cache": "._cache",
-    "document_record": "._record",
-    "explore": "._explore",
-    "expression_event": "._symbolic",
-    "first_lyapunov_coefficient": "._lyapunov",
-    "follow": "._follow",
-    "json_document": "._output",
-    "load_problem": "._problem",
-    "plot_branch": "._plot",
-    "read_record": "._record",
-    "restart": "._record",
-    "run_problem": "._problem",
-    "run_record": "._record",
-    "run_study": "._study",
-    "sensitivities": "._sensitivity",
-    "sweep": "._natural",
-    "switch_branch": "._switching",
-    "trace": "._trace",
-    "write_record": "._record",
+    "Branch": ".results._branch",
+    "CallableSystem": ".systems._system",
+    "CompileCache": ".systems._cache",
+    "ContinError": ".base._errors",
+    "Crossing": ".tracing._crossing",
+    "Diagram": ".results._diagram",
+    "Event": ".systems._events",
+    "InputError": ".base._errors",
+    "Landing": ".tracing._crossing",
+    "Problem": ".systems._problem",
+    "Progress": ".base._progress",
+    "Sensitivities": ".studies._sensitivity",
+    "SpecialPoint": ".results._branch",
+    "Status": ".results._status",
+    "Structure": ".systems._structure",
+    "StructureWarning": ".systems._structure",
+    "SymbolicSystem": ".systems._symbolic",
+    "System": ".systems._system",
+    "TraceError": ".base._errors",
+    "TraceOptions": ".tracing._options",
+    "analyse_structure": ".systems._structure",
+    "build_diagram": ".results._diagram",
+    "compile_expression": ".systems._symbolic",
+    "default_cache": ".systems._cache",
+    "document_record": ".results._record",
+    "explore": ".studies._explore",
+    "expression_event": ".systems._symbolic",
+    "first_lyapunov_coefficient": ".tracing._lyapunov",
+    "follow": ".studies._follow",
+    "json_document": ".base._output",
+    "load_problem": ".systems._problem",
+    "plot_branch": ".base._plot",
+    "read_record": ".results._record",
+    "restart": ".studies._restart",
+    "run_problem": ".studies._run",
+    "run_record": ".results._record",
+    "run_study": ".studies._study",
+    "sensitivities": ".studies._sensitivity",
+    "sweep": ".tracing._natural",
+    "switch_branch": ".tracing._switching",
+    "trace": ".tracing._trace",
+    "write_record": ".results._record",
 }
 
 __all__ = sorted(["__version__", *_EXPORTS])

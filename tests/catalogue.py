@@ -100,7 +100,7 @@ BRATU_CRITICAL_LAMBDA = 3.51383071912516
 BRATU_MAX_U_AT_FOLD = 1.186842169
 
 
-# -- branch points and Hopf points (appended with contin/_bifurcation.py) -----------------------------
+# -- branch points and Hopf points (appended with contin/tracing/_bifurcation.py) -----------------------------
 def pitchfork_normal_form() -> KnownProblem:
     # u (p - u^2) = 0: the trivial branch u = 0 meets u^2 = p at a branch point (0, 0).
     # Kuznetsov, Elements of Applied Bifurcation Theory, 3rd ed. 2004, ch. 7 (pitchfork normal form).

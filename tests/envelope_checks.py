@@ -3,7 +3,7 @@
 Shared by ``tests/test_envelope_robustness.py``, ``tests/test_round_off.py`` and
 ``benchmarks/robustness.py`` (which imports this file by its path). Everything here goes through the
 public API (``contin_thermo.mixture``, ``contin_thermo.trace_envelope``, the ``Envelope`` fields)
-except the residual, which is re-evaluated with ``contin_thermo._envelope.EnvelopeSystem``.
+except the residual, which is re-evaluated with ``contin_thermo.curves._envelope.EnvelopeSystem``.
 
 Two seeded sets of invented feeds (demo data, not published mixtures):
 
@@ -211,7 +211,7 @@ def check_envelope(envelope, z, *, start_pressure: float = START_PRESSURE,
     critical point's row (rows after it may be liquid-liquid); no row but the critical point's has all |ln K| <= 1e-7; with ``residuals``, every
     row's residual, re-evaluated here, is at most 1e-9.
     """
-    from contin_thermo._envelope import EnvelopeSystem
+    from contin_thermo.curves._envelope import EnvelopeSystem
 
     failed = {}
     rows = envelope.rows

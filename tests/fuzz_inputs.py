@@ -303,7 +303,7 @@ def run_cli(words: list[str], seconds: float | None = None) -> tuple[int | None,
 
     A run taking more than ``seconds`` (default: CONTIN_FUZZ_SECONDS, else 60) counts as a hang.
     """
-    from contin._cli import main
+    from contin.commands._cli import main
 
     if seconds is None:
         seconds = float(os.environ.get("CONTIN_FUZZ_SECONDS", "60"))

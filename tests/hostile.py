@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from contin._cli import main
+from contin.commands._cli import main
 
 #: An invented hinge-latch balance, u**3 - u + p = 0, with a spare parameter q; traces in well under a second.
 PROBLEM = """\

@@ -4,10 +4,10 @@ import numpy as np
 import pytest
 
 from contin import InputError
-from contin_thermo._binary import pxy, txy
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
+from contin_thermo.curves._binary import pxy, txy
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
 
 PB = Mixture((lookup("propane"), lookup("n-butane")), family("pr"))
 
@@ -49,7 +49,7 @@ def test_temperature_above_critical_of_second():
 
 
 def _hk_at(mixture, x1):
-    from contin_thermo._mixture_critical import critical_point
+    from contin_thermo.curves._mixture_critical import critical_point
 
     return critical_point(mixture, [x1, 1.0 - x1])
 

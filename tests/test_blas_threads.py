@@ -9,7 +9,7 @@ from threadpoolctl import threadpool_info, threadpool_limits
 
 import contin
 from catalogue import bratu_system
-from contin._tangent import one_blas_thread
+from contin.tracing._tangent import one_blas_thread
 
 
 def blas_threads() -> set[int]:

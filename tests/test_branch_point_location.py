@@ -85,7 +85,7 @@ def test_a_branch_point_of_two_unknowns_on_a_curved_branch():
 
 
 def test_when_the_refinement_fails_located_to_still_covers_the_error(monkeypatch):
-    import contin._bifurcation as bifurcation
+    import contin.tracing._bifurcation as bifurcation
 
     real = bifurcation._refine_branch_point
 

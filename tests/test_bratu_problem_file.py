@@ -14,7 +14,8 @@ import pytest
 from scipy.optimize import fsolve
 
 import contin
-from contin._problem import load_problem, run_problem
+from contin.systems._problem import load_problem
+from contin.studies._run import run_problem
 
 LAMBDA_C = 3.51383071912516  # Boundary Value Problems 2013:142 (fold of the continuous problem)
 MAX_U_AT_FOLD = 1.186842169  # 2 ln cosh(eta), eta = coth(eta); same source

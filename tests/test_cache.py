@@ -11,8 +11,8 @@ import sys
 import numpy as np
 import pytest
 
-from contin._cache import CompileCache, cache_directory, cache_key
-from contin._symbolic import SymbolicSystem, symengine_available
+from contin.systems._cache import CompileCache, cache_directory, cache_key
+from contin.systems._symbolic import SymbolicSystem, symengine_available
 
 BACKENDS = ["sympy", pytest.param("symengine", marks=pytest.mark.skipif(not symengine_available(), reason="symengine absent"))]
 EQUATIONS = {"mass": "-x + Da*(1 - x)*exp(y)", "heat": "-y + 8*Da*(1 - x)*exp(y) - y"}

@@ -6,7 +6,7 @@ from hypothesis import given, settings, strategies as st
 
 from contin import InputError
 from contin_thermo import CAUTION, Component, custom_component, lookup, trace_envelope
-from contin_thermo._characterise import (
+from contin_thermo.models._characterise import (
     characterise,
     correlate,
     exponential_split,
@@ -16,8 +16,8 @@ from contin_thermo._characterise import (
     molar_mass_of,
     watson_specific_gravities,
 )
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
 
 # An invented laboratory analysis of a lean gas from an invented field (mole fractions).
 ANALYSIS = [("nitrogen", 0.012), ("carbon dioxide", 0.021), ("methane", 0.781), ("ethane", 0.071),
@@ -119,7 +119,7 @@ def test_kesler_lee_is_the_closer_set_for_the_n_alkanes():
 def test_riazi_daubert_boiling_point_against_the_katz_firoozabadi_table():
     # Katz & Firoozabadi (1978) SCN table, C6..C20 (memory): the Riazi-Daubert (1980) Tb from the
     # table's M and SG lies within 4 % of the table's Tb (measured: -1.2 % at C6 to +3.8 % at C20).
-    from contin_thermo._characterise import _boiling_point
+    from contin_thermo.models._characterise import _boiling_point
 
     rows = katz_firoozabadi_table()
     assert [r["scn"] for r in rows] == list(range(6, 21))

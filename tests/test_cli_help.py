@@ -11,8 +11,8 @@ import shlex
 import pytest
 
 from contin import InputError
-from contin._cli import build_parser
-from contin_thermo._units import parse_pressure, parse_temperature
+from contin.commands._cli import build_parser
+from contin_thermo.models._units import parse_pressure, parse_temperature
 
 
 def _commands():
@@ -87,7 +87,7 @@ def test_every_mixture_with_mole_fractions_takes_normalise(words, parser):
 
 
 def test_critical_mixture_takes_normalise_as_its_own_message_says(capsys):
-    from contin._cli import main
+    from contin.commands._cli import main
 
     code = main(["thermo", "critical", "--mixture", "methane=0.7,ethane=0.2", "--eos", "pr"])
     err = capsys.readouterr().err

@@ -10,8 +10,8 @@ import textwrap
 
 import pytest
 
-import contin._cli as cli
-from contin._cli import main
+import contin.commands._cli as cli
+from contin.commands._cli import main
 
 PROBLEM = textwrap.dedent(
     """\
@@ -201,7 +201,7 @@ def test_the_summary_shows_hopf_frequencies_and_the_notes_that_qualify_a_result(
 
 
 def test_ctrl_c_mid_trace_writes_the_partial_files_and_exits_130(tmp_path, capsys, monkeypatch):
-    import contin._problem as problem_module
+    import contin.studies._run as problem_module
 
     real = problem_module.run_problem
 

@@ -6,7 +6,7 @@ import json
 
 import pytest
 
-from contin._cli import main
+from contin.commands._cli import main
 
 
 def run(capsys, *words):

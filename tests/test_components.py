@@ -5,7 +5,7 @@ import warnings
 import pytest
 
 from contin import InputError
-from contin_thermo._components import (
+from contin_thermo.models._components import (
     all_components,
     custom_component,
     load_components,

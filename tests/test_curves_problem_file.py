@@ -10,9 +10,9 @@ import json
 
 import pytest
 
-from contin._cli import main
-from contin._errors import InputError
-from contin._problem import load_problem
+from contin.commands._cli import main
+from contin.base._errors import InputError
+from contin.systems._problem import load_problem
 
 CUSP = """
 [unknowns]

@@ -7,8 +7,8 @@ import os
 
 import pytest
 
-from contin._cli import main
-from contin_thermo._demo import FEED, INTERACTION_STUDY
+from contin.commands._cli import main
+from contin_thermo.commands._demo import FEED, INTERACTION_STUDY
 
 
 def test_feed_is_a_valid_made_up_composition():

@@ -8,11 +8,11 @@ import pytest
 import contin_thermo
 
 from contin import InputError
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._envelope import EnvelopeSystem, dew_point, trace_envelope
-from contin_thermo._mixture import Mixture
-from contin_thermo._mixture_critical import critical_point
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.curves._envelope import EnvelopeSystem, dew_point, trace_envelope
+from contin_thermo.models._mixture import Mixture
+from contin_thermo.curves._mixture_critical import critical_point
 
 # An invented lean gas (demo composition, not a published mixture).
 NAMES = ["methane", "ethane", "propane", "n-butane"]
@@ -107,7 +107,7 @@ def test_pure_component_limit_matches_saturation():
     # Issue 5 check: a trace of a second component (z2 = 1e-8) collapses onto the pure saturation
     # curve, 1e-5 relative in P at the same T. The pure Psat comes from the equal-fugacity solve of the
     # pure second component (x1 = 0 end of a Pxy diagram).
-    from contin_thermo._binary import _start
+    from contin_thermo.curves._binary import _start
 
     mixture = Mixture((lookup("propane"), lookup("n-butane")), family("pr"))
     envelope = trace_envelope(mixture, [1 - 1e-8, 1e-8], check_stability=False)
@@ -162,7 +162,7 @@ def test_two_components_with_identical_constants_give_the_pure_curve():
     # which the cubic reproduces exactly (Tc, Pc of propane: Poling et al. 5th ed.; memory).
     import dataclasses
 
-    from contin_thermo._binary import _start
+    from contin_thermo.curves._binary import _start
 
     propane = lookup("propane")
     twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),

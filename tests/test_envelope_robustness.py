@@ -13,7 +13,7 @@ import pytest
 from envelope_checks import ROW_MATCH, check_envelope, robustness_set, row_residual
 
 from contin_thermo import mixture_critical_point, trace_envelope
-from contin_thermo._envelope import EnvelopeSystem
+from contin_thermo.curves._envelope import EnvelopeSystem
 
 
 @pytest.fixture(scope="module")

@@ -1,13 +1,12 @@
 """Cubic families: critical constants from delta1, delta2; alpha functions; the pressure law."""
 
-import math
 
 import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
 from contin import InputError
-from contin_thermo._eos import FAMILIES, GAS_CONSTANT, critical_constants, family
+from contin_thermo.models._eos import FAMILIES, GAS_CONSTANT, critical_constants, family
 
 
 def test_gas_constant_is_the_2019_si_value():
@@ -137,9 +136,9 @@ def test_family_names_are_case_insensitive():
 
 @pytest.mark.parametrize("name", sorted(FAMILIES))
 def test_scalar_alpha_of_the_pure_fluid_matches_the_family(name):
-    # The hot-path scalar copy in contin_thermo._pure must be the family's alpha (common practice).
-    from contin_thermo._components import custom_component
-    from contin_thermo._pure import CubicFluid
+    # The hot-path scalar copy in contin_thermo.curves._pure must be the family's alpha (common practice).
+    from contin_thermo.models._components import custom_component
+    from contin_thermo.curves._pure import CubicFluid
 
     f = family(name)
     fluid = CubicFluid(custom_component("x", 350.0, 4e6, 0.6), f)

@@ -8,8 +8,9 @@ import numpy as np
 import pytest
 from scipy.optimize import fsolve
 
-from contin._cli import example_names, example_path
-from contin._problem import load_problem, run_problem
+from contin.commands._cli import example_names, example_path
+from contin.systems._problem import load_problem
+from contin.studies._run import run_problem
 
 # Bratu fold lambda_c = 3.51383071912516 (Boundary Value Problems 2013:142); the slab of half-width 1
 # maps onto Bratu's unit interval with lambda = 4 delta, so the Frank-Kamenetskii slab limit is lambda_c / 4.

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 
 import contin
-import contin._trace
-from contin._cli import main
+import contin.tracing._trace
+from contin.commands._cli import main
 
 
 @pytest.fixture(autouse=True)
@@ -88,7 +88,7 @@ def test_a_linear_algebra_failure_inside_the_engine_is_a_status(monkeypatch):
             raise np.linalg.LinAlgError("Eigenvalues did not converge")
         return 1, 0
 
-    monkeypatch.setattr(contin._trace, "hopf_signature", failing)
+    monkeypatch.setattr(contin.tracing._trace, "hopf_signature", failing)
     branch = contin.trace(brusselator(), free="b", bounds={"b": (0.5, 3.0)}, step=0.1)
     assert branch.status is contin.Status.LINEAR_ALGEBRA_FAILED and not branch.success
     assert branch.message.startswith("stopped: a linear-algebra routine failed after the point x = 1, y = ")
@@ -102,7 +102,7 @@ def test_a_linear_algebra_failure_at_the_start_says_so(monkeypatch):
     def failing(jacobian):
         raise np.linalg.LinAlgError("SVD did not converge")
 
-    monkeypatch.setattr(contin._trace, "hopf_signature", failing)
+    monkeypatch.setattr(contin.tracing._trace, "hopf_signature", failing)
     branch = contin.trace(brusselator(), free="b", bounds={"b": (0.5, 3.0)})
     assert branch.status.label == "linear_algebra_failed"
     assert branch.message == ("stopped: a linear-algebra routine failed at the start point (LinAlgError: SVD did "

@@ -11,9 +11,9 @@ import math
 
 import pytest
 
-from contin._cli import main
-from contin._errors import InputError
-from contin_thermo._feed import read_feed
+from contin.commands._cli import main
+from contin.base._errors import InputError
+from contin_thermo.models._feed import read_feed
 
 CSV = """# invented analysis (mole percent)
 nitrogen, 1.20

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from contin_thermo import _helmholtz as helmholtz
+from contin_thermo.models import _helmholtz as helmholtz
 
 R = 8.31446261815324  # J/(mol K), exact since the 2019 SI redefinition (Avogadro x Boltzmann)
 PR = (1 + math.sqrt(2), 1 - math.sqrt(2))  # Peng & Robinson, Ind. Eng. Chem. Fundam. 15 (1976) 59

@@ -122,7 +122,7 @@ def test_hopf_point_in_json_output():
 
 
 def test_hopf_points_are_plotted_in_words():
-    from contin._plot import describe_kind
+    from contin.base._plot import describe_kind
 
     assert describe_kind("hopf") == "Hopf point"
     assert describe_kind("branch_point") == "branch point"
@@ -143,7 +143,7 @@ def test_detect_refuses_a_name_that_is_not_a_string():
 def test_hopf_sign_changes_only_through_a_zero_pair_sum():
     # The pair-product sign is a polynomial's sign: a collision of two real eigenvalues into a complex
     # pair (here at trace^2 = 4 det) does not change it; the crossing of the imaginary axis does.
-    from contin._bifurcation import hopf_sign
+    from contin.tracing._bifurcation import hopf_sign
 
     def jacobian(trace_value, determinant):
         return np.array([[trace_value, -determinant], [1.0, 0.0]])  # eigenvalues solve l^2 - tr l + det = 0

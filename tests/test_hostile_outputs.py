@@ -12,7 +12,6 @@ import stat
 
 import pytest
 
-from contin._cli import main
 from hostile import PROBLEM, run, snapshot
 
 
@@ -74,12 +73,12 @@ def test_a_link_to_a_regular_file_is_written_through_and_stays_a_link(tmp_path, 
 
 
 def test_a_write_that_fails_late_leaves_nothing_of_the_run(tmp_path, capsys, problem, monkeypatch):
-    import contin._plot
+    import contin.base._plot
 
     def full_disk(figure, path, argument="--plot"):
         raise OSError(errno.ENOSPC, "No space left on device", str(path))
 
-    monkeypatch.setattr(contin._plot, "save_figure", full_disk)
+    monkeypatch.setattr(contin.base._plot, "save_figure", full_disk)
     err = refused(capsys, tmp_path, ["run", str(problem), "--quiet", "--out", str(tmp_path / "o" / "deeper"),
                                      "--record", str(tmp_path / "r.json"), "--plot", str(tmp_path / "p.png")],
                   "--plot: cannot write the file: No space left on device")

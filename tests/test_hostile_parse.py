@@ -11,7 +11,7 @@ import sympy
 from hypothesis import given, settings, strategies as st
 
 import contin
-from contin._parse import MAX_FACTORS, MAX_MINMAX_ARGUMENTS, MAX_POWER_CHAIN, parse_expression
+from contin.systems._parse import MAX_FACTORS, MAX_MINMAX_ARGUMENTS, MAX_POWER_CHAIN, parse_expression
 from hostile import run
 
 BACKENDS = ["sympy", "symengine"]

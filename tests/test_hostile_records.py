@@ -7,7 +7,7 @@ import os
 
 import pytest
 
-from contin._cli import main
+from contin.commands._cli import main
 from hostile import PROBLEM, run, snapshot
 
 

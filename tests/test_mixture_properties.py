@@ -1,14 +1,13 @@
 """Mixture properties from the Helmholtz energy: derivatives, Gibbs-Duhem, pure limit, Wilson, Rachford-Rice."""
 
-import math
 
 import numpy as np
 import pytest
 
 from contin import InputError
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture, rachford_rice
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture, rachford_rice
 
 KIJ = np.array([[0, 0, 0.02], [0, 0, 0], [0.02, 0, 0]])  # invented values
 MIX = Mixture((lookup("methane"), lookup("ethane"), lookup("n-butane")), family("pr"), KIJ)

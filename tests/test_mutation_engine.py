@@ -220,7 +220,7 @@ def test_status_messages_say_how_the_trace_ended():
 
 
 def test_crossing_test_edge_cases():
-    from contin._events import crossed
+    from contin.systems._events import crossed
 
     # A zero exactly at the first end was counted by the previous step; non-finite values never cross.
     assert not crossed(0.0, 1.0) and not crossed(0.0, -1.0)

@@ -6,17 +6,16 @@ Found by mutation testing (benchmarks/mutation.py); each test names the break it
 from __future__ import annotations
 
 import dataclasses
-import math
 
 import numpy as np
 import pytest
 
-from contin_thermo._binary import pxy
-from contin_thermo._components import lookup
-from contin_thermo._envelope import _assemble, trace_envelope
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
-from contin_thermo._stability import tangent_plane_test
+from contin_thermo.curves._binary import pxy
+from contin_thermo.models._components import lookup
+from contin_thermo.curves._envelope import _assemble, trace_envelope
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
+from contin_thermo.curves._stability import tangent_plane_test
 
 # An invented 50/50 blend (demo composition) under Peng-Robinson.
 BLEND = Mixture((lookup("methane"), lookup("propane")), family("pr"))

@@ -16,9 +16,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import contin
-from contin._cli import main
-from contin._corrector import residual_converged, term_sizes
-from contin._problem import load_problem, run_problem
+from contin.commands._cli import main
+from contin.tracing._corrector import residual_converged, term_sizes
+from contin.systems._problem import load_problem
+from contin.studies._run import run_problem
 
 LAMBDA_C = 3.51383071912516  # Boundary Value Problems 2013:142 (fold of the continuous problem)
 INTERIOR = 200

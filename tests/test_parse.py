@@ -11,8 +11,8 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from contin._errors import InputError
-from contin._parse import MAX_LENGTH, parse_expression
+from contin.base._errors import InputError
+from contin.systems._parse import MAX_LENGTH, parse_expression
 
 u, p = sympy.symbols("u p", real=True)
 NAMES = {"u": u, "p": p, "k": sympy.Float(2.5)}

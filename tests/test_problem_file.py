@@ -8,8 +8,9 @@ import textwrap
 import numpy as np
 import pytest
 
-from contin._errors import InputError
-from contin._problem import EVENT_KEYS, TOP_KEYS, TRACE_KEYS, load_problem, run_problem
+from contin.base._errors import InputError
+from contin.systems._problem import EVENT_KEYS, TOP_KEYS, TRACE_KEYS, load_problem
+from contin.studies._run import run_problem
 
 GOOD = textwrap.dedent(
     """\

@@ -45,7 +45,7 @@ def test_progress_waits_before_the_first_line():
 
 
 def test_branch_plot_marks_special_points_in_words(tmp_path):
-    from contin._plot import save_figure
+    from contin.base._plot import save_figure
 
     problem = cubic_s_curve()
     branch = contin.trace(problem.system, problem.start, **problem.trace)
@@ -94,8 +94,8 @@ def test_every_picture_marks_a_kind_of_point_alike_and_labels_axes_alike():
 
     matplotlib.use("Agg")
     import contin_thermo
-    from contin._plot import KIND_STYLES, axis_label
-    from contin_thermo._plot_envelope import draw_envelope
+    from contin.base._plot import KIND_STYLES, axis_label
+    from contin_thermo.reports._plot_envelope import draw_envelope
 
     mixture = contin_thermo.mixture(["methane", "ethane", "propane"], "pr")
     envelope = contin_thermo.trace_envelope(mixture, [0.8, 0.12, 0.08], check_stability=False)

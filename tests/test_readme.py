@@ -13,7 +13,7 @@ from pathlib import Path
 
 import pytest
 
-from contin._cli import main
+from contin.commands._cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 README = (ROOT / "README.md").read_text(encoding="utf-8")

@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 import json
-import math
 
 import numpy as np
 import pytest
 
 import contin
-from catalogue import circle, cubic_s_curve
+from catalogue import cubic_s_curve
 
 
 def traced():
@@ -113,7 +112,7 @@ def test_bad_initial_tangent_is_refused():
 
 
 def test_contin_run_record_holds_the_effective_tolerances(tmp_path, capsys):
-    from contin._cli import main
+    from contin.commands._cli import main
 
     record = tmp_path / "r.json"
     assert main(["run", "--example", "stirred_tank", "--record", str(record)]) == 0

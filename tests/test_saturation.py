@@ -7,9 +7,9 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from contin import InputError
-from contin_thermo._components import custom_component, lookup
-from contin_thermo._eos import GAS_CONSTANT, family
-from contin_thermo._pure import CubicFluid, critical_point, saturation_curve
+from contin_thermo.models._components import custom_component, lookup
+from contin_thermo.models._eos import GAS_CONSTANT, family
+from contin_thermo.curves._pure import CubicFluid, critical_point, saturation_curve
 
 # An invented fluid, with round critical constants, for reduced-variable checks.
 TEST_FLUID = custom_component("test fluid", 400.0, 4.0e6, 0.2)
@@ -213,7 +213,7 @@ def test_narrow_and_wide_formulas_agree_where_they_meet(order, offset):
     # The closed forms switch from the (w, t) series to the (x_l, x_v) form at t/w^2 = 0.04; both
     # describe one smooth function, so they agree there (common practice: check a piecewise formula
     # at its seams).
-    from contin_thermo import _pure
+    from contin_thermo.curves import _pure
 
     mu = 0.9
     w0 = 1.0 + offset + math.exp(mu)  # w at sigma = 0; solve t/w^2 = limit for sigma by bisection
@@ -235,7 +235,7 @@ def test_narrow_and_wide_formulas_agree_where_they_meet(order, offset):
 
 def test_every_table_fluid_and_family_lands_on_its_critical_point():
     # Robustness set: the whole component table with all four families, from the default 0.4 Tc.
-    from contin_thermo._components import all_components
+    from contin_thermo.models._components import all_components
 
     failures = []
     for component in all_components():

@@ -3,9 +3,9 @@
 import numpy as np
 import pytest
 
-from contin_thermo._components import custom_component, lookup
-from contin_thermo._eos import FAMILIES, GAS_CONSTANT, family
-from contin_thermo._pure import CubicFluid, critical_point, saturation_curve, spinodal_curve
+from contin_thermo.models._components import custom_component, lookup
+from contin_thermo.models._eos import FAMILIES, GAS_CONSTANT, family
+from contin_thermo.curves._pure import CubicFluid, critical_point, saturation_curve, spinodal_curve
 
 FLUIDS = ["methane", "n-decane", "carbon dioxide", "water"]
 
@@ -80,8 +80,8 @@ def test_spinodal_refuses_temperatures_above_tc():
 @pytest.mark.parametrize("eos", ["vdw", "rk", "srk", "pr"])
 def test_pressure_and_fugacity_agree_with_the_helmholtz_module(eos):
     # Consistency: the pure-fluid formulas here and the one symbolic residual Helmholtz energy of
-    # contin_thermo._helmholtz (through the mixture layer, two identical copies of one fluid) agree.
-    mixture_module = pytest.importorskip("contin_thermo._mixture")
+    # contin_thermo.models._helmholtz (through the mixture layer, two identical copies of one fluid) agree.
+    mixture_module = pytest.importorskip("contin_thermo.models._mixture")
     c = lookup("n-butane")
     twin = custom_component("n-butane twin", c.Tc, c.Pc, c.omega)
     mixture = mixture_module.Mixture((c, twin), family(eos))

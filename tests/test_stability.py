@@ -3,10 +3,10 @@
 import numpy as np
 import pytest
 
-from contin_thermo._components import lookup
-from contin_thermo._eos import family
-from contin_thermo._mixture import Mixture
-from contin_thermo._stability import tangent_plane_test
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
+from contin_thermo.curves._stability import tangent_plane_test
 
 MIXTURE = Mixture((lookup("methane"), lookup("propane")), family("pr"))
 Z = np.array([0.5, 0.5])
@@ -35,8 +35,8 @@ def test_known_phase_is_not_counted():
 # n-pentane makes their liquids partly immiscible at low temperature, so along the low-temperature
 # bubble curve the saturated liquid feed would rather split into two liquids: the vapour-liquid
 # bubble point there is metastable.
-from contin_thermo._envelope import trace_envelope  # noqa: E402
-from contin_thermo._stability import ln_phi_batch  # noqa: E402
+from contin_thermo.curves._envelope import trace_envelope  # noqa: E402
+from contin_thermo.curves._stability import ln_phi_batch  # noqa: E402
 
 SPLIT = Mixture((lookup("propane"), lookup("n-pentane")), family("pr"), np.array([[0.0, 0.2], [0.2, 0.0]]))
 GRID = np.linspace(1e-5, 1 - 1e-5, 2001)

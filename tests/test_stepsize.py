@@ -6,7 +6,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from contin._stepsize import StepController
+from contin.tracing._stepsize import StepController
 
 
 def test_easy_steps_grow_and_hard_ones_shrink():

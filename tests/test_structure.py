@@ -8,9 +8,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from contin._errors import InputError
-from contin._structure import StructureWarning, analyse_structure
-from contin._symbolic import SymbolicSystem
+from contin.base._errors import InputError
+from contin.systems._structure import StructureWarning, analyse_structure
+from contin.systems._symbolic import SymbolicSystem
 
 
 def test_sound_chain_is_one_block():

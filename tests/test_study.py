@@ -8,7 +8,6 @@ from concurrent.futures import ThreadPoolExecutor
 import pytest
 
 import contin
-from catalogue import cubic_s_curve
 
 
 def fold_of_shifted_cubic(case):

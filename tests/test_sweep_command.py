@@ -13,7 +13,7 @@ import math
 
 import pytest
 
-from contin._cli import main
+from contin.commands._cli import main
 
 PROBLEM = """
 kind = "algebraic"

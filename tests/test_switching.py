@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 import contin
-from contin._switching import quadratic_directions
+from contin.tracing._switching import quadratic_directions
 
 A, K = 1.0, 0.05  # u = A lam^2 and u = A lam^2 - K lam cross at the origin only, at the shallow angle atan(K)
 

@@ -12,8 +12,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import contin
-from contin._errors import InputError
-from contin._symbolic import SymbolicSystem, choose_backend, compile_expression, expression_event, symengine_available
+from contin.base._errors import InputError
+from contin.systems._symbolic import SymbolicSystem, choose_backend, compile_expression, expression_event, symengine_available
 
 BACKENDS = ["sympy", pytest.param("symengine", marks=pytest.mark.skipif(not symengine_available(), reason="symengine absent"))]
 
@@ -200,7 +200,7 @@ def test_bad_backend_in_environment(monkeypatch):
 
 
 def test_missing_symengine_is_reported(monkeypatch):
-    import contin._symbolic as module
+    import contin.systems._symbolic as module
 
     monkeypatch.setattr(module, "symengine_available", lambda: False)
     with pytest.raises(InputError, match="symengine .* cannot be imported; install it"):

@@ -4,12 +4,12 @@ import json
 
 import pytest
 
-from contin_thermo import _cli_mixture as cli
+from contin_thermo.commands import _cli_mixture as cli
 
 
 def run(argv, capsys):
     """Through the real entry point: `contin thermo ...` (errors come out as one 'contin: error:' line)."""
-    from contin._cli import main
+    from contin.commands._cli import main
 
     code = main(["thermo", *argv])
     out = capsys.readouterr()
@@ -78,9 +78,9 @@ def assert_binary_critical(names, x1, T, P):
 
     import numpy as np
 
-    from contin_thermo._components import lookup
-    from contin_thermo._eos import family
-    from contin_thermo._mixture import Mixture
+    from contin_thermo.models._components import lookup
+    from contin_thermo.models._eos import family
+    from contin_thermo.models._mixture import Mixture
 
     mixture = Mixture(tuple(lookup(n) for n in names), family("pr"))
 
@@ -127,7 +127,7 @@ def test_txy_pressure_in_bar(capsys):
 
 def _pure_row(fluid, T=None, P=None):
     """(T, P) of the pure-fluid PR saturation curve at a requested temperature or pressure."""
-    from contin_thermo._pure import saturation_curve
+    from contin_thermo.curves._pure import saturation_curve
 
     curve = saturation_curve(fluid, "pr", at_temperatures=[T] if T else (), at_pressures=[P] if P else ())
     (row,) = curve.at

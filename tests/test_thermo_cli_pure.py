@@ -4,7 +4,7 @@ import json
 
 import pytest
 
-from contin._cli import main
+from contin.commands._cli import main
 
 
 def run(capsys, *argv):
@@ -115,7 +115,7 @@ def test_missing_eos_is_a_usage_error(capsys):
 
 
 def test_critical_with_mixture_dispatches_to_the_mixture_commands(capsys):
-    pytest.importorskip("contin_thermo._cli_mixture")
+    pytest.importorskip("contin_thermo.commands._cli_mixture")
     code, out, _ = run(capsys, "critical", "--mixture", "methane=0.5,ethane=0.5", "--eos", "pr", "--json")
     assert code == 0
     document = json.loads(out)

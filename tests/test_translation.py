@@ -8,10 +8,10 @@ from scipy.optimize import brentq
 
 from contin import InputError
 from contin_thermo import lookup, saturation_curve, spinodal_curve
-from contin_thermo._characterise import characterise, molar_mass_of
-from contin_thermo._eos import GAS_CONSTANT, family
-from contin_thermo._envelope import trace_envelope
-from contin_thermo._translation import (
+from contin_thermo.models._characterise import characterise, molar_mass_of
+from contin_thermo.models._eos import GAS_CONSTANT, family
+from contin_thermo.curves._envelope import trace_envelope
+from contin_thermo.models._translation import (
     rackett_compressibility,
     translate_curve,
     translate_volume,

@@ -7,7 +7,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from contin import InputError
-from contin_thermo._units import output_units, parse_list, parse_pressure, parse_temperature
+from contin_thermo.models._units import output_units, parse_list, parse_pressure, parse_temperature
 
 
 @pytest.mark.parametrize("text, kelvin", [
@@ -109,7 +109,7 @@ def test_fahrenheit_at_or_below_absolute_zero_is_refused():
 @settings(max_examples=200, derandomize=True)
 @given(kelvin=st.floats(1.0, 5000.0), unit=st.sampled_from(["K", "degC", "degF", "degR"]))
 def test_temperature_round_trip_in_every_unit(kelvin, unit):
-    from contin_thermo._units import TEMPERATURE_UNITS
+    from contin_thermo.models._units import TEMPERATURE_UNITS
     shown = TEMPERATURE_UNITS[unit][1](kelvin)
     assert parse_temperature(repr(shown) + " " + unit, "--temperature") == pytest.approx(kelvin, rel=1e-12)
 
@@ -117,5 +117,5 @@ def test_temperature_round_trip_in_every_unit(kelvin, unit):
 @settings(max_examples=200, derandomize=True)
 @given(value=st.floats(1e-3, 1e9), unit=st.sampled_from(["Pa", "kPa", "MPa", "bar", "atm", "psia"]))
 def test_pressure_round_trip(value, unit):
-    from contin_thermo._units import PRESSURE_UNITS
+    from contin_thermo.models._units import PRESSURE_UNITS
     assert parse_pressure(f"{value!r} {unit}") / PRESSURE_UNITS[unit] == pytest.approx(value, rel=1e-14)

@@ -10,7 +10,7 @@ import pytest
 
 iapws97 = pytest.importorskip("iapws.iapws97")
 
-from contin_thermo._pure import saturation_curve  # noqa: E402
+from contin_thermo.curves._pure import saturation_curve  # noqa: E402
 
 
 def test_if97_saturation_pressure_is_the_published_one():

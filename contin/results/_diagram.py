@@ -1,0 +1,129 @@
+"""The branch diagram: a networkx graph of traced branches, their special points and their ends.
+
+Nodes are the special points of every branch and the branch ends (kind ``start`` or ``end``); a
+point met by several branches (a branch point, where a switched branch begins) is one node. Each
+branch is a chain of edges between its consecutive nodes, each edge carrying the branch's number
+and its point count. The graph is written as JSON (``{"nodes": [...], "edges": [...]}``) or GraphML,
+and drawn in any two coordinates.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from collections.abc import Sequence
+
+import networkx as nx
+import numpy as np
+
+from ._branch import Branch
+from ..base._errors import InputError
+from ..base._names import suggest
+from ..base._output import write_text_atomically
+
+__all__ = ["Diagram", "build_diagram"]
+
+
+class Diagram:
+    """The graph of an exploration (see the module text).
+
+    Attributes:
+        graph: the ``networkx.MultiGraph``; node attributes ``kind``, ``name``, ``branch`` (the first
+            branch it was found on), ``index`` (its row there) and one attribute per coordinate;
+            edge attributes ``branch`` and ``points``.
+        branches: the branches, in the order of their numbers.
+    """
+
+    def __init__(self, graph: nx.MultiGraph, branches: Sequence[Branch]) -> None:
+        self.graph = graph
+        self.branches = tuple(branches)
+
+    def to_dict(self) -> dict:
+        """``{"nodes": [{"id", "kind", "name", "branch", "index", "values"}...], "edges": [{"source",
+        "target", "branch", "points"}...]}``, nodes and edges in the order they were made."""
+        columns = self.branches[0].columns if self.branches else ()
+        nodes = [{"id": node, "kind": data["kind"], "name": data["name"], "branch": data["branch"],
+                  "index": data["index"], "values": {c: data[c] for c in columns}}
+                 for node, data in self.graph.nodes(data=True)]
+        edges = [{"source": a, "target": b, "branch": data["branch"], "points": data["points"]}
+                 for a, b, data in self.graph.edges(data=True)]
+        return {"nodes": nodes, "edges": edges}
+
+    def to_json(self, path: str | os.PathLike | None = None) -> str:
+        """JSON text of ``{"branches": [...], "diagram": ...}``; written (atomically) to ``path`` if given."""
+        text = json.dumps({"branches": [b.to_dict() for b in self.branches], "diagram": self.to_dict()}, indent=1) + "\n"
+        if path is not None:
+            write_text_atomically(path, text)
+        return text
+
+    def to_graphml(self, path: str | os.PathLike) -> None:
+        """Write the graph as GraphML (every attribute a number or a string)."""
+        text = "\n".join(nx.generate_graphml(self.graph)) + "\n"
+        write_text_atomically(path, text)
+
+    def plot(self, x: str | None = None, y: str | None = None, *, ax=None):
+        """Every branch in the coordinates ``x``, ``y`` (default: the free parameter and the first
+        unknown), special points marked; returns the matplotlib axes."""
+        from ..base._plot import plot_branch
+
+        if not self.branches:
+            raise InputError("the diagram has no branches to draw")
+        columns = self.branches[0].columns
+        for name, argument in ((x, "x"), (y, "y")):
+            if name is not None and name not in columns:
+                raise InputError(f"{argument}={name!r} is not a coordinate of the branches (columns: "
+                                 f"{', '.join(columns)}){suggest(name, columns)}")
+        for number, branch in enumerate(self.branches):
+            ax = plot_branch(branch, x, y, ax=ax, label=f"branch {number}", annotate=number == 0)
+        handles, labels = ax.get_legend_handles_labels()
+        chosen = [(h, label) for h, label in zip(handles, labels) if label.startswith("branch ") and label[7:].isdigit()]
+        ax.legend([h for h, _ in chosen], [label for _, label in chosen])
+        return ax
+
+
+def _same_point(a: np.ndarray, b: np.ndarray, tolerance: float) -> bool:
+    return bool(np.linalg.norm(a - b) <= tolerance * (1.0 + max(float(np.abs(a).max()), float(np.abs(b).max()))))
+
+
+def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | None] = (),
+                  tolerance: float = 1e-6) -> Diagram:
+    """The diagram of ``branches`` (all with the same columns).
+
+    Args:
+        branches: the branches, numbered in this order.
+        origins: for each branch, the point it was switched from (a branch point of an earlier
+            branch), or None; its first edge then starts at that point's node.
+        tolerance: special points closer than this (relative to their size) are one node.
+    """
+    graph = nx.MultiGraph()
+    known: list[tuple[str, np.ndarray]] = []
+
+    def node(point: np.ndarray, kind: str, name: str, branch: int, index: int, columns) -> str:
+        for key, where in known:
+            if _same_point(where, point, tolerance):
+                return key
+        key = f"n{len(known)}"
+        known.append((key, point))
+        graph.add_node(key, kind=kind, name=name, branch=branch, index=index,
+                       **{c: float(v) for c, v in zip(columns, point)})
+        return key
+
+    origins = list(origins) + [None] * (len(branches) - len(origins))
+    for number, branch in enumerate(branches):
+        if not len(branch.points):
+            continue
+        columns = branch.columns
+        chain = []
+        origin = origins[number]
+        if origin is not None:
+            chain.append((node(np.asarray(origin, dtype=float), "branch_point", "branch point", number, 0, columns), 0))
+        else:
+            chain.append((node(branch.points[0], "start", "start", number, 0, columns), 0))
+        for sp in branch.special_points:
+            chain.append((node(sp.point, sp.kind, sp.name, number, sp.index, columns), sp.index))
+        last = len(branch.points) - 1
+        if not branch.special_points or branch.special_points[-1].index != last:
+            chain.append((node(branch.points[last], "end", f"end ({branch.status.label})", number, last, columns), last))
+        for (a, i), (b, j) in zip(chain, chain[1:]):
+            graph.add_edge(a, b, branch=number, points=int(j - i + 1))
+    return Diagram(graph, branches)

@@ -1,0 +1,113 @@
+"""What every tracing ``contin thermo`` command shares: output units, run records, checks of destinations."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from collections.abc import Callable, Mapping
+from pathlib import Path
+
+import contin
+from contin import InputError
+from contin.base import fill_text
+
+from ..models._units import UNIT_SYSTEMS_HELP, output_units
+
+__all__ = ["add_units_option", "add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+           "queue", "finish"]
+
+
+def add_units_option(parser: argparse.ArgumentParser, default: str, shown: str) -> None:
+    """Add ``--units SET`` (checked by :func:`output_units` before any work, so that an unknown set is
+    refused with a message naming the sets, not argparse's list of choices)."""
+    parser.add_argument("--units", default=default, metavar="SET",
+                        help=f"units of {shown}: {UNIT_SYSTEMS_HELP} (default: {default}); JSON is always SI")
+
+
+def add_output_options(parser: argparse.ArgumentParser) -> None:
+    """Add ``--units``, ``--record`` and ``--quiet`` (``--json``, ``--csv``, ``--plot`` are the command's own)."""
+    add_units_option(parser, "si", "the printed summary and the CSV file")
+    parser.add_argument("--record", metavar="FILE",
+                        help="write a run record: the command, component data and kij used, versions, result")
+    parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")
+
+
+def check_destinations(args: argparse.Namespace):
+    """Check every output file (--csv, --plot, --record) before any work: a regular file or a new
+    name in a writable folder, a plot of a known format. Keeps the checked targets on ``args``."""
+    from contin.base import Outputs
+
+    outputs = Outputs()
+    for option in ("csv", "plot", "record"):
+        value = getattr(args, option, None)
+        if value is not None:
+            outputs.target(f"--{option}", value)
+    plot = getattr(args, "plot", None)
+    if plot is not None and Path(plot).suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise InputError(f"--plot {plot!r} must end in .png, .svg or .pdf")
+    output_units(getattr(args, "units", "si"))
+    args.outputs = outputs
+    return outputs
+
+
+def _outputs(args: argparse.Namespace):
+    outputs = getattr(args, "outputs", None)
+    return outputs if outputs is not None else check_destinations(args)
+
+
+def component_data(component) -> dict:
+    """The constants of a component as used, with their source, for run records."""
+    return {"name": component.name, "Tc": component.Tc, "Pc": component.Pc, "omega": component.omega,
+            "source": getattr(component, "source", "")}
+
+
+def write_run_record(args: argparse.Namespace, document: Mapping, input: Mapping,
+                     options: Mapping | None = None) -> None:
+    """Queue ``--record`` if asked: the command line, the input actually used, the tolerances and step
+    options, versions and the result (status and timings included). Written by :func:`finish`."""
+    path = getattr(args, "record", None)
+    if path is None:
+        return
+    record = contin.document_record(document, input={"kind": "thermo", **input},
+                                    command=getattr(args, "argv", None), options=dict(options or {}))
+    outputs = _outputs(args)
+    text = json.dumps(record, indent=1) + "\n"
+    outputs.add("--record", outputs.target("--record", path), lambda target: fill_text(target, text))
+
+
+def queue(args: argparse.Namespace, option: str, write: Callable) -> None:
+    """Queue ``write(path)`` for the output option ``option`` (e.g. ``"csv"``) if it was given."""
+    value = getattr(args, option, None)
+    if value is None:
+        return
+    outputs = _outputs(args)
+    outputs.add(f"--{option}", outputs.target(f"--{option}", value), write)
+
+
+def finish(args: argparse.Namespace) -> None:
+    """Write every queued output together (all or none)."""
+    _outputs(args).commit()
+
+
+def with_progress(args: argparse.Namespace, label: str, describe: Callable, run: Callable):
+    """Call ``run(progress)`` with a progress line (silent with --quiet or --json, or off a terminal)."""
+    progress = contin.Progress((), quiet=bool(getattr(args, "quiet", False) or getattr(args, "json", False)),
+                               label=label, describe=describe)
+    try:
+        return run(progress)
+    finally:
+        progress.close()
+
+
+def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, record_input: Mapping,
+         options: Mapping) -> int:
+    """Every tracing command's outputs, in one order: CSV (in ``--units``), plot, run record, then
+    the JSON document or the summary on stdout. Returns the exit status (0 success, 1 not)."""
+    document = result.to_dict()
+    queue(args, "csv", lambda path: result.to_csv(path, units=args.units))
+    if plot is not None:
+        queue(args, "plot", lambda path: plot(result, path))
+    write_run_record(args, document, record_input, options)
+    finish(args)
+    print(json.dumps(document) if args.json else summary)
+    return 0 if result.success else 1

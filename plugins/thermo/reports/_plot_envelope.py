@@ -1,0 +1,127 @@
+"""P-T plot of a phase envelope with its special points marked; Pxy and Txy plots of binary diagrams."""
+
+from __future__ import annotations
+
+import textwrap
+
+import numpy as np
+
+from ..models._caution import CAUTION
+
+__all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope", "smooth_curve"]
+
+def smooth_curve(T: np.ndarray, P: np.ndarray, samples: int = 10):
+    """A curve through the points (T, P), drawn smooth: a cubic spline in (ln T, ln P) against chord length.
+
+    Every traced point is exact; only the drawing between them is interpolated (straight chords show
+    corners where the steps are long). Falls back to the points themselves for fewer than four.
+    """
+    from scipy.interpolate import CubicSpline
+
+    keep = np.isfinite(T) & np.isfinite(P) & (T > 0) & (P > 0)
+    x, y = np.log(T[keep]), np.log(P[keep])
+    if x.size < 4:
+        return T[keep], P[keep]
+    chord = np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(x), np.diff(y)))])
+    distinct = np.concatenate([[True], np.diff(chord) > 1e-12 * max(chord[-1], 1e-300)])
+    chord, x, y = chord[distinct], x[distinct], y[distinct]
+    if chord.size < 4:
+        return np.exp(x), np.exp(y)
+    s = np.linspace(0.0, chord[-1], samples * chord.size)
+    return np.exp(CubicSpline(chord, x)(s)), np.exp(CubicSpline(chord, y)(s))
+
+
+def plot_envelope(envelope, path):
+    """Draw ``envelope`` in the P-T plane into ``path`` (PNG, SVG or PDF by the suffix)."""
+    from contin.base import pyplot as _pyplot, save_figure
+
+    _pyplot(headless=True)
+    return save_figure(draw_envelope(envelope).figure, path)
+
+
+def draw_envelope(envelope, axes=None):
+    """Draw ``envelope`` in the P-T plane (bar against K) on ``axes`` (a new figure if None); returns the axes."""
+    from contin.base import pyplot as _pyplot, axis_label, describe_kind, mark_special
+
+    plt = _pyplot()
+    T = envelope.column("T")
+    P = envelope.column("P") / 1e5
+    side = envelope.column("side")
+    if axes is None:
+        figure, axes = plt.subplots(figsize=(7.5, 5.5))
+    figure = axes.figure
+    critical = envelope.special("critical")
+    if critical is not None:
+        # The critical point is a row: the dew curve runs to it, the bubble curve from it (rows past it
+        # that turn liquid-liquid stay on the second curve).
+        index = critical["index"]
+        pieces = (("dew", "-", slice(0, index + 1)), ("bubble", "--", slice(index, len(T))))
+    else:
+        pieces = tuple((name, style, np.array([value == name for value in side], dtype=bool))
+                       for name, style in (("dew", "-"), ("bubble", "--")))
+    for name, style, rows in pieces:
+        t_side, p_side = T[rows], P[rows]
+        if t_side.size == 0:
+            continue
+        xs, ys = smooth_curve(t_side, p_side)
+        axes.plot(xs, ys, style, color="tab:blue", label=f"{name} curve")
+    for line in envelope.quality_lines:
+        axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
+    for sp in envelope.special_points:
+        label = describe_kind(sp["kind"])
+        t, p = sp["values"]["T"], sp["values"]["P"] / 1e5
+        mark_special(axes, sp["kind"], t, p)
+        right = t > 0.5 * (np.nanmin(T) + np.nanmax(T))
+        below = sp["kind"] == "cricondenbar"  # the top of the envelope: label it under the marker
+        axes.annotate(f"{label}\n{t:.2f} K, {p:.2f} bar", (t, p), textcoords="offset points",
+                      xytext=(10, -30) if below else (-10, 6) if right else (8, 6),
+                      ha="left" if below else "right" if right else "left", fontsize=8)
+    axes.set_xlabel(axis_label("temperature T", "K"))
+    axes.set_ylabel(axis_label("pressure P", "bar"))
+    feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
+    axes.set_title(f"Phase envelope ({envelope.mixture.family.label})", fontsize=11)
+    axes.legend(fontsize=8, loc="upper left")
+    axes.grid(alpha=0.3)
+    caption = f"Feed: {feed}. " + CAUTION
+    figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
+    figure.subplots_adjust(bottom=0.2)
+    return axes
+
+
+def plot_binary(diagram, path):
+    """Draw a Pxy or Txy diagram into ``path`` (PNG, SVG or PDF by the suffix)."""
+    from contin.base import pyplot as _pyplot, save_figure
+
+    _pyplot(headless=True)
+    return save_figure(draw_binary(diagram).figure, path)
+
+
+def draw_binary(diagram, axes=None):
+    """Draw a Pxy (bar) or Txy (K) diagram: bubble curve against x1, dew curve against y1; returns the axes."""
+    from contin.base import pyplot as _pyplot, axis_label, describe_kind, mark_special
+
+    plt = _pyplot()
+    rows = np.array(diagram.rows, dtype=float)
+    x1, y1 = rows[:, 0], rows[:, 1]
+    pxy = diagram.kind == "pxy"
+    other = rows[:, 2] / 1e5 if pxy else rows[:, 2]
+    first, second = diagram.mixture.names
+    if axes is None:
+        figure, axes = plt.subplots(figsize=(7.0, 5.2))
+    figure = axes.figure
+    axes.plot(x1, other, "-", color="tab:blue", label="bubble curve (liquid x1)")
+    axes.plot(y1, other, "--", color="tab:orange", label="dew curve (vapour y1)")
+    for sp in diagram.special_points:
+        value = sp["values"]["P"] / 1e5 if pxy else sp["values"]["T"]
+        axes.set_xlim(0.0, 1.0)
+        mark_special(axes, sp["kind"], sp["values"]["x1"], value, words=describe_kind(sp["kind"]))
+    axes.set_xlim(0.0, 1.0)
+    axes.set_xlabel(axis_label(f"mole fraction of {first}"))
+    axes.set_ylabel(axis_label("pressure P", "bar") if pxy else axis_label("temperature T", "K"))
+    fixed = f"T = {diagram.fixed:.2f} K" if pxy else f"P = {diagram.fixed / 1e5:.4g} bar"
+    axes.set_title(f"{first} / {second} at {fixed} ({diagram.mixture.family.label})", fontsize=11)
+    axes.legend(fontsize=8)
+    axes.grid(alpha=0.3)
+    figure.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 130)), fontsize=6.5, va="bottom")
+    figure.subplots_adjust(bottom=0.18)
+    return axes
