@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import json
 import os
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 import networkx as nx
 import numpy as np
@@ -43,7 +43,7 @@ class Diagram:
         "target", "branch", "points"}...]}``, nodes and edges in the order they were made."""
         columns = self.branches[0].columns if self.branches else ()
         nodes = [{"id": node, "kind": data["kind"], "name": data["name"], "branch": data["branch"],
-                  "index": data["index"], "values": {c: data[c] for c in columns}}
+                  "index": data["index"], "values": {c: data[c] for c in columns if c in data}}
                  for node, data in self.graph.nodes(data=True)]
         edges = [{"source": a, "target": b, "branch": data["branch"], "points": data["points"]}
                  for a, b, data in self.graph.edges(data=True)]
@@ -81,49 +81,63 @@ class Diagram:
         return ax
 
 
-def _same_point(a: np.ndarray, b: np.ndarray, tolerance: float) -> bool:
-    return bool(np.linalg.norm(a - b) <= tolerance * (1.0 + max(float(np.abs(a).max()), float(np.abs(b).max()))))
+def _same_point(a: Mapping[str, float], b: Mapping[str, float], tolerance: float) -> bool:
+    """Two points agree in every coordinate they share (a followed curve has one parameter more than
+    the branch it was followed from, so its start is the branch's special point in their common
+    coordinates)."""
+    shared = [name for name in a if name in b]
+    x = np.array([a[name] for name in shared])
+    y = np.array([b[name] for name in shared])
+    return bool(shared) and bool(np.linalg.norm(x - y) <= tolerance * (1.0 + max(float(np.abs(x).max()),
+                                                                                 float(np.abs(y).max()))))
 
 
-def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | None] = (),
+def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | Mapping[str, float] | None] = (),
                   tolerance: float = 1e-6) -> Diagram:
-    """The diagram of ``branches`` (all with the same columns).
+    """The diagram of ``branches``.
 
     Args:
-        branches: the branches, numbered in this order.
-        origins: for each branch, the point it was switched from (a branch point of an earlier
-            branch), or None; its first edge then starts at that point's node.
+        branches: the branches, numbered in this order. They may differ in their columns (a curve
+            followed in two parameters beside the branch it came from): nodes are then matched on
+            the coordinates they share.
+        origins: for each branch, the point it grew from (a branch point it was switched from, or a
+            fold or Hopf point it was followed from), as values in the branch's own columns or as
+            ``{coordinate: value}``; or None. Its first edge then starts at that point's node.
         tolerance: special points closer than this (relative to their size) are one node.
     """
     graph = nx.MultiGraph()
-    known: list[tuple[str, np.ndarray]] = []
+    known: list[tuple[str, dict[str, float]]] = []
 
-    def node(point: np.ndarray, kind: str, name: str, branch: int, index: int, columns) -> str:
+    def node(values: Mapping[str, float], kind: str, name: str, branch: int, index: int) -> str:
         for key, where in known:
-            if _same_point(where, point, tolerance):
+            if _same_point(where, values, tolerance):
                 return key
         key = f"n{len(known)}"
-        known.append((key, point))
-        graph.add_node(key, kind=kind, name=name, branch=branch, index=index,
-                       **{c: float(v) for c, v in zip(columns, point)})
+        known.append((key, dict(values)))
+        graph.add_node(key, kind=kind, name=name, branch=branch, index=index, **values)
         return key
+
+    def named(columns, point) -> dict[str, float]:
+        return {c: float(v) for c, v in zip(columns, point)}
 
     origins = list(origins) + [None] * (len(branches) - len(origins))
     for number, branch in enumerate(branches):
         if not len(branch.points):
             continue
         columns = branch.columns
-        chain = []
         origin = origins[number]
-        if origin is not None:
-            chain.append((node(np.asarray(origin, dtype=float), "branch_point", "branch point", number, 0, columns), 0))
+        if origin is None:
+            chain = [(node(named(columns, branch.points[0]), "start", "start", number, 0), 0)]
         else:
-            chain.append((node(branch.points[0], "start", "start", number, 0, columns), 0))
+            values = ({c: float(v) for c, v in origin.items()} if isinstance(origin, Mapping)
+                      else named(columns, np.asarray(origin, dtype=float)))
+            chain = [(node(values, "branch_point", "branch point", number, 0), 0)]
         for sp in branch.special_points:
-            chain.append((node(sp.point, sp.kind, sp.name, number, sp.index, columns), sp.index))
+            chain.append((node(named(columns, sp.point), sp.kind, sp.name, number, sp.index), sp.index))
         last = len(branch.points) - 1
         if not branch.special_points or branch.special_points[-1].index != last:
-            chain.append((node(branch.points[last], "end", f"end ({branch.status.label})", number, last, columns), last))
+            chain.append((node(named(columns, branch.points[last]), "end", f"end ({branch.status.label})", number,
+                               last), last))
         for (a, i), (b, j) in zip(chain, chain[1:]):
             graph.add_edge(a, b, branch=number, points=int(j - i + 1))
     return Diagram(graph, branches)

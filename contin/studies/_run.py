@@ -74,29 +74,7 @@ def run_curves(problem: Problem, on_point=None):
     except InputError as error:
         message = str(error)
         raise InputError(message if message.startswith(str(problem.path)) else f"{problem.path}: {message}") from None
-    diagram = build_diagram([first])
-    for piece in pieces:
-        _add_curve(diagram, piece, candidates[0])
-    return diagram
-
-
-def _add_curve(diagram, curve, origin) -> None:
-    """Put a followed curve into a one-branch diagram: its special points as nodes, joined from the
-    point it was followed from."""
-    graph = diagram.graph
-    number = len(diagram.branches)
-    source = next((node for node, data in graph.nodes(data=True) if data["index"] == origin.index
-                   and data["kind"] == origin.kind), None)
-    chain = [(source, 0)] if source is not None else []
-    last = len(curve.points) - 1
-    entries = [(sp.kind, sp.name, sp.index) for sp in curve.special_points]
-    if not entries or entries[-1][2] != last:
-        entries.append(("end", f"end ({curve.status.label})", last))
-    for kind, name, index in entries:
-        key = f"n{graph.number_of_nodes()}"
-        graph.add_node(key, kind=kind, name=name, branch=number, index=index,
-                       **{c: float(v) for c, v in zip(curve.columns, curve.points[index])})
-        chain.append((key, index))
-    for (a, i), (b, j) in zip(chain, chain[1:]):
-        graph.add_edge(a, b, branch=number, points=int(j - i + 1))
-    diagram.branches = (*diagram.branches, curve)
+    # Both pieces start at the point they were followed from: in the coordinates they share with the
+    # branch it is that point's node.
+    origin = dict(zip(first.columns, candidates[0].point))
+    return build_diagram([first, *pieces], origins=[None, origin, origin])
