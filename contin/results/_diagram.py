@@ -81,6 +81,11 @@ class Diagram:
         return ax
 
 
+# How specific a kind of node is, for a point met twice: ends least, codimension-two points most.
+_RANK = {"start": 0, "end": 0, "fold": 2, "hopf": 3, "branch_point": 3,
+         "cusp": 4, "bogdanov_takens": 4, "generalised_hopf": 4}
+
+
 def _same_point(a: Mapping[str, float], b: Mapping[str, float], tolerance: float) -> bool:
     """Two points agree in every coordinate they share (a followed curve has one parameter more than
     the branch it was followed from, so its start is the branch's special point in their common
@@ -98,8 +103,8 @@ def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | Map
 
     Args:
         branches: the branches, numbered in this order. They may differ in their columns (a curve
-            followed in two parameters beside the branch it came from): nodes are then matched on
-            the coordinates they share.
+            followed in two parameters beside the branch it came from): points are then matched on
+            the coordinates they share, a branch's fixed parameters counting as coordinates.
         origins: for each branch, the point it grew from (a branch point it was switched from, or a
             fold or Hopf point it was followed from), as values in the branch's own columns or as
             ``{coordinate: value}``; or None. Its first edge then starts at that point's node.
@@ -108,17 +113,26 @@ def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | Map
     graph = nx.MultiGraph()
     known: list[tuple[str, dict[str, float]]] = []
 
-    def node(values: Mapping[str, float], kind: str, name: str, branch: int, index: int) -> str:
+    def node(values: Mapping[str, float], kind: str, name: str, branch: int, index: int,
+             coordinates: Mapping[str, float]) -> str:
         for key, where in known:
             if _same_point(where, values, tolerance):
+                # one point met twice (a cusp is also the fold curve's turn): the rarer kind names it
+                if _RANK.get(kind, 1) > _RANK.get(graph.nodes[key]["kind"], 1):
+                    graph.nodes[key].update(kind=kind, name=name)
                 return key
         key = f"n{len(known)}"
         known.append((key, dict(values)))
-        graph.add_node(key, kind=kind, name=name, branch=branch, index=index, **values)
+        graph.add_node(key, kind=kind, name=name, branch=branch, index=index, **coordinates)
         return key
 
     def named(columns, point) -> dict[str, float]:
         return {c: float(v) for c, v in zip(columns, point)}
+
+    def where(branch: Branch, point) -> dict[str, float]:
+        # where a point is: its columns and the parameters held fixed along its branch
+        fixed = {name: float(value) for name, value in branch.parameters.items() if name not in branch.columns}
+        return {**fixed, **named(branch.columns, point)}
 
     origins = list(origins) + [None] * (len(branches) - len(origins))
     for number, branch in enumerate(branches):
@@ -127,17 +141,19 @@ def build_diagram(branches: Sequence[Branch], origins: Sequence[np.ndarray | Map
         columns = branch.columns
         origin = origins[number]
         if origin is None:
-            chain = [(node(named(columns, branch.points[0]), "start", "start", number, 0), 0)]
+            chain = [(node(where(branch, branch.points[0]), "start", "start", number, 0,
+                           named(columns, branch.points[0])), 0)]
         else:
             values = ({c: float(v) for c, v in origin.items()} if isinstance(origin, Mapping)
                       else named(columns, np.asarray(origin, dtype=float)))
-            chain = [(node(values, "branch_point", "branch point", number, 0), 0)]
+            chain = [(node(values, "branch_point", "branch point", number, 0, values), 0)]
         for sp in branch.special_points:
-            chain.append((node(named(columns, sp.point), sp.kind, sp.name, number, sp.index), sp.index))
+            chain.append((node(where(branch, sp.point), sp.kind, sp.name, number, sp.index,
+                               named(columns, sp.point)), sp.index))
         last = len(branch.points) - 1
         if not branch.special_points or branch.special_points[-1].index != last:
-            chain.append((node(named(columns, branch.points[last]), "end", f"end ({branch.status.label})", number,
-                               last), last))
+            chain.append((node(where(branch, branch.points[last]), "end", f"end ({branch.status.label})",
+                               number, last, named(columns, branch.points[last])), last))
         for (a, i), (b, j) in zip(chain, chain[1:]):
             graph.add_edge(a, b, branch=number, points=int(j - i + 1))
     return Diagram(graph, branches)

@@ -17,8 +17,9 @@ n + 1 equations in the n + 2 coordinates (u, p, q). The bordering vectors b and 
 right null vectors of F_u at the start, fixed along the curve (the bordered matrix stays regular
 while F_u keeps a simple zero eigenvalue near them). With the adjoint solution w of
 [F_u^T c; b^T 0] [w; h] = [0; 1], the gradient of g is g_z = -w^T F_uz[v], whose entries are a
-directional derivative of the system's exact Jacobian along v (a central difference of two Jacobian
-evaluations: see :mod:`contin.tracing._lyapunov`).
+directional derivative of the system's Jacobian along v: exact for symbolic systems
+(``SymbolicSystem.jacobian_along``, the Jacobian of F_u v compiled once), else a central difference
+of two Jacobian evaluations (see :mod:`contin.tracing._lyapunov`).
 
 Hopf curves: the standard extended system with the squared frequency kappa = omega^2 (Roose &
 Hlavacek, SIAM J. Appl. Math. 45, 1985; Kuznetsov 2004, section 10.2)
@@ -269,8 +270,8 @@ def follow(branch: Branch, special_point, system: System, free: Sequence[str] = 
 
     The curve is traced by :func:`contin.trace` on a defining system (see the module text: the
     minimally augmented system of Govaerts 2000 for folds, the extended system with kappa = omega^2
-    of Roose & Hlavacek 1985 for Hopf points; second derivatives by central differences of the
-    system's exact Jacobian). The trace's free parameter is the new one (the one of ``free`` that
+    of Roose & Hlavacek 1985 for Hopf points; second derivatives exact for symbolic systems, else
+    central differences of the system's Jacobian). The trace's free parameter is the new one (the one of ``free`` that
     is not ``branch.free``): ``direction=1`` moves it up first.
 
     Args:

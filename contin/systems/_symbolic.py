@@ -335,6 +335,38 @@ def _build(residuals, variables, n, backend):
     return functions, entries, "text", json.dumps(document).encode("utf-8")
 
 
+def _build_along(residuals, variables, n, backend):
+    """Compiled exact directional derivative of the Jacobians, d/de [dF/du | dF/dp](u + e x, p) at
+    e = 0: the Jacobian, in (u, p), of G(u, p; x) = dF/du(u, p) x.
+
+    Returns:
+        (function of the inputs (u, p, x) giving the nonzeros, their entries [(i, j)]).
+    """
+    entries, first = _derivatives(residuals, variables, n, backend)
+    if backend == "symengine":
+        import symengine
+
+        # names no equation can use (the parser's identifiers never hold a space)
+        directions = [symengine.Symbol(f"along {k}") for k in range(n)]
+        zero = symengine.Integer(0)
+    else:
+        directions = [sympy.Symbol(f"_along{k}", real=True) for k in range(n)]
+        zero = sympy.S.Zero
+    along = [zero] * len(residuals)
+    for (i, j), derivative in zip(entries, first):
+        if j < n:
+            along[i] = along[i] + derivative * directions[j]
+    along_entries, second = _derivatives(along, variables, n, backend)
+    inputs = [*variables, *directions]
+    if backend == "symengine":
+        function = symengine.Lambdify(inputs, second or [zero], backend="llvm", cse=True, real=True,
+                                      opt_level=_LLVM_OPT_LEVEL)
+        return (lambda x: np.asarray(function(x), dtype=float).reshape(-1)[: len(second)]), along_entries
+    plan = sympy.cse(list(second), symbols=sympy.numbered_symbols("_a"))
+    compiled = _lambdify(inputs, *plan)
+    return (lambda x: _call(compiled, x, len(second))), along_entries
+
+
 def _load(kind: str, payload: bytes, variables):
     """Functions and entries from a verified cache payload; raises on anything unexpected."""
     if kind == "pickle":
@@ -598,13 +630,7 @@ class SymbolicSystem(System):
                 for name, expr in zip(self.equations, expressions)
             }
             self.structure = analyse_structure(self.equations, self.unknowns, incidence, warn=True)
-            if self._library == "sympy":
-                rename = {self.symbols[name]: v for name, v in zip((*self.unknowns, *self.parameters), variables)}
-                residuals = [expr.xreplace(rename) for expr in expressions]
-            else:  # symengine compiles in the user's own symbols: no renaming needed
-                table = self._engine_table()
-                variables = [table[name] for name in (*self.unknowns, *self.parameters)]
-                residuals = expressions
+            residuals, variables = self._compilable(expressions, variables)
             functions, entries, kind, payload = _build(residuals, variables, n, self.backend)
             found, source = (functions, entries), "built"
             if cache is not None and payload is not None:
@@ -620,6 +646,15 @@ class SymbolicSystem(System):
         self._functions, entries = found
         self._layout = _Layout(n, m, entries)
         self.cache_source = source
+
+    def _compilable(self, expressions: list, variables: list) -> tuple[list, list]:
+        """(residuals, variables) as the back end compiles them: sympy in the numbered symbols
+        ``_x<k>``, symengine in the user's own symbols."""
+        if self._library == "sympy":
+            rename = {self.symbols[name]: v for name, v in zip((*self.unknowns, *self.parameters), variables)}
+            return [expr.xreplace(rename) for expr in expressions], variables
+        table = self._engine_table()
+        return expressions, [table[name] for name in (*self.unknowns, *self.parameters)]
 
     # -- System interface --------------------------------------------------------------------------
     def _inputs(self, u: np.ndarray, p: np.ndarray) -> np.ndarray:
@@ -658,6 +693,24 @@ class SymbolicSystem(System):
         """dF/du, exact, array (n, n)."""
         return self.evaluate(u, p)[1]
 
+    def jacobian_along(self, u: np.ndarray, p: np.ndarray, x: np.ndarray) -> np.ndarray:
+        """d/de [dF/du | dF/dp](u + e x, p) at e = 0, exact, array (n, n + m): the second derivatives
+        F_uu[x, .] and F_up[x, .] that curves of folds and Hopf points, branch switching and the first
+        Lyapunov coefficient need (they fall back to differences of the Jacobian for systems without
+        this method). Differentiated and compiled on first use, then kept with the system."""
+        if getattr(self, "_along", None) is None:
+            variables = self._variables()
+            residuals, variables = self._compilable(self._residual_expressions(), variables)
+            function, entries = _build_along(residuals, variables, len(self.unknowns), self.backend)
+            rows = np.array([i for i, _ in entries], dtype=np.intp)
+            cols = np.array([j for _, j in entries], dtype=np.intp)
+            self._along = (function, rows, cols)
+        function, rows, cols = self._along
+        values = function(np.concatenate((self._inputs(u, p), np.asarray(x, dtype=float).reshape(-1))))
+        out = np.zeros((len(self.unknowns), len(self.unknowns) + len(self.parameters)))
+        out[rows, cols] = values
+        return out
+
     def structure_summary(self) -> dict:
         """JSON-ready block structure of the system (copied into ``branch.stats["structure"]``)."""
         return self.structure.summary()
@@ -675,7 +728,7 @@ class SymbolicSystem(System):
     def __getstate__(self) -> dict:
         # Compiled functions are rebuilt (from the cache) in the receiving process.
         state = self.__dict__.copy()
-        for name in ("_functions", "_layout", "_cache", "structure", "_engine_expressions", "_expressions"):
+        for name in ("_functions", "_layout", "_cache", "structure", "_engine_expressions", "_expressions", "_along"):
             state.pop(name, None)
         state["_use_cache"] = self._cache is not None
         return state

@@ -1,8 +1,9 @@
 """Second and third derivatives of F(u, p) from its Jacobian, and the first Lyapunov coefficient.
 
-The multilinear forms B(x, y) = F_uu[x, y] and C(x, y, z) = F_uuu[x, y, z] are taken by central
-differences of the system's own Jacobian dF/du (exact for symbolic systems): B(x, .) is the
-derivative of dF/du along x, C(x, x, .) its second derivative. A difference of an exact Jacobian
+The multilinear forms B(x, y) = F_uu[x, y] and C(x, y, z) = F_uuu[x, y, z] come from the system's
+Jacobian dF/du: B(x, .) is the derivative of dF/du along x, exact for a symbolic system (its
+``jacobian_along``), else a central difference; C(x, x, .), its second derivative, is always a
+difference. A difference of an exact Jacobian
 errs by O(h^2) in the truncation and eps / h in rounding, so the steps are eps^(1/3) (first
 derivative, about 1e-10 relative, for Newton's Jacobians); the test functions whose zeros are located
 (the Lyapunov coefficient, a cusp's coefficient) take Richardson's extrapolation of differences at h
@@ -63,12 +64,17 @@ class JacobianCalculus:
         return _EPS ** power * max(1.0, float(np.abs(u).max())) / size
 
     def along(self, u: np.ndarray, x: np.ndarray, p: np.ndarray | None = None, accurate: bool = False) -> np.ndarray:
-        """d/de [dF/du | dF/dp[columns]](u + e x) at e = 0, by a central difference (x real).
+        """d/de [dF/du | dF/dp[columns]](u + e x) at e = 0 (x real): exact where the system has
+        ``jacobian_along`` (symbolic systems), else by a central difference.
 
         ``accurate``: Richardson's extrapolation of central differences at h and 2h (error O(h^4),
         step eps^(1/5): about 1e-12 relative, twice the evaluations), for test functions whose zeros
         are located; Newton's Jacobians take the plain difference (eps^(1/3), about 1e-10).
         """
+        exact = getattr(self.system, "jacobian_along", None)
+        if callable(exact):  # a symbolic system: exact second derivatives, no differences
+            whole = exact(u, self.p if p is None else p, x)
+            return np.hstack([whole[:, : u.size], whole[:, [u.size + c for c in self.columns]]])
         if not np.any(x):
             return np.zeros_like(self.full(u, p)[1])
         if not accurate:
@@ -148,8 +154,8 @@ def first_lyapunov_coefficient(system: System, u, p) -> float:
                  + <p, B(conj q, (2 i w I - A)^-1 B(q, q))> ] / (2 w),
 
     with A = dF/du, A q = i w q, |q| = 1, A^T p = -i w p, <p, q> = conj(p) . q = 1, and B, C the
-    second and third derivatives of F in u (central differences of the exact Jacobian, see
-    :class:`JacobianCalculus`). With this normalisation the planar normal form
+    second and third derivatives of F in u (B exact for symbolic systems, C by differences of
+    the Jacobian, see :class:`JacobianCalculus`). With this normalisation the planar normal form
     x' = -w y + s x (x^2 + y^2), y' = w x + s y (x^2 + y^2) has l1 = 2 s / w, as eq. (3.20) there gives.
     Negative l1: the Hopf bifurcation is supercritical (stable cycles are born); positive: subcritical.
     With an exact Jacobian l1 is good to about 1e-10 relative to the size of its terms; with a

@@ -11,8 +11,8 @@ the algebraic bifurcation equation; a simple branch point has b^2 - a c > 0 and 
 directions, one of them the traced branch's (Keller, Numerical solution of bifurcation and nonlinear
 eigenvalue problems, in Applications of Bifurcation Theory, Academic Press 1977; Allgower & Georg,
 Numerical Continuation Methods, Springer 1990, section 8.3; Seydel, Practical Bifurcation and
-Stability Analysis, 3rd ed., Springer 2010, section 5.6). The second derivatives are central
-differences of the exact Jacobian along phi_1 and phi_2.
+Stability Analysis, 3rd ed., Springer 2010, section 5.6). The second derivatives along phi_1 and
+phi_2 are exact for symbolic systems, else central differences of the Jacobian.
 """
 
 from __future__ import annotations
