@@ -211,6 +211,32 @@ class _HopfSystem(_Defining):
             return math.nan
 
 
+def _without_turns_at_cusps(special: list[SpecialPoint]) -> list[SpecialPoint]:
+    """The curve's special points without its folds that are a cusp seen twice.
+
+    At a cusp the fold curve's tangent is the null vector of F_u, so both parameters are stationary
+    there and (generically) one of them turns: the driver finds a fold of the curve at the very
+    point of the cusp. One point, one row: the fold is dropped and the cusp's ``info`` says which
+    parameter turns there. (Left as two rows, their order along the branch would be decided by
+    rounding.)
+    """
+    cusps = [sp for sp in special if sp.kind == "cusp"]
+    kept = []
+    for sp in special:
+        at = None
+        if sp.kind == "fold":
+            for cusp in cusps:
+                reach = 10.0 * max(sp.located_to, cusp.located_to, 1e-9) * (1.0 + float(np.abs(cusp.point).max()))
+                if float(np.abs(sp.point - cusp.point).max()) <= reach:
+                    at = cusp
+                    break
+        if at is None:
+            kept.append(sp)
+        else:
+            at.info.setdefault("turns", sp.info.get("coordinate", sp.name))
+    return kept
+
+
 def _point_of(branch: Branch, special_point, system: System) -> SpecialPoint:
     kinds = ("fold", "hopf")
     if isinstance(special_point, str):
@@ -385,7 +411,7 @@ def _project(traced: Branch, inner: _Defining, system: System, names: tuple[str,
                             point, direction, sp.residual_norm, sp.newton_iterations, sp.located_to,
                             dict(sp.info if info is None else info))
 
-    special = list(traced.special_points)
+    special = _without_turns_at_cusps(list(traced.special_points)) if kind == "fold" else list(traced.special_points)
     if kind == "hopf" and len(traced.points):
         # The fold curve with kappa = 0 also solves the Hopf system and meets the Hopf curve at the
         # Bogdanov-Takens point, so the defining system has a branch point there: located by the

@@ -259,7 +259,7 @@ def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: flo
 
 
 def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
-                        options) -> Located | None:
+                        options, *, strict: bool = False) -> Located | None:
     """The simple branch point between accepted points ``a`` and ``b`` = (x, tangent).
 
     Two stages. First the bracket: the test function is det [dG/dx; e] / c with e the unit chord
@@ -278,6 +278,11 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
     the refinement fails, the bracket's point is kept with ``located_to`` the larger of the bracket
     width and the first Newton correction of the defining system (its distance from the branch point,
     to first order), or the chord length when even that is not available.
+
+    ``strict``: return None when the refinement fails. The driver asks for this until the step is at
+    its smallest: a sign change with no branch point to refine onto is, as a rule, a step that
+    hopped to a second branch lying close beside the first (two branches crossing at a shallow
+    angle), and a shorter step stays on the branch and brackets the true crossing.
 
     Returns:
         The located point, or None when the bracket does not show a sign change once the Jacobians
@@ -311,6 +316,8 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
     if best is None:
         return None
     refined, first = _refine_branch_point(extended, best.x, options, length)
+    if refined is None and strict:
+        return None
     if refined is None:
         located_to = max(bracket.located_to, first if math.isfinite(first) else length)
         return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to,

@@ -29,6 +29,11 @@ __all__ = ["trace", "start_vector"]
 # _special_points' answer when the trace goes on from its last row rather than from the step's end.
 RESUME = "resume"
 
+# How many times one step is retried shorter for a branch point it seems to pass but cannot refine
+# onto (a hop between two branches crossing at a shallow angle needs one or two; a degenerate branch
+# point never refines, and is then reported from its bracket with located_to saying how well).
+_BRANCH_RETRIES = 3
+
 
 def _length(v: np.ndarray) -> float:
     """Euclidean length; math.sqrt of a dot product is several times cheaper than np.linalg.norm here."""
@@ -325,7 +330,15 @@ class _Run:
         self.index = np.arange(0)  # 0 .. n, for the parity of LU row swaps
         # (sign of det [dF/dx; t], sign of the Hopf test, eigenvalues of dF/du with positive real part
         # or -1 when not counted) at the last accepted point
-        self.signs = (0, 0, -1)
+        self.signs = (0, 0, -1, math.nan)
+        # The branch-point test's trend (see _hops_past_a_branch_point): where a straight line through
+        # |det [dF/dx; t]| at the last two accepted points meets zero, as a distance ahead of the last
+        # one, and the same from the two points before (None: not falling, or not known)
+        self.zero_ahead: float | None = None
+        self.zero_ahead_before: float | None = None
+        # retries of the current step for a branch-point sign change that could not be refined, or a
+        # trend that says the step passed one (at most _BRANCH_RETRIES, then the step is taken)
+        self.branch_retries = 0
         self.event_slopes: list[float] = []
         # Coordinates with a bound or requested values: a turn of one inside a step splits the step.
         self.watched = frozenset([index for index, _, _ in bounds] + [index for index, _ in at])
@@ -632,17 +645,52 @@ class _Run:
         return best
 
     # -- special points between two accepted points ---------------------------------------------
-    def test_signs(self, factors: tuple, along: float, t: np.ndarray, jacobian: np.ndarray) -> tuple[int, int, int]:
-        """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off), and
-        the number of eigenvalues of dF/du with positive real part (-1 when Hopf points are not looked
-        for); ``factors`` are the LU factors of [jacobian; row] and ``along`` is row . t."""
-        branch_sign = 0
+    def test_signs(self, factors: tuple, along: float, t: np.ndarray,
+                   jacobian: np.ndarray) -> tuple[int, int, int, float]:
+        """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off), the
+        number of eigenvalues of dF/du with positive real part (-1 when Hopf points are not looked
+        for), and log |det [dF/dx; t]| (nan when branch points are not looked for); ``factors`` are the
+        LU factors of [jacobian; row] and ``along`` is row . t."""
+        branch_sign, magnitude = 0, math.nan
         if self.branch_points:
             branch_sign = bordered_sign(factors, along, self.index)
             if branch_sign == 0:
                 branch_sign = determinant_sign(jacobian, t)
+            else:
+                with np.errstate(divide="ignore"):
+                    magnitude = float(np.log(np.abs(factors[0].diagonal())).sum()) - math.log(abs(along))
         hopf, unstable = hopf_signature(jacobian[:, : self.extended.n]) if self.hopf else (0, -1)
-        return branch_sign, hopf, unstable
+        return branch_sign, hopf, unstable, magnitude
+
+    def _hops_past_a_branch_point(self, length: float, signs: tuple) -> bool:
+        """Whether a step of chord ``length`` with no sign change of the branch-point test should be
+        retried shorter because the test's trend says it passed a simple zero.
+
+        Two branches that cross at a shallow angle lie close beside each other near the crossing, and
+        a long step can land on the other one. Across the crossing that hop leaves the test's sign as
+        it was (each branch changes sign there), so the branch point would go unseen. The determinant
+        falls linearly towards a simple branch point, so a straight line through its last two values
+        meets zero at the crossing; the check asks that two such lines (from the last three accepted
+        points) agree on where, which a higher-order zero (a degenerate branch point, where the
+        prediction runs ahead of every step) does not. A shorter step stays on the branch, where the
+        sign changes and the point is located.
+        """
+        ahead, before = self.zero_ahead, self.zero_ahead_before
+        if ahead is None or before is None or self.signs[0] * signs[0] <= 0:
+            return False
+        return ahead < length and abs(ahead - before) <= 0.25 * ahead
+
+    def _update_trend(self, chord: float, signs: tuple) -> None:
+        """Move the branch-point test's trend on to a newly accepted point ``signs`` at ``chord`` from
+        the last one (see :meth:`_hops_past_a_branch_point`)."""
+        sign_a, log_a, sign_b, log_b = self.signs[0], self.signs[3], signs[0], signs[3]
+        # the previous prediction, as a distance ahead of the new point
+        self.zero_ahead_before = None if self.zero_ahead is None else self.zero_ahead - chord
+        falling = (math.expm1(min(log_a - log_b, 700.0))
+                   if sign_a == sign_b != 0 and math.isfinite(log_a) and math.isfinite(log_b) else 0.0)
+        self.zero_ahead = chord / falling if falling > 0.0 else None
+        if self.zero_ahead is None:
+            self.zero_ahead_before = None
 
     def _special_points(self, a, b, correction, signs=(0, 0, 0), force: bool = False) -> bool | None:
         """Locate what lies between accepted points a and b, append them and b.
@@ -684,12 +732,19 @@ class _Run:
                            int(correction.iterations), length, f_a if use_first else f_b)
 
         near_crossing = self.passage is not None and self.passage.active
+        patient = not force and self.branch_retries < _BRANCH_RETRIES
+        if patient and not near_crossing and self._hops_past_a_branch_point(length, signs):
+            self.branch_retries += 1
+            return None  # the branch-point test's zero lies inside the step, its sign did not change
         if before[0] * signs[0] < 0 and not near_crossing:
             # (Beside a singular crossing the bordered determinant belongs to the crossing's
             # singular structure, not to a branch point of this branch.)
-            located = locate_branch_point(self.extended, a, b, options)
+            located = locate_branch_point(self.extended, a, b, options, strict=patient)
             if located is not None:
                 found.append((fraction_of(located.x), "branch_point", None, located))
+            elif patient:
+                self.branch_retries += 1
+                return None  # no branch point to refine onto: as a rule a hop to a close second branch
             else:
                 self.notes.append(f"the branch-point test changed sign between {self.describe(xa)} and "
                                   f"{self.describe(xb)} but the point could not be located")
@@ -768,6 +823,8 @@ class _Run:
                 self.notes.append(f"a {item[1]} located at {self.describe(item[3].x)} lies off the branch "
                                   "between the points around it (another solution family nearby?)")
         # Everything between a and b is located: from here on the branch changes.
+        self._update_trend(length, signs)
+        self.branch_retries = 0
         self.signs = signs
         self.event_values = values[-1]
         self.event_slopes = slopes_b
@@ -888,6 +945,8 @@ class _Run:
                 if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0 and not stop:
                     self._bound_reached(coordinate, level, index, across)
                     stop = True
+        self.zero_ahead = self.zero_ahead_before = None  # across a singular crossing the trend is lost
+        self.branch_retries = 0
         self.signs = signs
         self.event_values = values_b
         self.event_slopes = [self.event_slope(event, xb, tb) for event in self.events]
