@@ -140,16 +140,23 @@ def test_pure_component_trials_find_the_second_liquid(split_rows):
     assert with_pure.tm < without.tm - 0.05
 
 
-@pytest.mark.xfail(strict=True, reason="bug: tangent_plane_test with its default pure-component trials "
-                   "reports stable at 277.6 K, 0.548 MPa on the bubble curve of the split blend, where "
-                   "the Wilson trials alone (pure_trials=False) and an exhaustive grid find tm < -0.02")
 def test_more_trial_phases_never_hide_an_instability(split_rows):
+    # At 277.6 K on the bubble curve of the split blend the incipient vapour (about 95 % propane) is
+    # the known phase; a propane-rich second *liquid* of nearly the same composition lies well below
+    # the tangent plane (tm about -0.021). Matched on composition alone it was dropped as the known
+    # phase and the feed called stable, although the Wilson trials alone find it unstable.
     z = np.array([0.5, 0.5])
     row = min(split_rows, key=lambda r: abs(r[0] - 277.6))
     known = (_incipient(row, z),)
     without = tangent_plane_test(SPLIT, row[0], row[1], z, known=known, pure_trials=False)
     assert not without.stable
-    assert not tangent_plane_test(SPLIT, row[0], row[1], z, known=known).stable
+    result = tangent_plane_test(SPLIT, row[0], row[1], z, known=known)
+    assert not result.stable and result.tm <= without.tm
+    assert np.max(np.abs(result.trial - known[0])) < 1e-2 and result.tm < -0.02
+    # the phase found is a liquid: its volume is the cubic's smallest root, far from the vapour's
+    liquid, vapour = SPLIT.volume_roots(row[0], row[1], result.trial)
+    assert vapour > 10 * liquid
+    assert SPLIT.volume(row[0], row[1], result.trial, "stable") == liquid
 
 
 # -- binary diagrams ---------------------------------------------------------------------------------
