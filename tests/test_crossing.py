@@ -58,6 +58,9 @@ def test_the_branch_is_followed_across_the_second_family_on_one_branch(max_step)
     assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
     assert d[critical.index - 1] < 0.0 < d[critical.index + 1]
     assert critical.info["method"] == "exact" and critical.info["coordinate"] == "d"
+    # the jump over it went from d = -gap to d = +gap, and the point says which gap
+    assert critical.info["gap"] == crossing.gap == 0.02
+    assert [d[critical.index - 1], d[critical.index + 1]] == pytest.approx([-0.02, 0.02], rel=1e-9)
     assert critical.residual_norm == 0.0  # measured in the branch's equations: F = 0 on d = 0
     # Every other row is on the branch g = 0, none on the second family.
     others = np.delete(branch.points, critical.index, axis=0)
