@@ -34,7 +34,7 @@ def test_azeotrope_reported():
     kinds = [sp["kind"] for sp in diagram.special_points]
     assert "azeotrope" in kinds
     row = diagram.rows[[sp for sp in diagram.special_points if sp["kind"] == "azeotrope"][0]["index"]]
-    assert abs(row[0] - row[1]) < 0.05
+    assert abs(row[0] - row[1]) <= 1e-8 * row[0]  # x1 = y1 at the located point, not only near it
 
 
 def test_not_a_binary():
@@ -89,3 +89,26 @@ def test_pxy_below_both_critical_temperatures_has_no_critical_point():
     diagram = pxy(PB, 330.0)
     assert [sp["kind"] for sp in diagram.special_points] == []
     assert diagram.rows[-1][0] == pytest.approx(1.0)
+
+
+def test_the_pure_ends_are_the_saturation_pressures_of_the_same_model(tmp_path):
+    # The model is exact at x1 = 0 and 1: the pure fluids' own coexistence pressures under PR (computed
+    # here by the pure-fluid code, an independent path), to 1e-8.
+    from contin_thermo.curves._pure import CubicFluid
+
+    diagram = pxy(PB, 330.0)
+    assert diagram.columns == ("x1", "y1", "P", "v_liquid", "v_vapour")
+    assert (diagram.status, diagram.success) == ("bound_reached", True)
+    assert diagram.message == "completed: from pure n-butane (x1 = 0) to pure propane (x1 = 1)"
+    for row, name in ((diagram.rows[0], "n-butane"), (diagram.rows[-1], "propane")):
+        fluid = CubicFluid(lookup(name), family("pr"))
+        x_liquid, x_vapour, p = fluid.saturation_at(330.0 / fluid.component.Tc)
+        assert row[2] == pytest.approx(p * fluid.pressure_unit, rel=1e-8), name
+        assert row[1] == pytest.approx(row[0], abs=1e-12)  # a pure fluid: both phases have its composition
+    assert all(r[3] < r[4] for r in diagram.rows)  # the liquid is the denser phase on every row
+    path = diagram.to_csv(tmp_path / "pxy.csv")
+    header = [l for l in path.read_text().splitlines() if l.startswith("#")]
+    assert "# model: Peng-Robinson; components: propane, n-butane" in header
+    assert "# units: x1 [-], y1 [-], P [Pa], v_liquid [m3/mol], v_vapour [m3/mol]" in header
+    assert repr(diagram) == (f"<pxy diagram of propane + n-butane at T = 330 K (Peng-Robinson): "
+                             f"{len(diagram.rows)} points; no special points; status bound_reached>")

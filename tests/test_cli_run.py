@@ -222,6 +222,35 @@ def test_ctrl_c_mid_trace_writes_the_partial_files_and_exits_130(tmp_path, capsy
     assert document["status"] == "interrupted" and len(document["points"]) == 6
 
 
+# A real SIGINT (what Ctrl-C sends) delivered to a `contin run` process at its sixth point.
+_SIGINT_AT_POINT_5 = """\
+import os, signal, sys
+import contin.studies._run as run_module
+from contin.commands._cli import main
+real = run_module.run_problem
+def run_problem(problem, **keywords):
+    def on_point(index, x, special):
+        if index == 5:
+            os.kill(os.getpid(), signal.SIGINT)
+    return real(problem, on_point=on_point)
+run_module.run_problem = run_problem
+sys.exit(main(sys.argv[1:]))
+"""
+
+
+def test_a_real_sigint_mid_trace_exits_130_with_one_line_and_the_partial_files(tmp_path):
+    out = tmp_path / "out"
+    done = subprocess.run([sys.executable, "-c", _SIGINT_AT_POINT_5, "run", "--example", "stirred_tank",
+                           "--out", str(out)], capture_output=True, text=True, timeout=120, stdin=subprocess.DEVNULL)
+    assert done.returncode == 130, done.stderr
+    assert done.stderr.splitlines() == ["contin: interrupted after 6 points; the partial results were written"]
+    assert "interrupted" in done.stdout
+    document = json.loads((out / "stirred_tank.json").read_text())
+    assert document["status"] == "interrupted" and len(document["points"]) == 6
+    rows = [line for line in (out / "stirred_tank.csv").read_text().splitlines() if line and line[0] not in "#"]
+    assert len(rows) == 1 + 6  # the header and the six points traced
+
+
 SPLIT_PROBLEM = """\
 kind = "algebraic"
 

@@ -6,6 +6,8 @@ point), and the branch g = 0, a = p + d, p = (1 - d - d^2) / 2, crosses it at a 
 dF/dx vanishes altogether.
 """
 
+import math
+
 import numpy as np
 import pytest
 
@@ -58,6 +60,9 @@ def test_the_branch_is_followed_across_the_second_family_on_one_branch(max_step)
     assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
     assert d[critical.index - 1] < 0.0 < d[critical.index + 1]
     assert critical.info["method"] == "exact" and critical.info["coordinate"] == "d"
+    # the jump over it went from d = -gap to d = +gap, and the point says which gap
+    assert critical.info["gap"] == crossing.gap == 0.02
+    assert [d[critical.index - 1], d[critical.index + 1]] == pytest.approx([-0.02, 0.02], rel=1e-9)
     assert critical.residual_norm == 0.0  # measured in the branch's equations: F = 0 on d = 0
     # Every other row is on the branch g = 0, none on the second family.
     others = np.delete(branch.points, critical.index, axis=0)
@@ -123,3 +128,58 @@ def test_a_crossing_coordinate_that_is_not_a_column_is_refused():
 
 def test_crossing_is_public():
     assert contin.Crossing is Crossing and contin.Landing is Landing
+
+
+# A branch that meets the second family d = 0 twice: the circle d^2 + p^2 = 1/4 with a = p, where
+# F = [d (a - p), d (d^2 + p^2 - 1/4)]. At both meetings (p = +-1/2) p also turns, so a fold of p
+# lies inside each jump: the gap is halved to the smallest, and the fold is reported at the singular
+# point (exact values).
+def circle_residual(u, p):
+    a, d = u
+    return np.array([d * (a - p[0]), d * (d * d + p[0] ** 2 - 0.25)])
+
+
+def circle_jacobian(u, p):
+    a, d = u
+    return np.array([[d, a - p[0]], [0.0, 3.0 * d * d + p[0] ** 2 - 0.25]])
+
+
+CIRCLE = CallableSystem(circle_residual, ["a", "d"], {"p": 0.0}, jacobian=circle_jacobian,
+                        parameter_jacobian=lambda u, p: np.array([[-u[1]], [2.0 * u[1] * p[0]]]))
+
+
+def circle_land(before, after):
+    side = math.copysign(0.5, before[2])
+    return Landing(np.array([side, 0.0, side]), located_to=0.0, info={"method": "exact"})
+
+
+def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=circle_land)
+    branch = trace(CIRCLE, start=[-0.3, -0.4], parameters={"p": -0.3}, free="p", crossing=crossing,
+                   max_step=0.1, max_points=400)
+    assert branch.status.label == "closed_loop"
+    critical = branch.special("critical")
+    assert [sp.values["p"] for sp in critical] == [0.5, -0.5]
+    assert [sp.info["gap"] for sp in critical] == [crossing.smallest_gap] * 2  # halved from 0.02
+    folds = branch.special("fold")
+    assert [sp.index for sp in folds] == [sp.index for sp in critical]
+    assert sum("lies within" in note for note in branch.stats["notes"]) == 2
+    d = branch.column("d")
+    for sp in critical:
+        assert abs(d[sp.index - 1]) == pytest.approx(0.0025, rel=1e-9) and d[sp.index - 1] == pytest.approx(-d[sp.index + 1], rel=1e-9)
+    # every row but the two singular ones lies on the circle
+    others = np.delete(branch.points, [sp.index for sp in critical], axis=0)
+    assert np.allclose(others[:, 1] ** 2 + others[:, 2] ** 2, 0.25, rtol=0, atol=1e-9)
+    # each passage began where |d| reached the default near = 0.1, on both sides of both meetings
+    assert np.sum(np.abs(np.abs(d) - 0.1) < 1e-9) == 4
+
+
+def test_a_crossing_gap_may_not_reach_near_and_a_landing_is_frozen():
+    import dataclasses
+
+    with pytest.raises(InputError, match=r"^crossing gaps must satisfy 0 < smallest_gap \(0\.0025\) <= gap \(0\.1\) "
+                                         r"< near \(0\.1\)$"):
+        Crossing(["d"], near=0.1, gap=0.1)
+    landing = Landing(np.zeros(3), located_to=0.0)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        landing.located_to = 1.0

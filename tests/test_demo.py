@@ -71,6 +71,26 @@ def test_unwritable_folder_is_refused_before_any_work(tmp_path, capsys):
     assert "--out: cannot write into" in capsys.readouterr().err
 
 
+@pytest.mark.parametrize("inside", ["inside", "inside/deeper"])
+def test_a_folder_that_cannot_be_made_is_refused_in_one_line_before_any_work(tmp_path, capsys, monkeypatch, inside):
+    # Independent of permissions (so it runs as root, as in CI): the folder's parent is a file.
+    import contin_thermo.curves._envelope as envelope_module
+
+    def no_work(*args, **kwargs):
+        raise AssertionError("an envelope was traced before the output folder was checked")
+
+    monkeypatch.setattr(envelope_module, "trace_envelope", no_work)
+    blocker = tmp_path / "a-file"
+    blocker.write_text("kept")
+    target = blocker / inside
+    assert main(["demo", "--out", str(target)]) == 2
+    captured = capsys.readouterr()
+    assert captured.err.splitlines() == [
+        f"contin: error: --out: cannot write into {str(target)!r} (Not a directory); choose another folder"]
+    assert captured.out == ""
+    assert blocker.read_text() == "kept" and sorted(p.name for p in tmp_path.iterdir()) == ["a-file"]
+
+
 @pytest.mark.skipif(os.geteuid() == 0, reason="root can write into read-only folders")
 def test_read_only_folder_is_refused(tmp_path, capsys):
     locked = tmp_path / "locked"

@@ -94,6 +94,8 @@ def test_a_linear_algebra_failure_inside_the_engine_is_a_status(monkeypatch):
     assert branch.message.startswith("stopped: a linear-algebra routine failed after the point x = 1, y = ")
     assert "(LinAlgError: Eigenvalues did not converge); check the system" in branch.message
     assert len(branch.points) == 3 and isinstance(branch.cause, np.linalg.LinAlgError)
+    last = ", ".join(f"{name} = {value:.6g}" for name, value in zip(branch.columns, branch.points[-1]))
+    assert f"failed after the point {last} (LinAlgError" in branch.message  # the last point kept
     with pytest.raises(contin.TraceError, match="linear-algebra routine failed"):
         contin.trace(brusselator(), free="b", bounds={"b": (0.5, 3.0)}, step=0.1, throw=True)
 

@@ -268,3 +268,159 @@ def test_restart_and_record_messages_are_whole_and_exact(tmp_path):
     missing = tmp_path / "none.json"
     with pytest.raises(contin.InputError, match="^" + re.escape(f"run record {str(missing)!r} does not exist") + "$"):
         contin.read_record(missing)
+
+
+# -- the double-turn test inside a step ------------------------------------------------------------
+
+def _hermite_turns(value_a, value_b, slope_a, slope_b, length):
+    """Zeros inside (0, 1) of the derivative of the cubic Hermite interpolant (ends value_a, value_b,
+    derivatives along the arc slope_a, slope_b, arc = length), from numpy's polynomial roots."""
+    d0, d1, delta = slope_a * length, slope_b * length, value_b - value_a
+    # p(s) = h00 value_a + h10 d0 + h01 value_b + h11 d1 (the Hermite basis); p'(s) by numpy
+    basis = [np.polynomial.Polynomial(c) for c in ([1, 0, -3, 2], [0, 1, -2, 1], [0, 0, 3, -2], [0, 0, -1, 1])]
+    curve = value_a * basis[0] + d0 * basis[1] + value_b * basis[2] + d1 * basis[3]
+    roots = curve.deriv().roots()
+    return [r.real for r in roots if abs(r.imag) < 1e-12 and 0.0 < r.real < 1.0], delta
+
+
+@pytest.mark.parametrize("value_b, slope_a, slope_b, twice", [
+    (0.0, 1.0, 1.0, True),     # up, back down to the same value, up again: two turns
+    (0.1, 0.5, 0.5, True),     # slopes below 1 in size (a product below 1) turn twice as well
+    (-0.05, 2.0, 3.0, True),   # a small net fall between rising ends
+    (1.0, 1.0, 1.0, False),    # a straight rise: no turn
+    (0.9, 0.8, 1.1, False),    # a gentle rise
+    (-1.0, -1.0, -1.0, False), # a straight fall
+    (0.0, -0.5, -0.5, True),   # falling ends with no net change: two turns
+    (1.0, 1.0, -1.0, False),   # slopes of opposite signs: one turn, seen by the end slopes
+])
+def test_a_coordinate_that_turns_twice_inside_a_step_is_seen(value_b, slope_a, slope_b, twice):
+    from contin.tracing._trace import _turns_twice
+
+    roots, _ = _hermite_turns(0.0, value_b, slope_a, slope_b, 1.0)
+    assert (len(roots) == 2 and slope_a * slope_b > 0) is twice  # the independent count agrees
+    assert _turns_twice(0.0, value_b, slope_a, slope_b, 1.0) is twice
+    # the answer is the same for any arc length with the slopes scaled to keep the shape
+    assert _turns_twice(3.0, 3.0 + value_b, slope_a / 4.0, slope_b / 4.0, 4.0) is twice
+    assert _turns_twice(0.0, value_b, slope_a, slope_b, 0.0) is False  # a step of no length
+
+
+# -- start values, a successful trace's cause, the corrector's reach, branch-point notes -----------
+
+def test_a_start_mapping_without_an_unknown_that_has_no_default_is_named():
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0], u[1] - 2 * p[0]], ["u", "v"], {"p": 0.0})
+    with pytest.raises(contin.InputError, match=r"^start gives no value for unknown 'v' \(and the system has no default\)$"):
+        contin.trace(system, {"u": 0.0}, free="p")
+
+
+def test_a_trace_that_succeeds_has_no_cause():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, max_points=5)
+    assert branch.success and branch.cause is None
+
+
+def test_the_corrector_may_not_move_further_than_max_correction_of_the_step():
+    # On the unit circle the second-order predictor misses by about h^3/8 (h the step): a reach of
+    # 1e-6 of the step forces steps far below the asked 0.1; with the default reach 0.5 it is kept.
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+    tight = contin.trace(circle, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30, max_correction=1e-6)
+    loose = contin.trace(circle, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30)
+    assert np.median(loose.steps[1:]) > 0.09
+    assert tight.steps.max() < 0.02
+    on_circle = tight.column("u") ** 2 + tight.column("p") ** 2
+    assert np.allclose(on_circle, 1.0, rtol=0, atol=1e-9)
+
+
+def test_folds_without_branch_points_leave_no_branch_point_note():
+    # u^3 - u + p = 0 has two folds (u = -+1/sqrt 3, p = -+2/(3 sqrt 3)) and no branch point (exact).
+    fold = contin.CallableSystem(lambda u, p: [u[0] ** 3 - u[0] + p[0]], ["u"], {"p": 0.0})
+    branch = contin.trace(fold, {"u": -1.5}, free="p", step=0.1, bounds={"p": (-2.0, 2.0)}, direction=-1)
+    assert [sp.kind for sp in branch.special_points] == ["fold", "fold", "bound"]
+    assert [sp.values["p"] for sp in branch.special("fold")] == pytest.approx(
+        [-2 / (3 * math.sqrt(3)), 2 / (3 * math.sqrt(3))], abs=1e-9)
+    assert not any("branch-point" in note for note in branch.stats.get("notes", []))
+
+
+def test_requested_values_beyond_one_in_size_are_reported_once_exactly():
+    # The step lands on a requested value by fixing that coordinate: p = 1.5 and -2.5 exactly, once each.
+    for direction, values in ((1, [1.5, 2.5]), (-1, [-1.5, -2.5])):
+        branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-3.0, 3.0)},
+                              at={"p": values}, direction=direction)
+        assert [sp.values["p"] for sp in branch.at] == values
+        assert [sp.values["u"] for sp in branch.at] == pytest.approx(values, abs=1e-12)
+        assert [sp.located_to for sp in branch.at] == [0.0, 0.0]
+
+
+# -- events: a frozen, checked configuration --------------------------------------------------------
+
+def test_an_event_is_frozen_and_refuses_an_empty_name_or_a_function_that_is_not_callable():
+    import dataclasses
+
+    event = contin.Event("g", lambda u, p: 0.0)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        event.direction = 5  # checked at construction only, so it may not change afterwards
+    for name in ("", 3):
+        with pytest.raises(contin.InputError, match=rf"^event name {name!r} must be a non-empty string$"):
+            contin.Event(name, lambda u, p: 0.0)
+    with pytest.raises(contin.InputError, match=r"^event 'g': function must be callable as g\(u, p\)$"):
+        contin.Event("g", 1.0)
+
+
+# -- location: the Illinois bracket and a coordinate level -----------------------------------------
+
+def _run_bracket(f, tolerance=1e-12):
+    from contin.tracing._locate import IllinoisBracket
+
+    bracket = IllinoisBracket(f(0.0), f(1.0), 1.0, tolerance)
+    trials = []
+    for _ in range(100):
+        s = bracket.trial()
+        trials.append(s)
+        if f(s) == 0.0 or bracket.update(s, f(s)):
+            break
+    return bracket, trials
+
+
+def test_the_illinois_bracket_takes_the_chord_zero_of_a_straight_line_first():
+    # Regula falsi on f(s) = 4 s - 1 (from f(0) = -1, f(1) = 3): the first trial is the zero 1/4 (exact).
+    bracket, trials = _run_bracket(lambda s: 4.0 * s - 1.0)
+    assert trials[0] == 0.25
+
+
+@pytest.mark.parametrize("f", [lambda s: math.exp(6.0 * s) - 2.0,        # convex: plain regula falsi keeps s = 1
+                               lambda s: 2.0 - math.exp(6.0 * (1.0 - s)),  # the mirror image: it keeps s = 0
+                               lambda s: math.log(1.0 + 9.0 * s) - 1.0])   # concave
+def test_the_illinois_bracket_shrinks_from_both_sides_to_the_tolerance(f):
+    # Plain regula falsi on a convex or concave function keeps one end for ever and closes in from one
+    # side only; Illinois halves the stale end's value, so the bracket's width itself falls below the
+    # tolerance, within a few trials, around the true zero (found here by bisection, independently).
+    bracket, trials = _run_bracket(f)
+    low, high = 0.0, 1.0
+    for _ in range(200):
+        middle = 0.5 * (low + high)
+        low, high = (middle, high) if (f(middle) < 0) == (f(0.0) < 0) else (low, middle)
+    assert bracket.low <= low and high <= bracket.high
+    assert bracket.width <= 1e-12 and bracket.located_to <= 1e-12
+    assert 0.0 < bracket.low and bracket.high < 1.0  # both ends moved
+    assert len(trials) <= 15
+
+
+def test_a_level_of_a_coordinate_is_located_on_the_branch_between_two_points():
+    from contin.tracing._extended import Counters, Extended
+    from contin.tracing._locate import locate_level
+    from contin.tracing._options import TraceOptions
+
+    # The unit circle u^2 + p^2 = 1 between the points at angles 0.2 and 1.2 (x = (u, p) = (cos, sin)):
+    # p = 0.5 is at angle pi/6, at chord fraction (0.5 - sin 0.2) / (sin 1.2 - sin 0.2) of the chord's
+    # projection, u = sqrt(3)/2 (exact).
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+    extended = Extended(circle, np.array([0.0]), 0, Counters())
+    xa, xb = np.array([math.cos(0.2), math.sin(0.2)]), np.array([math.cos(1.2), math.sin(1.2)])
+    ta, tb = np.array([-math.sin(0.2), math.cos(0.2)]), np.array([-math.sin(1.2), math.cos(1.2)])
+    for level in (0.5, float(xb[1]) - 1e-6):
+        located = locate_level(extended, (xa, ta), (xb, tb), 1, level, TraceOptions())
+        assert located.x[1] == pytest.approx(level, abs=1e-12)
+        assert located.x[0] == pytest.approx(math.sqrt(1.0 - level**2), abs=1e-10)
+        chord = xb - xa
+        assert located.fraction == pytest.approx(float((located.x - xa) @ chord) / float(chord @ chord), abs=1e-12)
+        assert 0.0 < located.fraction < 1.0
+        assert located.value == 0.0 and located.located_to == 0.0
+        assert abs(located.tangent @ np.array([located.x[1], -located.x[0]])) == pytest.approx(1.0, abs=1e-9)

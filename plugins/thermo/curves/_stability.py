@@ -139,7 +139,8 @@ def _tm(W: np.ndarray, ln_phi: np.ndarray, d: np.ndarray) -> np.ndarray:
 
 def _newton(mixture: Mixture, T: float, P: float, d: np.ndarray, ln_W: np.ndarray, iterations: int = 10,
             tolerance: float = 1e-10):
-    """Newton's method in alpha = 2 sqrt(W) from ln W (Michelsen 1982); returns (tm, w, ln W, iterations).
+    """Newton's method in alpha = 2 sqrt(W) from ln W (Michelsen 1982); returns (tm, w, ln W, iterations,
+    root), root 1 for the liquid and 2 for the vapour.
 
     The trial keeps the root (liquid or vapour) that is the more stable one at its start.
     """
@@ -172,7 +173,49 @@ def _newton(mixture: Mixture, T: float, P: float, d: np.ndarray, ln_W: np.ndarra
         ln_W = 2.0 * np.log(0.5 * alpha)
     W = np.exp(ln_W)
     ln_phi = ln_phi_batch(mixture, T, P, W[None, :])[0]
-    return float(_tm(W[None, :], ln_phi[None, :], d)[0]), W / W.sum(), ln_W, count
+    root = 1 if phase == "liquid" else 2
+    return float(_tm(W[None, :], ln_phi[None, :], d)[0]), W / W.sum(), ln_W, count, root
+
+
+def _roots_used(mixture: Mixture, T: float, P: float, w: np.ndarray, A: np.ndarray, which: np.ndarray) -> np.ndarray:
+    """The volume root each row of ``w`` is on with the choice ``which`` (as in :func:`ln_phi_batch`):
+    1 the liquid, 2 the vapour, 0 when the cubic has one root there (it is both)."""
+    m = len(w)
+    liquid = ln_phi_batch(mixture, T, P, w, A, np.ones(m, dtype=int))
+    vapour = ln_phi_batch(mixture, T, P, w, A, np.full(m, 2))
+    one_root = np.all(liquid == vapour, axis=1)
+    w = w / w.sum(axis=1, keepdims=True)
+    lower = np.where(np.einsum("ij,ij->i", w, liquid) < np.einsum("ij,ij->i", w, vapour), 1, 2)
+    return np.where(one_root, 0, np.where(which == 0, lower, which))
+
+
+def _known_phases(mixture: Mixture, T: float, P: float, known, d: np.ndarray, A: np.ndarray) -> list:
+    """Each known phase as (composition, root). A phase in equilibrium with the feed touches the
+    tangent plane, so it is on the root where its tangent-plane distance is nearer zero; the same
+    composition on the other root is another phase (below the plane it is a more stable one: a liquid
+    of nearly the incipient vapour's composition at a metastable bubble point)."""
+    phases = []
+    for k in known:
+        k = np.asarray(k, dtype=float)
+        k = k / k.sum()
+        pair = np.vstack([k, k])
+        tm = _tm(pair, ln_phi_batch(mixture, T, P, pair, A, np.array([1, 2])), d)
+        root = 1 if abs(tm[0]) <= abs(tm[1]) else 2
+        phases.append((k, int(_roots_used(mixture, T, P, k[None, :], A, np.array([root]))[0])))
+    return phases
+
+
+def _on_known(mixture: Mixture, T: float, P: float, w: np.ndarray, which: np.ndarray, phases, A: np.ndarray) -> np.ndarray:
+    """Mask of the rows of ``w`` that are one of the known ``phases``: the same composition (to 1e-3 in
+    every mole fraction) on the same volume root."""
+    hit = np.zeros(len(w), dtype=bool)
+    for k, root in phases:
+        near = np.max(np.abs(w - k), axis=1) < 1e-3
+        if root and np.any(near):
+            used = _roots_used(mixture, T, P, w[near], A, which[near])
+            near[near] = (used == 0) | (used == root)
+        hit |= near
+    return hit
 
 
 def _pure_trials(n: int) -> np.ndarray:
@@ -190,7 +233,7 @@ def _test(mixture: Mixture, T: float, P: float, z: np.ndarray, trials: np.ndarra
     ln_W = np.log(np.maximum(trials, 1e-300))
     active = np.ones(len(ln_W), dtype=bool)
     converged = np.zeros(len(ln_W), dtype=bool)
-    references = [z] + [np.asarray(k, dtype=float) / np.sum(k) for k in known]
+    phases = _known_phases(mixture, T, P, known, d, A)
     iterations = 0
     tm = np.full(len(ln_W), np.inf)
     fall = np.full(len(ln_W), np.nan)  # the last decrease of tm of each trial
@@ -222,8 +265,8 @@ def _test(mixture: Mixture, T: float, P: float, z: np.ndarray, trials: np.ndarra
             # A trial closing in on the feed or a known phase (both stationary with tm = 0) would only
             # creep there: it is given up as that answer.
             w = W / W.sum(axis=1, keepdims=True)
-            for reference in references:
-                done |= np.max(np.abs(w - reference), axis=1) < 1e-3
+            done |= np.max(np.abs(w - z), axis=1) < 1e-3
+            done |= _on_known(mixture, T, P, w, roots[rows], phases, A)
         active[rows[done | hopeless]] = False
     W = np.exp(ln_W)
     # A negative tm on a forced root is a negative tm on the root of lower Gibbs energy too.
@@ -231,9 +274,7 @@ def _test(mixture: Mixture, T: float, P: float, z: np.ndarray, trials: np.ndarra
     tm = _tm(W, ln_phi, d)
     w = W / W.sum(axis=1, keepdims=True)
     trivial = np.max(np.abs(w - z), axis=1) < 1e-3
-    for k in known:
-        k = np.asarray(k, dtype=float)
-        trivial |= np.max(np.abs(w - k / k.sum()), axis=1) < 1e-3
+    trivial |= _on_known(mixture, T, P, w, roots, phases, A)
     valid = np.isfinite(tm) & ~trivial
     # The two lowest non-trivial stationary points start the next point's trials.
     lowest = np.flatnonzero(valid)[np.argsort(tm[valid])]
@@ -247,10 +288,10 @@ def _test(mixture: Mixture, T: float, P: float, z: np.ndarray, trials: np.ndarra
         # three) lowest trials that have not converged.
         doubtful = [k for k in lowest if not converged[k] and tm[k] < _DOUBTFUL][:3]
         for k in doubtful:
-            tm_n, w_n, _, count = _newton(mixture, T, P, d, ln_W[k])
+            tm_n, w_n, _, count, root = _newton(mixture, T, P, d, ln_W[k])
             iterations += count
-            far = np.max(np.abs(w_n - z)) >= 1e-3 and all(np.max(np.abs(w_n - np.asarray(q) / np.sum(q))) >= 1e-3
-                                                           for q in known)
+            far = np.max(np.abs(w_n - z)) >= 1e-3 and not _on_known(mixture, T, P, w_n[None, :], np.array([root]),
+                                                                     phases, A)[0]
             if math.isfinite(tm_n) and far and tm_n < best_tm:
                 best_tm, best_w = tm_n, w_n
             if best_tm < _UNSTABLE:
