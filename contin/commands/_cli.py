@@ -269,7 +269,7 @@ def _sweep(namespace: argparse.Namespace) -> int:
     """``contin sweep``: every combination of ``[sweep] over``, saved as it finishes; exit 1 if a run failed."""
     from ..base._output import read_input_text
     from ..systems._problem import MAX_FILE_BYTES, problem_from_text
-    from ..studies._sweep import executor_for, run_sweep
+    from ..studies._sweep import problem_task, run_sweep, sweep_report
 
     path = Path(namespace.problem)
     text = read_input_text(path, f"{path}:", MAX_FILE_BYTES, missing="no such problem file")
@@ -277,23 +277,10 @@ def _sweep(namespace: argparse.Namespace) -> int:
     if problem.sweep is None:
         raise InputError(f"{path}: has no [sweep] section; add one, e.g. [sweep] over = {{ B = [1.0, 2.0] }}")
     folder = namespace.out if namespace.out is not None else problem.sweep["output"]
-    if not (namespace.timeout > 0 and namespace.timeout < 3600):
-        raise InputError(f"--timeout {namespace.timeout!r} must be a number of seconds above 0 and below 3600")
-    executor, shutdown = executor_for(namespace.workers, namespace.scheduler, timeout=namespace.timeout)
-    try:
-        runs = run_sweep(text, str(path), problem.sweep["over"], folder, executor=executor, warm=not namespace.cold)
-    finally:
-        if shutdown is not None:
-            shutdown()
-    failed = [run for run in runs if not run.success]
-    reused = sum(run.reused for run in runs)
-    print(f"sweep of {path.name}: {len(runs)} runs ({reused} reused from an earlier sweep), "
-          f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}")
-    for run in failed:
-        values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
-        reason = run.error if run.error is not None else str(run.document.get("message"))
-        print(f"  run {run.index} ({values}): {run.status}: {_one_line(reason)}")
-    return 0 if not failed else 1
+    runs = run_sweep(problem_task(text, str(path)), problem.sweep["over"], folder, workers=namespace.workers,
+                     scheduler=namespace.scheduler, timeout=namespace.timeout, warm=not namespace.cold)
+    print(sweep_report(runs, path.name, folder))
+    return 0 if all(run.success for run in runs) else 1
 
 
 def _warning_printer(stderr):
