@@ -18,6 +18,7 @@ from collections.abc import Sequence
 from importlib import metadata, resources
 from pathlib import Path
 
+from ..base._arguments import add_sweep_options
 from ..base._errors import ContinError, InputError
 from ..base._names import suggest
 
@@ -151,14 +152,7 @@ def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.Argument
                "  contin sweep reactor.toml --scheduler tcp://127.0.0.1:8786",
     )
     sweep.add_argument("problem", metavar="PROBLEM.toml", help="the problem file, with a [sweep] section")
-    sweep.add_argument("--workers", type=int, metavar="N", help="run on a local pool of N processes")
-    sweep.add_argument("--scheduler", metavar="ADDRESS",
-                       help="run on a running dask.distributed scheduler (the optional 'distributed' extra)")
-    sweep.add_argument("--timeout", type=float, default=10.0, metavar="SECONDS",
-                       help="with --scheduler: how long to wait for the scheduler to answer (default 10)")
-    sweep.add_argument("--out", metavar="DIR", help="the output folder (default: [sweep] output)")
-    sweep.add_argument("--cold", action="store_true",
-                       help="start every run from the problem file's start values (default: from the nearest finished run)")
+    add_sweep_options(sweep, out="[sweep] output", cold="the problem file's start values")
     sweep.set_defaults(handler=_sweep)
     if load_plugins:
         _load_plugins(subparsers, stderr or sys.stderr)
