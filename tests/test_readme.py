@@ -83,6 +83,42 @@ def test_tutorial_commands_all_run(tutorial, capsys, monkeypatch):
     assert len(pseudo) == 4 and sum(p["z"] for p in pseudo) == pytest.approx(0.0412, rel=1e-12)
     assert sum(p["z"] * p["molar_mass"] for p in pseudo) / 0.0412 == pytest.approx(182.0, rel=1e-10)
     check_tutorial_outputs(outputs, restart_at)
+    check_tutorial_sweeps(folder, outputs)
+
+
+def _summary_rows(path: Path) -> list[dict]:
+    import csv
+
+    with open(path) as handle:
+        return list(csv.DictReader(line for line in handle if not line.startswith("#")))
+
+
+def check_tutorial_sweeps(folder: Path, outputs: dict) -> None:
+    """The study section's sweeps: the cabinet's folds for each g against the exact formula, the resumed
+    sweep reusing every run, and the kij sweep giving the Python study's corners.
+
+    With f = g t / (g + t) the folds satisfy t f'(t) = 1, i.e. t^2 + (2g - g^2) t + g^2 = 0 (exact; for
+    g = 6 it is the t^2 - 24 t + 36 = 0 of the tutorial's first section).
+    """
+    assert "3 runs (0 reused from an earlier sweep), 3 succeeded" in outputs["contin sweep cabinet-g.toml"]
+    assert "3 runs (3 reused from an earlier sweep)" in outputs["contin sweep cabinet-g.toml --workers 2"]
+    rows = _summary_rows(folder / "cabinet-g" / "summary.csv")
+    for g in (5.0, 6.0, 7.0):
+        root = g * math.sqrt(g * g - 4 * g)
+        exact = [(g * g - 2 * g - root) / 2, (g * g - 2 * g + root) / 2]
+        folds = [float(r["t"]) for r in rows if float(r["g"]) == g and r["kind"] == "fold"]
+        assert folds == pytest.approx(exact, abs=1e-8)
+    corners = _summary_rows(folder / "kij-sweep" / "summary.csv")
+    study = {entry["case"]["kij"]: entry["result"] for entry in
+             (json.loads(path.read_text()) for path in (folder / "study").glob("*.json"))}
+    assert sorted(study) == [0.0, 0.02, 0.04, 0.06] and len(corners) == 12
+    for row in corners:
+        expected = study[float(row["kij:methane-n-heptane"])][row["kind"]]
+        assert float(row["T"]) == pytest.approx(expected["T"], rel=1e-9)
+        assert float(row["P"]) == pytest.approx(expected["P"], rel=1e-9)
+    propane = _summary_rows(folder / "propane-sweep" / "summary.csv")
+    # The cubic's critical point is its Tc and Pc exactly (Omega_a, Omega_b are fixed by them).
+    assert [float(r["T"]) for r in propane] == pytest.approx([369.0, 370.0] * 3, rel=1e-12)
 
 
 def _special_lines(summary: str, word: str) -> list[dict]:

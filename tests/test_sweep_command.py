@@ -103,7 +103,7 @@ def test_a_changed_sweep_definition_is_refused_naming_what_differs(tmp_path, cap
     path = write(tmp_path)
     path.write_text(path.read_text().replace("max_step = 0.2", "max_step = 0.1"))
     code, _, err = run(capsys, path)
-    assert code == 2 and "started from a different problem file" in err
+    assert code == 2 and "the sweep there has problem file sha256 = " in err
 
 
 def test_a_process_pool_gives_the_same_runs(tmp_path, capsys, monkeypatch):

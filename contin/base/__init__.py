@@ -9,6 +9,7 @@ from ._lazy import lazy_exports
 # name -> the private module that defines it ("module:attribute" where the names differ)
 _EXPORTS = {
     "Outputs": "._output",
+    "add_sweep_options": "._arguments",
     "axis_label": "._plot",
     "describe_kind": "._plot",
     "fill_text": "._output",

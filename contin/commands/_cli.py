@@ -18,6 +18,7 @@ from collections.abc import Sequence
 from importlib import metadata, resources
 from pathlib import Path
 
+from ..base._arguments import add_sweep_options
 from ..base._errors import ContinError, InputError
 from ..base._names import suggest
 
@@ -151,14 +152,7 @@ def build_parser(*, load_plugins: bool = True, stderr=None) -> argparse.Argument
                "  contin sweep reactor.toml --scheduler tcp://127.0.0.1:8786",
     )
     sweep.add_argument("problem", metavar="PROBLEM.toml", help="the problem file, with a [sweep] section")
-    sweep.add_argument("--workers", type=int, metavar="N", help="run on a local pool of N processes")
-    sweep.add_argument("--scheduler", metavar="ADDRESS",
-                       help="run on a running dask.distributed scheduler (the optional 'distributed' extra)")
-    sweep.add_argument("--timeout", type=float, default=10.0, metavar="SECONDS",
-                       help="with --scheduler: how long to wait for the scheduler to answer (default 10)")
-    sweep.add_argument("--out", metavar="DIR", help="the output folder (default: [sweep] output)")
-    sweep.add_argument("--cold", action="store_true",
-                       help="start every run from the problem file's start values (default: from the nearest finished run)")
+    add_sweep_options(sweep, out="[sweep] output", cold="the problem file's start values")
     sweep.set_defaults(handler=_sweep)
     if load_plugins:
         _load_plugins(subparsers, stderr or sys.stderr)
@@ -269,7 +263,7 @@ def _sweep(namespace: argparse.Namespace) -> int:
     """``contin sweep``: every combination of ``[sweep] over``, saved as it finishes; exit 1 if a run failed."""
     from ..base._output import read_input_text
     from ..systems._problem import MAX_FILE_BYTES, problem_from_text
-    from ..studies._sweep import executor_for, run_sweep
+    from ..studies._sweep import problem_task, run_sweep, sweep_report
 
     path = Path(namespace.problem)
     text = read_input_text(path, f"{path}:", MAX_FILE_BYTES, missing="no such problem file")
@@ -277,23 +271,10 @@ def _sweep(namespace: argparse.Namespace) -> int:
     if problem.sweep is None:
         raise InputError(f"{path}: has no [sweep] section; add one, e.g. [sweep] over = {{ B = [1.0, 2.0] }}")
     folder = namespace.out if namespace.out is not None else problem.sweep["output"]
-    if not (namespace.timeout > 0 and namespace.timeout < 3600):
-        raise InputError(f"--timeout {namespace.timeout!r} must be a number of seconds above 0 and below 3600")
-    executor, shutdown = executor_for(namespace.workers, namespace.scheduler, timeout=namespace.timeout)
-    try:
-        runs = run_sweep(text, str(path), problem.sweep["over"], folder, executor=executor, warm=not namespace.cold)
-    finally:
-        if shutdown is not None:
-            shutdown()
-    failed = [run for run in runs if not run.success]
-    reused = sum(run.reused for run in runs)
-    print(f"sweep of {path.name}: {len(runs)} runs ({reused} reused from an earlier sweep), "
-          f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}")
-    for run in failed:
-        values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
-        reason = run.error if run.error is not None else str(run.document.get("message"))
-        print(f"  run {run.index} ({values}): {run.status}: {_one_line(reason)}")
-    return 0 if not failed else 1
+    runs = run_sweep(problem_task(text, str(path)), problem.sweep["over"], folder, workers=namespace.workers,
+                     scheduler=namespace.scheduler, timeout=namespace.timeout, warm=not namespace.cold)
+    print(sweep_report(runs, path.name, folder))
+    return 0 if all(run.success for run in runs) else 1
 
 
 def _warning_printer(stderr):

@@ -29,7 +29,7 @@ from pathlib import Path
 from ..base._errors import InputError
 from ..base._output import json_ready, write_text_atomically
 
-__all__ = ["SweepRun", "run_sweep", "sweep_grid"]
+__all__ = ["SweepRun", "SweepTask", "problem_task", "run_sweep", "sweep_grid", "sweep_report"]
 
 DEFINITION = "sweep.json"
 SUMMARY = "summary.csv"
@@ -60,9 +60,46 @@ def sweep_grid(over: Mapping[str, Sequence[float]]) -> list[dict]:
     return [dict(zip(names, combination)) for combination in itertools.product(*(over[name] for name in names))]
 
 
-def _definition(text: str, over: Mapping[str, Sequence[float]]) -> dict:
-    return {"problem_sha256": hashlib.sha256(text.encode("utf-8")).hexdigest(),
-            "over": {name: [float(v) for v in values] for name, values in over.items()}}
+@dataclass(frozen=True)
+class SweepTask:
+    """What a sweep runs, given as a description that travels to the workers.
+
+    Attributes:
+        run: a module-level (importable) function ``run(description, values, start)`` returning one
+            run's JSON-ready document, with at least ``status``, ``success``, ``columns`` and
+            ``special_points``; it builds its problem from ``description`` in whatever process it lands.
+        description: JSON-ready text and numbers from which ``run`` builds the problem.
+        identity: what a resumed sweep must share with the one in the folder: label -> JSON-ready
+            value (e.g. ``{"--eos": "pr"}``); a difference is named by its label.
+        start_of: ``start_of(document)``: the start guess a finished neighbour's document gives (or
+            None); called in this process only.
+    """
+
+    run: Callable[[Mapping, dict, object], dict]
+    description: Mapping
+    identity: Mapping[str, object]
+    start_of: Callable[[dict], object] | None = None
+
+
+def problem_task(text: str, label: str) -> SweepTask:
+    """The sweep task of a problem file: trace its text once per combination (``contin sweep``)."""
+    from ..systems._problem import problem_from_text
+
+    unknowns = list(problem_from_text(text, label).system.unknowns)  # checked here, before any worker starts
+
+    def start_of(document: dict) -> dict | None:
+        if not document.get("points"):
+            return None
+        return {name: float(value) for name, value in zip(document["columns"], document["points"][0])
+                if name in unknowns}
+
+    digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    return SweepTask(trace_one, {"text": text, "label": label}, {"problem file sha256": digest}, start_of)
+
+
+def _render(value) -> str:
+    text = json.dumps(value)
+    return text if len(text) <= 80 else text[:77] + "..."
 
 
 def _check_definition(folder: Path, definition: dict) -> None:
@@ -77,14 +114,16 @@ def _check_definition(folder: Path, definition: dict) -> None:
                          "output folder") from None
     if not isinstance(saved, dict):
         raise InputError(f"{path}: not a sweep definition; choose another output folder")
-    old, new = saved.get("over") or {}, definition["over"]
-    for name in sorted(set(old) | set(new)):
-        if old.get(name) != new.get(name):
-            raise InputError(f"{folder}: the sweep there has over.{name} = {old.get(name)!r}, this one "
-                             f"{new.get(name)!r}; resume with the same values, or choose another output folder")
-    if saved.get("problem_sha256") != definition["problem_sha256"]:
-        raise InputError(f"{folder}: the sweep there was started from a different problem file; keep the file "
-                         "as it was to resume, or choose another output folder")
+    for section, prefix in (("over", "over."), ("task", "")):
+        old, new = saved.get(section) or {}, definition[section]
+        if not isinstance(old, dict):
+            old = {}
+        for name in sorted(set(old) | set(new)):
+            if old.get(name) != new.get(name):
+                said = "nothing" if name not in old else _render(old[name])
+                raise InputError(f"{folder}: the sweep there has {prefix}{name} = {said}, this one "
+                                 f"{'nothing' if name not in new else _render(new[name])}; resume with the same "
+                                 "definition, or choose another output folder")
 
 
 def _saved(folder: Path, index: int, values: dict) -> dict | None:
@@ -98,38 +137,43 @@ def _saved(folder: Path, index: int, values: dict) -> dict | None:
     return document
 
 
-def trace_one(text: str, label: str, values: dict, start: dict | None = None) -> dict:
-    """One run, in whatever process it lands: build the problem from its text, trace it with ``values``.
+def trace_one(description: Mapping, values: dict, start: dict | None = None) -> dict:
+    """One run of a problem file, in whatever process it lands: build it from its text, trace it with ``values``.
 
-    Returns the branch's JSON document with ``success`` and ``sweep_values`` added.
+    Returns the branch's JSON document with ``success`` added.
     """
     from ..systems._problem import problem_from_text
     from ..tracing._trace import trace
 
-    problem = problem_from_text(text, label)
+    problem = problem_from_text(description["text"], description["label"])
     begin = dict(problem.start) if start is None else {**dict(problem.start), **start}
     branch = trace(problem.system, begin, events=list(problem.events), parameters=dict(values), **problem.options)
     document = branch.to_dict()
     document["success"] = branch.success
-    document["sweep_values"] = dict(values)
     return json_ready(document)
 
 
-def _warm_start(index: int, grid: list[dict], finished: dict[int, dict], unknowns: int) -> tuple[dict | None, int | None]:
-    """The start point of the nearest finished, successful run (by grid distance): a better Newton guess."""
-    best = None
-    for other, document in finished.items():
-        if not document.get("success") or not document.get("points"):
+def chains(grid: Sequence[dict]) -> list[int | None]:
+    """The warm-start parent of each run: the grid is cut into about sqrt(n) chains of neighbouring runs;
+    each run but a chain's first starts from the nearest earlier run of its chain (by scaled grid
+    distance, ties to the later run).
+
+    The parents depend on the grid alone, never on which run happens to finish first, so a serial
+    sweep, a process pool and a dask cluster start every run from the same guess and give the same
+    numbers; the chains can run side by side.
+    """
+    count = len(grid)
+    length = max(1, math.ceil(count / max(1, round(math.sqrt(count)))))
+    parents: list[int | None] = []
+    for index in range(count):
+        first = index - index % length
+        if index == first:
+            parents.append(None)
             continue
-        distance = sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name]))
-                       for name in grid[index])
-        if best is None or (distance, other) < best[:2]:
-            best = (distance, other, document)
-    if best is None:
-        return None, None
-    _, other, document = best
-    columns = document["columns"]
-    return {name: float(value) for name, value in zip(columns[:unknowns], document["points"][0])}, other
+        def distance(other: int) -> float:
+            return sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name])) for name in grid[index])
+        parents.append(min(range(first, index), key=lambda other: (distance(other), -other)))
+    return parents
 
 
 class _Progress:
@@ -150,45 +194,67 @@ class _Progress:
             self.stream.flush()
 
 
-def run_sweep(text: str, label: str, over: Mapping[str, Sequence[float]], folder: str | Path, *,
-              executor: Executor | None = None, warm: bool = True, stream=None) -> list[SweepRun]:
-    """Run every combination of ``over`` for the problem in ``text``; write and return the runs.
+def _prepare_folder(folder: Path, definition: dict) -> None:
+    """Check the output folder (a folder, and the same sweep if one is there) before anything is written."""
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"{folder}: the sweep's output folder is a file; choose a folder")
+    if folder.is_dir():
+        _check_definition(folder, definition)
+
+
+def run_sweep(task: SweepTask, over: Mapping[str, Sequence[float]], folder: str | Path, *,
+              executor: Executor | None = None, workers: int | None = None, scheduler: str | None = None,
+              timeout: float = 10.0, warm: bool = True, stream=None) -> list[SweepRun]:
+    """Run ``task`` once per combination of ``over``; write and return the runs.
 
     Args:
-        text: the problem file's text.
-        label: its name in messages (and, without the suffix, nothing else: outputs go to ``folder``).
-        over: parameter name -> values (the ``[sweep]`` section's ``over``).
+        task: what to run (see :class:`SweepTask`; :func:`problem_task` for a problem file).
+        over: parameter label -> values (their product is the grid, the last label changing fastest).
         folder: where ``run-<k>.json``, ``sweep.json`` and ``summary.csv`` go (created if missing).
         executor: a ``concurrent.futures``-style executor (a process pool, a dask client's executor);
-            None runs in this process, one run after the other.
-        warm: start each run from the start point of its nearest finished neighbour (fewer Newton
-            iterations where neighbours are close).
+            or ``workers`` (a local process pool of that many) or ``scheduler`` (the address of a
+            running dask.distributed scheduler, answered within ``timeout`` seconds); none of them
+            runs in this process, one run after the other.
+        warm: start each run from its parent's result (see :func:`chains`): fewer Newton iterations
+            where neighbours are close.
         stream: where the progress line goes (standard error by default; silent if not a terminal).
 
     Returns:
-        The runs in grid order.
+        The runs in grid order; each finished run's document carries its values under ``sweep_values``.
 
     Raises:
-        InputError: an empty grid, a folder that cannot be used, a changed sweep definition.
+        InputError: an empty grid, a folder that cannot be used, a changed sweep definition, a bad
+            ``workers``, a scheduler that does not answer (nothing is written then).
     """
-    from ..systems._problem import problem_from_text
-
     grid = sweep_grid(over)
     if not grid:
-        raise InputError("the sweep has no runs: give every parameter in over at least one value")
-    problem = problem_from_text(text, label)  # checked here, before any worker starts
-    unknowns = len(problem.system.unknowns)
+        raise InputError("the sweep has no runs: give every parameter at least one value")
     folder = Path(folder)
-    if folder.exists() and not folder.is_dir():
-        raise InputError(f"{folder}: the sweep's output folder is a file; choose a folder")
+    definition = {"over": {name: [float(v) for v in values] for name, values in over.items()},
+                  "task": json_ready(dict(task.identity))}
+    _prepare_folder(folder, definition)
+    shutdown = None
+    if executor is None:
+        executor, shutdown = executor_for(workers, scheduler, timeout)
+    elif workers is not None or scheduler is not None:
+        raise InputError("give an executor, workers or a scheduler, not several")
     try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError as error:
-        raise InputError(f"{folder}: cannot create the sweep's output folder ({error.strerror or error})") from None
-    definition = _definition(text, over)
-    _check_definition(folder, definition)
-    write_text_atomically(folder / DEFINITION, json.dumps(definition, indent=1) + "\n")
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as error:
+            raise InputError(f"{folder}: cannot create the sweep's output folder ({error.strerror or error})") from None
+        write_text_atomically(folder / DEFINITION, json.dumps(definition, indent=1) + "\n")
+        runs = _run_grid(task, grid, folder, executor, warm, stream if stream is not None else sys.stderr)
+    finally:
+        if shutdown is not None:
+            shutdown()
+    write_text_atomically(folder / SUMMARY, summary_csv(runs, list(over)))
+    return runs
 
+
+def _run_grid(task: SweepTask, grid: list[dict], folder: Path, executor: Executor | None, warm: bool,
+              stream) -> list[SweepRun]:
+    """Every run not already in ``folder``, each submitted once its warm-start parent is done."""
     finished: dict[int, dict] = {}
     for index, values in enumerate(grid):
         document = _saved(folder, index, values)
@@ -196,56 +262,69 @@ def run_sweep(text: str, label: str, over: Mapping[str, Sequence[float]], folder
             finished[index] = document
     reused = set(finished)
     errors: dict[int, str] = {}
-    pending = [index for index in range(len(grid)) if index not in finished]
-    progress = _Progress(len(grid), stream if stream is not None else sys.stderr)
+    parents = chains(grid) if warm and task.start_of is not None else [None] * len(grid)
+    waiting = [index for index in range(len(grid)) if index not in finished]
+    progress = _Progress(len(grid), stream)
 
     def keep(index: int, document: dict | None, error: str | None) -> None:
         if document is not None:
+            document = {**document, "sweep_values": dict(grid[index])}
             write_text_atomically(folder / f"run-{index}.json", json.dumps(document, indent=1) + "\n")
             finished[index] = document
         else:
             errors[index] = error or "failed"
 
-    def submit(index: int) -> tuple[Callable, tuple]:
-        start, _ = _warm_start(index, grid, finished, unknowns) if warm else (None, None)
-        return trace_one, (text, label, grid[index], start)
+    def ready() -> list[int]:
+        done = set(finished) | set(errors)
+        found = [index for index in waiting if parents[index] is None or parents[index] in done]
+        for index in found:
+            waiting.remove(index)
+        return found
 
-    if executor is None:
-        for index in pending:
-            progress.show(len(finished), 1, len(errors))
-            function, arguments = submit(index)
-            try:
-                keep(index, function(*arguments), None)
-            except InputError as error:
-                keep(index, None, str(error))
-    else:
-        futures: dict[Future, int] = {}
-        for index in pending:
-            function, arguments = submit(index)
-            futures[executor.submit(function, *arguments)] = index
-        for future in as_completed(futures):
-            index = futures[future]
-            try:
-                keep(index, future.result(), None)
-            except InputError as error:
-                keep(index, None, str(error))
-            except Exception as error:  # noqa: BLE001 - a worker's failure is that run's error, not the sweep's
-                keep(index, None, f"{type(error).__name__}: {error}")
-            progress.show(len(finished), len(futures) - len(finished) - len(errors) + len(reused), len(errors))
+    def start(index: int):
+        parent = finished.get(parents[index]) if parents[index] is not None else None
+        return task.start_of(parent) if parent is not None and parent.get("success") else None
+
+    running: dict[Future, int] = {}
+    while waiting or running:
+        for index in ready():
+            if executor is None:
+                progress.show(len(finished), 1, len(errors))
+                try:
+                    keep(index, task.run(task.description, grid[index], start(index)), None)
+                except InputError as error:
+                    keep(index, None, str(error))
+            else:
+                running[executor.submit(task.run, task.description, grid[index], start(index))] = index
+        if not running:
+            continue
+        future = next(as_completed(running))
+        index = running.pop(future)
+        try:
+            keep(index, future.result(), None)
+        except InputError as error:
+            keep(index, None, str(error))
+        except Exception as error:  # noqa: BLE001 - a worker's failure is that run's error, not the sweep's
+            keep(index, None, f"{type(error).__name__}: {error}")
+        progress.show(len(finished), len(running), len(errors))
     progress.close()
-    runs = [SweepRun(index, grid[index], finished.get(index), errors.get(index), index in reused)
+    return [SweepRun(index, grid[index], finished.get(index), errors.get(index), index in reused)
             for index in range(len(grid))]
-    write_text_atomically(folder / SUMMARY, summary_csv(runs, list(over)))
-    return runs
 
 
 def summary_csv(runs: Sequence[SweepRun], names: Sequence[str]) -> str:
-    """One row per special point per run (a run without special points: one row with an empty kind)."""
+    """One row per special point per run (a run without special points: one row with an empty kind).
+
+    The value columns are those the special points carry, in the order of the runs' own columns.
+    """
     columns: list[str] = []
     for run in runs:
-        if run.document is not None:
-            columns = list(run.document.get("columns", []))
-            break
+        if run.document is None:
+            continue
+        carried = [key for sp in run.document.get("special_points", []) for key in sp.get("values", {})]
+        for name in [*run.document.get("columns", []), *carried]:
+            if name in carried and name not in columns:
+                columns.append(name)
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     buffer.write("# sweep summary: one row per special point per run; values in the problem's own units\n")
@@ -262,6 +341,19 @@ def summary_csv(runs: Sequence[SweepRun], names: Sequence[str]) -> str:
     return buffer.getvalue()
 
 
+def sweep_report(runs: Sequence[SweepRun], title: str, folder: str | Path) -> str:
+    """What a sweep command prints: the counts, then one line per failed run with its values and reason."""
+    failed = [run for run in runs if not run.success]
+    reused = sum(run.reused for run in runs)
+    lines = [f"sweep of {title}: {len(runs)} runs ({reused} reused from an earlier sweep), "
+             f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}"]
+    for run in failed:
+        values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
+        reason = run.error if run.error is not None else str(run.document.get("message"))
+        lines.append(f"  run {run.index} ({values}): {run.status}: {' '.join(reason.split())}")
+    return "\n".join(lines)
+
+
 def executor_for(workers: int | None, scheduler: str | None, timeout: float = 10.0):
     """The executor of ``--workers N`` (a process pool) or ``--scheduler ADDRESS`` (dask.distributed),
     and a function that shuts it down; (None, None) for a serial sweep.
@@ -271,6 +363,8 @@ def executor_for(workers: int | None, scheduler: str | None, timeout: float = 10
     """
     if workers is not None and scheduler is not None:
         raise InputError("--workers and --scheduler both given; a sweep runs on one or the other")
+    if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) or not 0 < timeout < 3600:
+        raise InputError(f"--timeout {timeout!r} must be a number of seconds above 0 and below 3600")
     if workers is not None:
         if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
             raise InputError(f"--workers {workers!r} must be a whole number of at least 1")

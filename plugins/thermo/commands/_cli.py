@@ -16,6 +16,7 @@ from contin import InputError
 
 from ..models._caution import CAUTION
 from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
+from ._cli_sweep import add_sweep_options, sweep_command
 from ..models._components import all_components, custom_component, load_components, lookup
 from ..models._eos import FAMILIES, family
 from ..curves._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
@@ -71,10 +72,12 @@ def register(subparsers) -> None:
         epilog="examples:\n"
                "  contin thermo saturation --fluid propane --eos pr --at-pressures '1 atm' --plot propane.png\n"
                "  contin thermo saturation --tc 431.2 --pc 39.7bar --omega 0.21 --name blend-A --eos srk --json\n"
-               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature=-40degC --units degC-bar",
+               "  contin thermo saturation --fluid CO2 --eos pr --from-temperature=-40degC --units degC-bar\n"
+               "  contin thermo saturation --fluid propane --eos pr --sweep 'omega:propane=0.14,0.15,0.16'",
     )
     _add_fluid_options(saturation)
     _add_range_options(saturation)
+    add_sweep_options(saturation, ("Tc", "Pc", "omega"))
     saturation.set_defaults(handler=run_pure, curve="saturation")
     spinodal = commands.add_parser(
         "spinodal", help="liquid and vapour spinodals up to the critical point",
@@ -265,6 +268,11 @@ def run_pure(args) -> int:
             fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
     else:
         pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+        swept = sweep_command(args, {"command": "saturation", "eos": fluid.family.name,
+                                     "components": [component_data(fluid.component)], "from_temperature": start,
+                                     "at_temperatures": temperatures, "at_pressures": pressures})
+        if swept is not None:
+            return swept
         trace = lambda progress: saturation_curve(  # noqa: E731
             fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures, on_point=progress)
     result = with_progress(args, f"{args.curve} of {fluid.component.name}", lambda x: f"T = {x[-1] * tc:.6g} K", trace)

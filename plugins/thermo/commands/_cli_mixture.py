@@ -144,7 +144,9 @@ _EXAMPLES = {
                 "--eos pr --plot envelope.png\n"
                 "  contin thermo envelope --mixture 'methane=0.7,carbon dioxide=0.2,n-hexane=0.1' --kij "
                 "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units degC-bar --csv env.csv\n"
-                "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json",
+                "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json\n"
+                "  contin thermo envelope --mixture 'methane=0.8,ethane=0.1,propane=0.1' --eos pr "
+                "--sweep 'kij:methane-propane=0,0.02,0.04' --workers 2 --out kij-sweep",
     "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
            "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
     "txy": "examples:\n  contin thermo txy --mixture 'propane,n-butane' --pressure '5 bar' --eos pr --plot txy.png\n"
@@ -156,6 +158,7 @@ def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
     from ..models._caution import CAUTION
     from ._cli_common import add_output_options
+    from ._cli_sweep import KINDS, add_sweep_options
 
     envelope = thermo_subparsers.add_parser(
         "envelope", help="phase envelope of a mixture", epilog=_EXAMPLES["envelope"],
@@ -164,6 +167,7 @@ def register(thermo_subparsers) -> None:
                     "to the bubble point; check every point for stability. " + CAUTION)
     _common(envelope)
     add_output_options(envelope)
+    add_sweep_options(envelope, tuple(KINDS))
     envelope.add_argument("--from-pressure", default="1e5", metavar="PA",
                           help="pressure of the low-pressure dew and bubble points (default 1e5 Pa; units "
                                "such as '1 bar' or '100 kPa' allowed)")
@@ -179,6 +183,7 @@ def register(thermo_subparsers) -> None:
                         "reported. " + CAUTION)
         _common(parser, fractions=False)
         add_output_options(parser)
+        add_sweep_options(parser, tuple(KINDS))
         parser.add_argument(option, required=True, metavar=unit,
                             help=f"fixed {option[2:]} ({unit} if bare; with a unit, e.g. {example})")
         parser.add_argument("--plot", default=None, metavar="FILE", help=f"draw the {name} diagram")
@@ -215,6 +220,11 @@ def run_envelope(args) -> int:
         for q in parts:
             quality.append(parse_number(q, "--quality"))
     from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+    from ._cli_sweep import sweep_command
+
+    swept = sweep_command(args, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality})
+    if swept is not None:
+        return swept
     n = mixture.size
     envelope = with_progress(
         args, "envelope", lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa",
@@ -239,6 +249,11 @@ def run_binary(args) -> int:
         fixed = parse_temperature(args.temperature, "--temperature")
     else:
         fixed = parse_pressure(args.pressure, "--pressure")
+    from ._cli_sweep import sweep_command
+
+    swept = sweep_command(args, {**_mixture_input(args, mixture), "command": args.diagram, "fixed": fixed})
+    if swept is not None:
+        return swept
     diagram_of = pxy if args.diagram == "pxy" else txy
     diagram = with_progress(args, args.diagram, lambda x: f"x1 = {x[-1]:.6g}",
                             lambda progress: diagram_of(mixture, fixed, on_point=progress))

@@ -38,7 +38,8 @@ from contin import InputError
 from ..models._caution import CAUTION
 from ..models._mixture import Mixture
 
-__all__ = ["EnvelopeSystem", "Envelope", "QualityLine", "trace_envelope", "dew_point", "ENVELOPE_UNITS"]
+__all__ = ["EnvelopeSystem", "Envelope", "QualityLine", "trace_envelope", "dew_point", "start_coordinates",
+           "ENVELOPE_UNITS"]
 
 #: Units of the envelope columns (files and JSON are in SI units).
 ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": ""}
@@ -223,6 +224,19 @@ def _newton(system: EnvelopeSystem, x: np.ndarray, fixed: int, value: float, *, 
 def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.0) -> np.ndarray:
     """Start coordinates (u, ln P) of the envelope (beta = 1: dew point) or a quality line at ``pressure``.
 
+    See :func:`_start_point` (which also counts the Newton iterations).
+    """
+    return _start_point(mixture, z, pressure, beta)[0]
+
+
+def _start_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.0,
+                 guess: Sequence[float] | None = None) -> tuple[np.ndarray, int]:
+    """Start coordinates (u, ln P) at ``pressure`` and the Newton iterations spent on them.
+
+    With ``guess`` (the envelope's start coordinates for a nearby model, e.g. a neighbouring sweep
+    run's), Newton starts from it; only if it does not converge to a non-trivial point do Wilson's
+    K-values below give the start.
+
     Wilson's K-values give the temperature where the Rachford-Rice condition holds at vapour
     fraction ``beta`` (for the dew point: sum z_i / K_i = 1); Newton on the full system then refines
     it. For the envelope (``beta = 1``) the unknowns describe the incipient liquid over the vapour
@@ -233,6 +247,15 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
             does not converge (name the pressure, suggest another ``--from-pressure``).
     """
     z = np.asarray(z, dtype=float)
+    n = mixture.size
+    if guess is not None and beta >= 1.0 and len(guess) == n + 4 and np.all(np.isfinite(guess)):
+        system = EnvelopeSystem(mixture, z, 0.0)
+        x, _, ok = _newton(system, np.array(guess, dtype=float), n + 3, math.log(pressure))
+        if ok and not (float(np.max(np.abs(x[:n]))) < 1e-4 and abs(x[n + 1] - x[n + 2]) < 1e-3):
+            return x, system.evaluations
+        spent = system.evaluations
+    else:
+        spent = 0
 
     def condition(lnT: float) -> float:
         K = mixture.wilson(math.exp(lnT), pressure)
@@ -269,7 +292,6 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
         v_incipient = mixture.volume(T, pressure, y, "vapour") * float(y.sum())
     x0 = np.concatenate([lnK, [lnT, math.log(v_feed), math.log(v_incipient), math.log(pressure)]])
     x, norm, ok = _newton(system, x0, x0.size - 1, math.log(pressure))
-    n = mixture.size
     if not ok and beta >= 1.0:
         # Wilson's K-values were too far off for Newton: refine them by successive substitution first.
         refined = _dew_by_substitution(mixture, z, pressure, T, K)
@@ -282,7 +304,7 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
             f"--from-pressure {pressure:g} Pa: no two-phase point found from Wilson's K-values "
             f"(residual {norm:.2g}); try another pressure"
         )
-    return x
+    return x, spent + system.evaluations
 
 
 def _dew_by_substitution(mixture: Mixture, z: np.ndarray, pressure: float, T: float, K: np.ndarray,
@@ -591,6 +613,7 @@ def trace_envelope(
     check_stability: bool = True,
     max_points: int = 2000,
     on_point=None,
+    start: Sequence[float] | None = None,
 ) -> Envelope:
     """Trace the phase envelope of feed ``z`` from the dew point at ``from_pressure`` to the bubble point.
 
@@ -611,6 +634,9 @@ def trace_envelope(
         check_stability: run Michelsen's tangent-plane test at every point (``stable`` column).
         max_points: most points on the branch.
         on_point: passed to :func:`contin.trace` (e.g. a :class:`contin.Progress`).
+        start: a guess of the start coordinates (ln K, ln T, ln V_feed, ln V_incipient, ln P), e.g.
+            :func:`start_coordinates` of a neighbouring envelope; Wilson's K-values if None or if
+            Newton does not converge from it. ``stats["start_newton_iterations"]`` counts the cost.
 
     Returns:
         An :class:`Envelope`.
@@ -628,7 +654,7 @@ def trace_envelope(
     betas = _check_quality(quality)
     n = mixture.size
     system = EnvelopeSystem(mixture, z, 0.0)
-    x0 = dew_point(mixture, z, float(from_pressure))
+    x0, start_iterations = _start_point(mixture, z, float(from_pressure), guess=start)
     lnP0 = math.log(from_pressure)
     setup = time.perf_counter() - began
     if float(np.max(np.abs(x0[:n]))) < 1e-8:
@@ -652,6 +678,7 @@ def trace_envelope(
     stats = {k: v for k, v in branch.stats.items() if isinstance(v, (int, float))}
     stats.update(setup_seconds=setup + float(branch.stats.get("setup_seconds", 0.0)),
                  trace_seconds=traced - began - setup, stability_seconds=stability_seconds, points=len(rows),
+                 start_newton_iterations=start_iterations,
                  jacobian_evaluations=system.evaluations,
                  jacobian_evaluations_per_point=system.evaluations / max(1, len(rows) - 1))
     return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
@@ -872,6 +899,22 @@ def _quality_line(mixture: Mixture, z: np.ndarray, beta: float, pressure: float,
         return QualityLine(beta, T, P, "critical_not_located",
                            "stopped near the critical point, which the envelope did not locate")
     return QualityLine(beta, T, P, branch.status.label, branch.message)
+
+
+def start_coordinates(document: dict) -> list[float] | None:
+    """The start coordinates (ln K, ln T, ln V_feed, ln V_incipient, ln P) of an envelope's JSON document
+    (its first row, the dew point at the start pressure), or None when it has no rows; a start guess
+    for the envelope of a nearby model (``trace_envelope(start=...)``)."""
+    rows, columns = document.get("points") or [], list(document.get("columns") or [])
+    if not rows or "T" not in columns:
+        return None
+    row = dict(zip(columns, rows[0]))
+    K = np.array([row[c] for c in columns if c.startswith("K_")], dtype=float)
+    z = np.array(document.get("feed") or [], dtype=float)
+    if K.size == 0 or K.size != z.size:
+        return None
+    return [*np.log(K), math.log(row["T"]), math.log(row["v_feed"]), math.log(row["v_incipient"] * float(K @ z)),
+            math.log(row["P"])]
 
 
 def _check_feed(mixture: Mixture, z) -> np.ndarray:
