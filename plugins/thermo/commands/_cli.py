@@ -90,11 +90,16 @@ def register(subparsers) -> None:
         description="Solve dP/dv = d2P/dv2 = 0 for a pure fluid; with --mixture, a mixture critical point. "
                     + CAUTION,
         epilog="examples:\n  contin thermo critical --fluid ethane --eos pr\n"
-               "  contin thermo critical --mixture 'methane=0.7,ethane=0.2,propane=0.1' --eos srk --json",
+               "  contin thermo critical --mixture 'methane=0.7,ethane=0.2,propane=0.1' --eos srk --json\n"
+               "  contin thermo critical --feed analysis.csv --eos pr --kij defaults,methane-ethane=0.005",
     )
     _add_fluid_options(critical)
     critical.add_argument("--mixture", metavar="NAME=X,...", help="mixture composition (mixture critical point)")
-    critical.add_argument("--kij", metavar="A-B=K,...", help="binary interaction parameters (with --mixture)")
+    critical.add_argument("--feed", metavar="FILE", help="a laboratory analysis (.csv or .toml) whose plus fraction "
+                                                         "is characterised (mixture critical point)")
+    critical.add_argument("--kij", metavar="defaults|none,A-B=K,...",
+                          help="interaction parameters (with --mixture or --feed): defaults (the default with "
+                               "--feed) or none (the default with --mixture), then pairs overriding single values")
     critical.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                           help="an extra component for --mixture (repeatable)")
     critical.add_argument("--normalise", action="store_true",
@@ -272,13 +277,14 @@ def run_pure(args) -> int:
 
 
 def _run_critical(args) -> int:
-    if args.mixture is not None:
+    if args.mixture is not None or args.feed is not None:
         module = _mixture_module()
         if module is None or not hasattr(module, "run_critical"):
             raise InputError("--mixture needs the mixture commands, which are not installed in this version")
         return int(module.run_critical(args) or 0)
     if args.kij is not None or args.component or args.normalise:
-        raise InputError("--kij, --component and --normalise apply to mixtures only; add --mixture, or drop them")
+        raise InputError("--kij, --component and --normalise apply to mixtures only; add --mixture or --feed, "
+                         "or drop them")
     if args.eos is None:
         raise InputError("--eos is required: choose vdw, rk, srk or pr")
     return run_pure(args)

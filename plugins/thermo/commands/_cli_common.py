@@ -100,10 +100,11 @@ def with_progress(args: argparse.Namespace, label: str, describe: Callable, run:
 
 
 def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, record_input: Mapping,
-         options: Mapping) -> int:
+         options: Mapping, document_extra: Mapping | None = None) -> int:
     """Every tracing command's outputs, in one order: CSV (in ``--units``), plot, run record, then
-    the JSON document or the summary on stdout. Returns the exit status (0 success, 1 not)."""
-    document = result.to_dict()
+    the JSON document (with ``document_extra`` added) or the summary on stdout. Returns the exit
+    status (0 success, 1 not)."""
+    document = {**result.to_dict(), **(document_extra or {})}
     queue(args, "csv", lambda path: result.to_csv(path, units=args.units))
     if plot is not None:
         queue(args, "plot", lambda path: plot(result, path))

@@ -9,7 +9,7 @@ import numpy as np
 
 from contin import InputError
 
-__all__ = ["register", "run_critical", "parse_mixture", "parse_kij", "build_mixture"]
+__all__ = ["register", "run_critical", "parse_mixture", "parse_kij", "kij_request", "build_mixture"]
 
 
 def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bool = True):
@@ -65,35 +65,79 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
     return components, z / z.sum()
 
 
+def kij_request(text: str | None, base: str) -> tuple[str, list]:
+    """(base, pairs) from ``--kij``: an optional first word ``defaults`` or ``none`` (else ``base``),
+    then ``NAME-NAME=VALUE`` pairs that override single pairs of the base.
+
+    Raises:
+        InputError: a malformed entry (the pairs are checked against the mixture later).
+    """
+    from ..models._units import parse_number
+
+    from ..models._kij import KIJ_BASES
+
+    parts = [p.strip() for p in str(text or "").split(",") if p.strip()]
+    if parts and parts[0] in KIJ_BASES:
+        base, parts = parts[0], parts[1:]
+    items = []
+    for part in parts:
+        if "=" not in part:
+            raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01' (only "
+                             "the first entry may be the word defaults or none)")
+        pair, value = part.rsplit("=", 1)
+        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
+    return base, items
+
+
 def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
     """Symmetric kij matrix from ``"methane-ethane=0.01,..."``; zero for pairs not given.
 
-    The text is split into (pair, value) items here; the pairs are read by the model layer's
-    :func:`contin_thermo.models._kij.kij_matrix` (hyphenated names such as ``n-butane`` work).
+    The pairs are read by the model layer's :func:`contin_thermo.models._kij.kij_matrix` (hyphenated
+    names such as ``n-butane`` work).
 
     Raises:
         InputError: a malformed entry, a pair not in the mixture, a value outside (-1, 1), a pair of
             a component with itself, a pair given twice.
     """
     from ..models._kij import kij_matrix
-    from ..models._units import parse_number
 
-    items = []
-    for part in [p.strip() for p in str(text or "").split(",") if p.strip()]:
-        if "=" not in part:
-            raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
-        pair, value = part.rsplit("=", 1)
-        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
-    return kij_matrix(items, list(names), extra, argument="--kij")
+    return kij_matrix(kij_request(text, "none")[1], list(names), extra, argument="--kij")
+
+
+def _feed_components(args, extra, *, fractions: bool):
+    """(components, z) of ``--feed``: its plus fraction characterised, or its named components as they are."""
+    from ..models._characterise import _PLUS, characterise
+    from ..models._components import lookup
+    from ..models._feed import read_feed
+
+    rows = read_feed(args.feed)
+    normalise = bool(getattr(args, "normalise", False))
+    plus = [row for row in rows if _PLUS.match(row["name"])]
+    if plus and not fractions:
+        raise InputError(f"--feed {args.feed!r}: {args.diagram} needs a binary of two named components, but the feed "
+                         f"holds the plus fraction {plus[0]['name']!r} ({plus[0]['line']}); trace its envelope with "
+                         "'contin thermo envelope --feed', or write a feed of two components")
+    if plus:
+        characterised = characterise([{k: v for k, v in row.items() if k != "line"} for row in rows],
+                                     normalise=normalise, extra=extra)
+        return list(characterised.components), np.array(characterised.z, dtype=float)
+    components = [lookup(row["name"], extra, argument=row["line"]) for row in rows]
+    if not fractions and len(components) != 2:
+        raise InputError(f"--feed {args.feed!r}: {args.diagram} needs a binary, but the feed holds {len(components)} "
+                         "components; write a feed of two components")
+    text = ",".join(f"{c.name}={row['z']!r}" for c, row in zip(components, rows))
+    return parse_mixture(text, tuple(extra) + tuple(components), normalise=normalise or not fractions,
+                         fractions=True)
 
 
 def build_mixture(args, *, fractions: bool = True):
-    """(Mixture, z) from parsed arguments (``mixture``, ``kij``, ``component``, ``eos``, ``normalise``)."""
-    from ..models._components import parse_component
+    """(Mixture, z) from parsed arguments (``mixture`` or ``feed``, ``kij``, ``component``, ``eos``,
+    ``normalise``). ``--kij`` starts from the default table for a feed and from zeros for ``--mixture``;
+    every pair used, with its source, is kept on ``args.kij_used`` for the run record and JSON."""
+    from ..models._components import load_components, parse_component
     from ..models._eos import family
+    from ..models._kij import resolve_kij
     from ..models._mixture import Mixture
-
-    from ..models._components import load_components
 
     extra = tuple(parse_component(text) for text in (getattr(args, "component", None) or []))
     for k, component in enumerate(extra):
@@ -103,32 +147,33 @@ def build_mixture(args, *, fractions: bool = True):
     if getattr(args, "components_file", None):
         extra += tuple(c for c in load_components(args.components_file)
                        if not any(c.name == e.name for e in extra))
-    if getattr(args, "feed", None) is not None:
-        # A laboratory analysis: its plus fraction split and lumped into pseudo-components.
-        from ..models._characterise import characterise
-        from ..models._feed import read_feed
-
-        rows = [{key: value for key, value in row.items() if key != "line"} for row in read_feed(args.feed)]
-        characterised = characterise(rows, normalise=bool(getattr(args, "normalise", False)), extra=extra)
-        components, z = list(characterised.components), np.array(characterised.z, dtype=float)
+    feed = getattr(args, "feed", None) is not None
+    if feed:
+        components, z = _feed_components(args, extra, fractions=fractions)
         extra = extra + tuple(c for c in components if not any(c.name == e.name for e in extra))
     else:
         components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
                                       fractions=fractions)
-    kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
-    return Mixture(tuple(components), family(args.eos), kij), z
+    base, pairs = kij_request(getattr(args, "kij", None), "defaults" if feed else "none")
+    kij = resolve_kij(components, args.eos, base, pairs, extra, argument="--kij")
+    args.kij_used = kij.pairs()
+    return Mixture(tuple(components), family(args.eos), kij.matrix), (z if fractions else None)
+
+
+_KIJ_HELP = ("interaction parameters: 'defaults' (the published table and Chueh-Prausnitz for methane with heavy "
+             "ends; the default with --feed) or 'none' (all 0; the default with --mixture), then pairs that "
+             "override single values, e.g. 'defaults,methane-ethane=0.01' or 'methane-ethane=0.01'")
 
 
 def _common(parser, *, fractions: bool = True) -> None:
-    if fractions:
-        source = parser.add_mutually_exclusive_group(required=True)
-        source.add_argument("--mixture", help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'")
-        source.add_argument("--feed", metavar="FILE",
-                            help="a laboratory analysis (.csv or .toml) whose plus fraction is characterised "
-                                 "(see contin thermo characterise), e.g. --feed analysis.csv")
-    else:
-        parser.add_argument("--mixture", required=True, help="the two components, e.g. 'propane,n-butane'")
-    parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
+    source = parser.add_mutually_exclusive_group(required=True)
+    source.add_argument("--mixture", help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'" if fractions
+                        else "the two components, e.g. 'propane,n-butane'")
+    source.add_argument("--feed", metavar="FILE",
+                        help="a laboratory analysis (.csv or .toml) whose plus fraction is characterised "
+                             "(see contin thermo characterise), e.g. --feed analysis.csv" if fractions else
+                             "a feed file (.csv or .toml) of the two components (amounts are not used)")
+    parser.add_argument("--kij", default=None, help=_KIJ_HELP)
     parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                         help="a user component (K, Pa); repeatable")
     parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state: srk or pr")
@@ -185,13 +230,18 @@ def register(thermo_subparsers) -> None:
         parser.set_defaults(handler=run_binary, diagram=name)
 
 
+def kij_used(args) -> list:
+    """Every kij pair used by the last :func:`build_mixture` on ``args``, with its source."""
+    return list(getattr(args, "kij_used", []))
+
+
 def _mixture_input(args, mixture, z=None) -> dict:
     """What a run record keeps of a mixture command: components as used, kij, feed, model."""
     from ._cli_common import component_data
 
     data = {"command": getattr(args, "thermo_command", None), "eos": mixture.family.name,
             "components": [component_data(c) for c in mixture.components],
-            "kij": [[float(v) for v in row] for row in mixture.kij]}
+            "kij": [[float(v) for v in row] for row in mixture.kij], "kij_pairs": kij_used(args)}
     if z is not None:
         data["feed"] = [float(v) for v in z]
     return data
@@ -224,7 +274,7 @@ def run_envelope(args) -> int:
 
     return emit(args, envelope, "\n".join(envelope.summary(args.units)), plot_envelope,
                 {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
-                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
 
 def run_binary(args) -> int:
@@ -246,7 +296,7 @@ def run_binary(args) -> int:
 
     return emit(args, diagram, "\n".join(diagram.summary(args.units)), plot_binary,
                 {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
-                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
 
 def run_critical(args) -> int:
@@ -264,6 +314,8 @@ def run_critical(args) -> int:
     if getattr(args, "plot", None) is not None:
         raise InputError("--plot draws curves; a mixture critical point is one point: drop --plot, or use "
                          "'contin thermo envelope' for a picture")
+    if getattr(args, "mixture", None) is not None and getattr(args, "feed", None) is not None:
+        raise InputError("--mixture and --feed cannot be combined: give the mixture one way")
     if getattr(args, "fluid", None) is not None:
         raise InputError("--fluid and --mixture cannot be combined: --fluid names one fluid, --mixture a mixture")
     own = [f"--{name.replace('_', '-')}" for name in ("tc", "pc", "omega", "from_temperature",
@@ -287,7 +339,8 @@ def run_critical(args) -> int:
     document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
                                     [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
                                                          "newton_iterations": 0, "jacobian_evaluations": 0},
-                                    caution=CAUTION, model=mixture.family.label)
+                                    caution=CAUTION, model=mixture.family.label,
+                                    components=list(mixture.names), feed=[float(v) for v in z], kij=kij_used(args))
     write_run_record(args, document, _mixture_input(args, mixture, z))
     finish(args)
     if getattr(args, "json", False):
