@@ -7,6 +7,7 @@ every kij used is listed with its source in the JSON output and the run record.
 from __future__ import annotations
 
 import json
+import pathlib
 
 import numpy as np
 import pytest
@@ -27,12 +28,7 @@ ethane, 6.0
 C7+, 4.0, molar_mass=160.0, specific_gravity=0.80
 """
 # A lighter invented analysis: its critical point is found with the default kij too.
-LIGHT = """carbon dioxide, 5
-methane, 60
-ethane, 12
-propane, 15
-C7+, 8, molar_mass=110, specific_gravity=0.74
-"""
+LIGHT = pathlib.Path(__file__).parent / "data" / "light_analysis.csv"
 LIGHT_ROWS = [("carbon dioxide", 0.05), ("methane", 0.60), ("ethane", 0.12), ("propane", 0.15), ("C7+", 0.08, 110.0, 0.74)]
 BINARY = "propane, 40\nn-butane, 60\n"
 
@@ -86,7 +82,7 @@ def test_binary_diagrams_refuse_a_plus_fraction_or_three_components(tmp_path, ca
 
 
 def test_a_feed_takes_the_default_kij_with_sources_and_user_pairs_override_them(tmp_path, capsys):
-    feed = _write(tmp_path, "gas.csv", LIGHT)
+    feed = str(LIGHT)
     record = tmp_path / "run.json"
     document = _json(capsys, ["thermo", "critical", "--feed", feed, "--eos", "pr", "--json", "--record", str(record),
                               "--kij", "methane-ethane=0.005"])
@@ -107,7 +103,7 @@ def test_a_feed_takes_the_default_kij_with_sources_and_user_pairs_override_them(
 
 
 def test_kij_none_and_the_mixture_default(tmp_path, capsys):
-    feed = _write(tmp_path, "gas.csv", LIGHT)
+    feed = str(LIGHT)
     document = _json(capsys, ["thermo", "critical", "--feed", feed, "--eos", "srk", "--json",
                               "--kij", "none,carbon dioxide-methane=0.09"])
     sources = {(p["component_1"], p["component_2"]): (p["kij"], p["source"]) for p in document["kij"]}

@@ -15,7 +15,8 @@ import warnings
 from contin import InputError
 
 from ..models._caution import CAUTION
-from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
+from ._cli_common import (add_output_options, add_translation_option, check_destinations, component_data, emit,
+                          translation, with_progress, with_translation_line)
 from ..models._components import all_components, custom_component, load_components, lookup
 from ..models._eos import FAMILIES, family
 from ..curves._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
@@ -43,6 +44,7 @@ def _add_fluid_options(parser: argparse.ArgumentParser, *, eos_required: bool = 
     parser.add_argument("--json", action="store_true", help="print one JSON object (always SI units) instead of a summary")
     parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (in the --units set, caution in the header)")
     parser.add_argument("--plot", metavar="FILE", help="draw P-T and T-rho diagrams into FILE (PNG, PDF, SVG)")
+    add_translation_option(parser)
     add_output_options(parser)
 
 
@@ -235,12 +237,16 @@ def _summary(result: CurveResult, units: str = "si") -> str:
         lines.append(f"  at       : {_format_row(result.columns, row)}")
     lines.append("  units    : " + ", ".join(f"{col} [{names[col] or '-'}]" for col in result.columns))
     lines.append(CAUTION)
-    return "\n".join(lines)
+    return "\n".join(with_translation_line(lines, result.stats))
 
 
 def _emit(result: CurveResult, args) -> int:
     import inspect
 
+    if translation(args) is not None:
+        from ..models._translation import translate_curve
+
+        result = translate_curve(result, **translation(args))
     from ..reports._plot_pure import plot_pure
 
     defaults = {name: parameter.default for name, parameter in

@@ -13,7 +13,7 @@ from contin.base import fill_text
 
 from ..models._units import UNIT_SYSTEMS_HELP, output_units
 
-__all__ = ["add_units_option", "add_output_options", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+__all__ = ["add_units_option", "add_output_options", "add_translation_option", "translation", "with_translation_line", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
            "queue", "finish"]
 
 
@@ -32,6 +32,43 @@ def add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")
 
 
+def add_translation_option(parser: argparse.ArgumentParser) -> None:
+    """Add ``--volume-translation [CORRELATION]`` (Peneloux-type shifts; equilibrium unchanged)."""
+    parser.add_argument("--volume-translation", nargs="?", const="default", default=None, metavar="CORRELATION",
+                        help="move volumes and densities by Peneloux-type shifts (temperatures, pressures and "
+                             "K-values unchanged): srk peneloux; pr jhaveri-youngren (default) or peneloux")
+
+
+def translation(args: argparse.Namespace) -> dict | None:
+    """The keyword arguments of a translation if ``--volume-translation`` was given, else None.
+
+    Raises:
+        InputError: an equation of state without shifts, or a correlation that is not one of its own.
+    """
+    from ..models._translation import CORRELATIONS
+
+    value = getattr(args, "volume_translation", None)
+    if value is None:
+        return None
+    eos = str(getattr(args, "eos", ""))
+    if eos not in CORRELATIONS:
+        raise InputError(f"--volume-translation with --eos {eos}: shifts are defined for srk and pr only; choose "
+                         "one of them or drop --volume-translation")
+    if value != "default" and value not in CORRELATIONS[eos]:
+        raise InputError(f"--volume-translation {value}: not a correlation for {eos}; choose "
+                         f"{' or '.join(CORRELATIONS[eos])}")
+    return {"correlation": None if value == "default" else value}
+
+
+def with_translation_line(lines: list[str], stats: Mapping) -> list[str]:
+    """Summary lines with a line saying volumes are translated (before the closing caution), if they are."""
+    if "volume_translation" not in stats:
+        return lines
+    note = ("  volumes  : translated (Peneloux-type shifts, see the JSON stats for each shift and its source); "
+            "temperatures and pressures are those of the untranslated equation")
+    return [*lines[:-1], note, lines[-1]]
+
+
 def check_destinations(args: argparse.Namespace):
     """Check every output file (--csv, --plot, --record) before any work: a regular file or a new
     name in a writable folder, a plot of a known format. Keeps the checked targets on ``args``."""
@@ -46,6 +83,7 @@ def check_destinations(args: argparse.Namespace):
     if plot is not None and Path(plot).suffix.lower() not in (".png", ".svg", ".pdf"):
         raise InputError(f"--plot {plot!r} must end in .png, .svg or .pdf")
     output_units(getattr(args, "units", "si"))
+    translation(args)  # checked before any work
     args.outputs = outputs
     return outputs
 

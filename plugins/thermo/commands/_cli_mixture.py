@@ -120,6 +120,7 @@ def _feed_components(args, extra, *, fractions: bool):
     if plus:
         characterised = characterise([{k: v for k, v in row.items() if k != "line"} for row in rows],
                                      normalise=normalise, extra=extra)
+        args.molar_masses = characterised.molar_masses
         return list(characterised.components), np.array(characterised.z, dtype=float)
     components = [lookup(row["name"], extra, argument=row["line"]) for row in rows]
     if not fractions and len(components) != 2:
@@ -200,7 +201,7 @@ _EXAMPLES = {
 def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
     from ..models._caution import CAUTION
-    from ._cli_common import add_output_options
+    from ._cli_common import add_output_options, add_translation_option
 
     envelope = thermo_subparsers.add_parser(
         "envelope", help="phase envelope of a mixture", epilog=_EXAMPLES["envelope"],
@@ -208,6 +209,7 @@ def register(thermo_subparsers) -> None:
                     "--from-pressure through the cricondentherm, the critical point and the cricondenbar "
                     "to the bubble point; check every point for stability. " + CAUTION)
     _common(envelope)
+    add_translation_option(envelope)
     add_output_options(envelope)
     envelope.add_argument("--from-pressure", default="1e5", metavar="PA",
                           help="pressure of the low-pressure dew and bubble points (default 1e5 Pa; units "
@@ -223,6 +225,7 @@ def register(thermo_subparsers) -> None:
                         "component to the other or to where the two-phase region closes; azeotropes are "
                         "reported. " + CAUTION)
         _common(parser, fractions=False)
+        add_translation_option(parser)
         add_output_options(parser)
         parser.add_argument(option, required=True, metavar=unit,
                             help=f"fixed {option[2:]} ({unit} if bare; with a unit, e.g. {example})")
@@ -247,9 +250,20 @@ def _mixture_input(args, mixture, z=None) -> dict:
     return data
 
 
+def _translated(args, result, z=None):
+    """``result`` with Peneloux-type volume shifts if ``--volume-translation`` was given."""
+    from ._cli_common import translation
+    from ..models._translation import translate_mixture_result
+
+    options = translation(args)
+    if options is None:
+        return result
+    return translate_mixture_result(result, z, molar_masses=getattr(args, "molar_masses", None), **options)
+
+
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
-    from ._cli_common import check_destinations, emit, with_progress
+    from ._cli_common import check_destinations, emit, with_progress, with_translation_line
     from ..curves._envelope import trace_envelope
     from ..models._units import parse_pressure
 
@@ -272,7 +286,9 @@ def run_envelope(args) -> int:
     from ..curves._envelope import _MAX_STEP, _STEP, _TOLERANCE
     from ..reports._plot_envelope import plot_envelope
 
-    return emit(args, envelope, "\n".join(envelope.summary(args.units)), plot_envelope,
+    envelope = _translated(args, envelope, z)
+    return emit(args, envelope, "\n".join(with_translation_line(envelope.summary(args.units), envelope.stats)),
+                plot_envelope,
                 {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
                 {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
@@ -280,7 +296,7 @@ def run_envelope(args) -> int:
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ..curves._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
-    from ._cli_common import check_destinations, emit, with_progress
+    from ._cli_common import check_destinations, emit, with_progress, with_translation_line
     from ..models._units import parse_pressure, parse_temperature
 
     check_destinations(args)
@@ -294,7 +310,9 @@ def run_binary(args) -> int:
                             lambda progress: diagram_of(mixture, fixed, on_point=progress))
     from ..reports._plot_envelope import plot_binary
 
-    return emit(args, diagram, "\n".join(diagram.summary(args.units)), plot_binary,
+    diagram = _translated(args, diagram)
+    return emit(args, diagram, "\n".join(with_translation_line(diagram.summary(args.units), diagram.stats)),
+                plot_binary,
                 {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
                 {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
@@ -329,6 +347,16 @@ def run_critical(args) -> int:
     point = critical_point(mixture, z)
     columns = ("T", "P", "v")
     row = [point.T, float(point.P), point.v]
+    stats = {"setup_seconds": 0.0, "trace_seconds": 0.0, "newton_iterations": 0, "jacobian_evaluations": 0}
+    from ._cli_common import translation
+
+    if translation(args) is not None:
+        from ..models._translation import volume_shifts
+
+        shifts = volume_shifts(mixture.components, mixture.family.name, molar_masses=getattr(args, "molar_masses", None),
+                               **translation(args))
+        row[2] -= shifts.of(z)
+        stats["volume_translation"] = shifts.as_dict()
     special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
                 "info": {"eigenvalue": point.eigenvalue, "cubic_form": point.cubic}}]
     shown = output_units(getattr(args, "units", "si"))
@@ -337,8 +365,7 @@ def run_critical(args) -> int:
                     notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
     queue(args, "csv", lambda path: fill_text(path, text))
     document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
-                                    [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
-                                                         "newton_iterations": 0, "jacobian_evaluations": 0},
+                                    [row], special, [], stats,
                                     caution=CAUTION, model=mixture.family.label,
                                     components=list(mixture.names), feed=[float(v) for v in z], kij=kij_used(args))
     write_run_record(args, document, _mixture_input(args, mixture, z))
@@ -350,5 +377,5 @@ def run_critical(args) -> int:
             ("model", mixture.family.label),
             ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),
             ("P", f"{shown.pressure_from_si(point.P):.6g} {shown.pressure}"),
-            ("v", f"{point.v:.6e} m3/mol")])))
+            ("v", f"{row[2]:.6e} m3/mol" + (" (translated)" if "volume_translation" in stats else ""))])))
     return 0
