@@ -16,7 +16,7 @@ from contin import InputError
 
 from ..models._caution import CAUTION
 from ._cli_common import (add_output_options, add_translation_option, check_destinations, component_data, emit,
-                          translation, with_progress, with_translation_line)
+                          read_quantities, translation, with_progress, with_translation_line)
 from ..models._components import all_components, custom_component, load_components, lookup
 from ..models._eos import FAMILIES, family
 from ..curves._pure import CurveResult, CubicFluid, critical_point, saturation_curve, spinodal_curve
@@ -144,20 +144,14 @@ def _no_subcommand(commands) -> int:
     raise InputError(f"contin thermo needs a subcommand ({names}); see 'contin thermo --help'")
 
 
-def _values(text, kind: str, argument: str) -> list[float]:
-    if text is None:
-        return []
-    from ..models._units import parse_list
-
-    return parse_list(text, kind, argument)
+def _values(args, text, kind: str, argument: str) -> list[float]:
+    return [] if text is None else read_quantities(args, text, kind, argument)
 
 
-def _single(text, kind: str, argument: str):
+def _single(args, text, kind: str, argument: str):
     if text is None:
         return None
-    from ..models._units import parse_quantity
-
-    return parse_quantity(text, kind, argument)
+    return read_quantities(args, text, kind, argument, single=True)[0]
 
 
 def _fluid(args) -> CubicFluid:
@@ -181,7 +175,7 @@ def _fluid(args) -> CubicFluid:
 
         omega = parse_number(args.omega, "--omega")
         component = custom_component(
-            args.name, _single(args.tc, "temperature", "--tc"), _single(args.pc, "pressure", "--pc"), omega,
+            args.name, _single(args, args.tc, "temperature", "--tc"), _single(args, args.pc, "pressure", "--pc"), omega,
             argument="--tc/--pc/--omega",
         )
     else:
@@ -267,15 +261,15 @@ def run_pure(args) -> int:
         print(f"contin: warning: {warning.message}", file=sys.stderr)
     if args.curve == "critical":
         return _emit(critical_point(fluid), args)
-    start = _single(args.from_temperature, "temperature", "--from-temperature")
+    start = _single(args, args.from_temperature, "temperature", "--from-temperature")
     _check_two_phase(fluid, start)
-    temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
+    temperatures = _values(args, args.at_temperatures, "temperature", "--at-temperatures")
     tc = fluid.component.Tc
     if args.curve == "spinodal":
         trace = lambda progress: spinodal_curve(  # noqa: E731
             fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
     else:
-        pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+        pressures = _values(args, args.at_pressures, "pressure", "--at-pressures")
         trace = lambda progress: saturation_curve(  # noqa: E731
             fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures, on_point=progress)
     result = with_progress(args, f"{args.curve} of {fluid.component.name}", lambda x: f"T = {x[-1] * tc:.6g} K", trace)

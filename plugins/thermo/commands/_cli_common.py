@@ -13,7 +13,7 @@ from contin.base import fill_text
 
 from ..models._units import UNIT_SYSTEMS_HELP, output_units
 
-__all__ = ["add_units_option", "add_output_options", "add_translation_option", "translation", "with_translation_line", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+__all__ = ["add_units_option", "add_output_options", "add_translation_option", "translation", "with_translation_line", "read_quantities", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
            "queue", "finish"]
 
 
@@ -30,6 +30,46 @@ def add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--record", metavar="FILE",
                         help="write a run record: the command, component data and kij used, versions, result")
     parser.add_argument("--quiet", action="store_true", help="no progress line on stderr")
+    parser.add_argument("--atmosphere", default="101325", metavar="PA",
+                        help="the atmospheric pressure that gauge pressures (barg, psig, kPag) are above "
+                             "(default 101325 Pa; units allowed, e.g. '0.95 bar')")
+
+
+def _atmosphere(args: argparse.Namespace) -> float:
+    from ..models._units import STANDARD_ATMOSPHERE, gauge_unit, parse_pressure
+
+    text = getattr(args, "atmosphere", None)
+    if text is None:
+        return STANDARD_ATMOSPHERE
+    if gauge_unit(text):
+        raise InputError(f"--atmosphere {text!r}: the atmospheric pressure is absolute; give it in Pa, bar, kPa, "
+                         "psia or atm")
+    return parse_pressure(text, "--atmosphere")
+
+
+def read_quantities(args: argparse.Namespace, text, kind: str, argument: str, *, single: bool = False) -> list[float]:
+    """Comma-separated temperatures (K) or pressures (Pa) of an option (one value if ``single``); each
+    gauge pressure (above ``--atmosphere``) is kept on ``args.gauge_inputs`` so that the summary shows
+    it as absolute."""
+    from ..models._units import gauge_unit, parse_list, parse_quantity
+
+    atmosphere = _atmosphere(args)
+    if single:
+        parts, values = [str(text).strip()], [parse_quantity(text, kind, argument, atmosphere=atmosphere)]
+    else:
+        parts = [p.strip() for p in str(text).split(",") if p.strip()]
+        values = parse_list(text, kind, argument, atmosphere=atmosphere)
+    notes = args.__dict__.setdefault("gauge_inputs", [])
+    for part, value in zip(parts, values):
+        if kind == "pressure" and gauge_unit(part):
+            notes.append(f"{argument} {part} is gauge: {value:.8g} Pa absolute (atmosphere {atmosphere:g} Pa)")
+    return values
+
+
+def _with_gauge_lines(summary: str, args: argparse.Namespace) -> str:
+    lines = summary.split("\n")
+    gauge = [f"  gauge    : {note}" for note in getattr(args, "gauge_inputs", [])]
+    return "\n".join([*lines[:-1], *gauge, lines[-1]]) if gauge else summary
 
 
 def add_translation_option(parser: argparse.ArgumentParser) -> None:
@@ -84,6 +124,7 @@ def check_destinations(args: argparse.Namespace):
         raise InputError(f"--plot {plot!r} must end in .png, .svg or .pdf")
     output_units(getattr(args, "units", "si"))
     translation(args)  # checked before any work
+    _atmosphere(args)
     args.outputs = outputs
     return outputs
 
@@ -143,6 +184,9 @@ def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, 
     the JSON document (with ``document_extra`` added) or the summary on stdout. Returns the exit
     status (0 success, 1 not)."""
     document = {**result.to_dict(), **(document_extra or {})}
+    if getattr(args, "gauge_inputs", None):
+        record_input = {**record_input, "gauge_inputs": list(args.gauge_inputs)}
+    summary = _with_gauge_lines(summary, args)
     queue(args, "csv", lambda path: result.to_csv(path, units=args.units))
     if plot is not None:
         queue(args, "plot", lambda path: plot(result, path))

@@ -263,9 +263,8 @@ def _translated(args, result, z=None):
 
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
-    from ._cli_common import check_destinations, emit, with_progress, with_translation_line
+    from ._cli_common import check_destinations, emit, read_quantities, with_progress, with_translation_line
     from ..curves._envelope import trace_envelope
-    from ..models._units import parse_pressure
 
     check_destinations(args)
     mixture, z = build_mixture(args)
@@ -278,7 +277,7 @@ def run_envelope(args) -> int:
             raise InputError("--quality is empty; give vapour fractions such as 0.1,0.5")
         for q in parts:
             quality.append(parse_number(q, "--quality"))
-    from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+    from_pressure = read_quantities(args, args.from_pressure, "pressure", "--from-pressure", single=True)[0]
     n = mixture.size
     envelope = with_progress(
         args, "envelope", lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa",
@@ -296,15 +295,12 @@ def run_envelope(args) -> int:
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ..curves._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
-    from ._cli_common import check_destinations, emit, with_progress, with_translation_line
-    from ..models._units import parse_pressure, parse_temperature
+    from ._cli_common import check_destinations, emit, read_quantities, with_progress, with_translation_line
 
     check_destinations(args)
     mixture, _ = build_mixture(args, fractions=False)
-    if args.diagram == "pxy":
-        fixed = parse_temperature(args.temperature, "--temperature")
-    else:
-        fixed = parse_pressure(args.pressure, "--pressure")
+    kind, text = ("temperature", args.temperature) if args.diagram == "pxy" else ("pressure", args.pressure)
+    fixed = read_quantities(args, text, kind, f"--{kind}", single=True)[0]
     diagram_of = pxy if args.diagram == "pxy" else txy
     diagram = with_progress(args, args.diagram, lambda x: f"x1 = {x[-1]:.6g}",
                             lambda progress: diagram_of(mixture, fixed, on_point=progress))
