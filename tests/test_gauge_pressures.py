@@ -54,12 +54,15 @@ def test_the_summary_shows_gauge_inputs_as_absolute_and_json_stays_si(capsys, tm
     out = capsys.readouterr().out
     assert "gauge    : --at-pressures 0 barg is gauge: 101325 Pa absolute (atmosphere 101325 Pa)" in out
     assert f"--at-pressures 100 psig is gauge: {100 * PSI + 101325.0:.8g} Pa absolute" in out
+    assert main([*argv, "--units", "degF-psia"]) == 0
+    assert "--at-pressures 100 psig is gauge: 114.69595 psia absolute (atmosphere 101325 Pa)" in capsys.readouterr().out
     record = tmp_path / "run.json"
     assert main([*argv, "--json", "--record", str(record)]) == 0
     document = json.loads(capsys.readouterr().out)
     P = [row[document["columns"].index("P")] for row in document["at"]]
     assert P == pytest.approx([101325.0, 100 * PSI + 101325.0], rel=1e-9)
-    assert len(json.loads(record.read_text())["input"]["gauge_inputs"]) == 2
+    assert json.loads(record.read_text())["input"]["gauge_inputs"][1] == {
+        "option": "--at-pressures", "given": "100 psig", "absolute_Pa": 100 * PSI + 101325.0, "atmosphere_Pa": 101325.0}
 
 
 @pytest.mark.parametrize("argv, message", [

@@ -62,13 +62,15 @@ def read_quantities(args: argparse.Namespace, text, kind: str, argument: str, *,
     notes = args.__dict__.setdefault("gauge_inputs", [])
     for part, value in zip(parts, values):
         if kind == "pressure" and gauge_unit(part):
-            notes.append(f"{argument} {part} is gauge: {value:.8g} Pa absolute (atmosphere {atmosphere:g} Pa)")
+            notes.append({"option": argument, "given": part, "absolute_Pa": value, "atmosphere_Pa": atmosphere})
     return values
 
 
 def _with_gauge_lines(summary: str, args: argparse.Namespace) -> str:
     lines = summary.split("\n")
-    gauge = [f"  gauge    : {note}" for note in getattr(args, "gauge_inputs", [])]
+    shown = output_units(getattr(args, "units", "si"))
+    gauge = [f"  gauge    : {n['option']} {n['given']} is gauge: {shown.pressure_from_si(n['absolute_Pa']):.8g} "
+             f"{shown.pressure} absolute (atmosphere {n['atmosphere_Pa']:g} Pa)" for n in getattr(args, "gauge_inputs", [])]
     return "\n".join([*lines[:-1], *gauge, lines[-1]]) if gauge else summary
 
 
