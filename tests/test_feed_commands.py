@@ -135,3 +135,15 @@ def test_mixture_and_feed_together_are_refused(tmp_path, capsys):
     feed = _write(tmp_path, "gas.csv", RICH)
     assert main(["thermo", "critical", "--feed", feed, "--mixture", "methane=1", "--eos", "pr"]) == 2
     assert "--mixture and --feed cannot be combined" in capsys.readouterr().err
+
+
+def test_the_summary_says_what_the_feed_and_the_kij_became(capsys):
+    assert main(["thermo", "critical", "--feed", str(LIGHT), "--eos", "pr", "--kij", "defaults,methane-ethane=0.01"]) == 0
+    out = capsys.readouterr().out
+    names = ", ".join(p.name for p in characterise(LIGHT_ROWS).pseudo)
+    assert f"  feed     : C7+ of {LIGHT} characterised into {names} (" in out
+    # 4 explicit components and 3 pseudo-components: 21 pairs; CO2 with methane, ethane, propane and
+    # the 3 lumps from the table, methane with the 3 lumps by Chueh-Prausnitz, one from the user.
+    assert ("  kij      : defaults: 6 from the table, 3 by Chueh-Prausnitz, 1 from you, 11 at 0 (every pair with "
+            "its source in --json and --record)") in out
+    assert out.rstrip().splitlines()[-1].startswith("Caution:")

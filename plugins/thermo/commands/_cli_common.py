@@ -13,7 +13,7 @@ from contin.base import fill_text
 
 from ..models._units import UNIT_SYSTEMS_HELP, output_units
 
-__all__ = ["add_units_option", "add_output_options", "add_translation_option", "translation", "with_translation_line", "read_quantities", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
+__all__ = ["add_units_option", "add_output_options", "add_translation_option", "translation", "with_translation_line", "with_input_lines", "read_quantities", "check_destinations", "write_run_record", "component_data", "with_progress", "emit",
            "queue", "finish"]
 
 
@@ -66,12 +66,15 @@ def read_quantities(args: argparse.Namespace, text, kind: str, argument: str, *,
     return values
 
 
-def _with_gauge_lines(summary: str, args: argparse.Namespace) -> str:
+def with_input_lines(summary: str, args: argparse.Namespace) -> str:
+    """The summary with lines on what the input became (before the closing caution): the feed's
+    pseudo-components and kij sources (``args.input_notes``) and each gauge input as absolute."""
     lines = summary.split("\n")
     shown = output_units(getattr(args, "units", "si"))
     gauge = [f"  gauge    : {n['option']} {n['given']} is gauge: {shown.pressure_from_si(n['absolute_Pa']):.8g} "
              f"{shown.pressure} absolute (atmosphere {n['atmosphere_Pa']:g} Pa)" for n in getattr(args, "gauge_inputs", [])]
-    return "\n".join([*lines[:-1], *gauge, lines[-1]]) if gauge else summary
+    added = [*(f"  {note}" for note in getattr(args, "input_notes", [])), *gauge]
+    return "\n".join([*lines[:-1], *added, lines[-1]]) if added else summary
 
 
 def add_translation_option(parser: argparse.ArgumentParser) -> None:
@@ -188,7 +191,7 @@ def emit(args: argparse.Namespace, result, summary: str, plot: Callable | None, 
     document = {**result.to_dict(), **(document_extra or {})}
     if getattr(args, "gauge_inputs", None):
         record_input = {**record_input, "gauge_inputs": list(args.gauge_inputs)}
-    summary = _with_gauge_lines(summary, args)
+    summary = with_input_lines(summary, args)
     queue(args, "csv", lambda path: result.to_csv(path, units=args.units))
     if plot is not None:
         queue(args, "plot", lambda path: plot(result, path))

@@ -121,6 +121,10 @@ def _feed_components(args, extra, *, fractions: bool):
         characterised = characterise([{k: v for k, v in row.items() if k != "line"} for row in rows],
                                      normalise=normalise, extra=extra)
         args.molar_masses = characterised.molar_masses
+        args.__dict__.setdefault("input_notes", []).append(
+            f"feed     : {plus[0]['name']} of {args.feed} characterised into "
+            f"{', '.join(p.name for p in characterised.pseudo)} ('contin thermo characterise --feed' shows "
+            "their constants and the methods)")
         return list(characterised.components), np.array(characterised.z, dtype=float)
     components = [lookup(row["name"], extra, argument=row["line"]) for row in rows]
     if not fractions and len(components) != 2:
@@ -158,12 +162,26 @@ def build_mixture(args, *, fractions: bool = True):
     base, pairs = kij_request(getattr(args, "kij", None), "defaults" if feed else "none")
     kij = resolve_kij(components, args.eos, base, pairs, extra, argument="--kij")
     args.kij_used = kij.pairs()
+    args.__dict__.setdefault("input_notes", []).append(f"kij      : {_kij_summary(base, args.kij_used)}")
     return Mixture(tuple(components), family(args.eos), kij.matrix), (z if fractions else None)
 
 
 _KIJ_HELP = ("interaction parameters: 'defaults' (the published table and Chueh-Prausnitz for methane with heavy "
              "ends; the default with --feed) or 'none' (all 0; the default with --mixture), then pairs that "
              "override single values, e.g. 'defaults,methane-ethane=0.01' or 'methane-ethane=0.01'")
+
+
+def _kij_summary(base: str, pairs: list) -> str:
+    """One line on where the kij came from: how many pairs from the table, a correlation, the user, or 0."""
+    counts = {}
+    for pair in pairs:
+        source = pair["source"]
+        kind = ("from you" if source == "user" else "by Chueh-Prausnitz" if source.startswith("Chueh") else
+                "at 0" if source.startswith(("no default", "none")) else "from the table")
+        counts[kind] = counts.get(kind, 0) + 1
+    shown = ", ".join(f"{counts[k]} {k}" for k in ("from the table", "by Chueh-Prausnitz", "from you", "at 0")
+                      if k in counts)
+    return f"{base}: {shown} (every pair with its source in --json and --record)"
 
 
 def _common(parser, *, fractions: bool = True) -> None:
@@ -369,9 +387,11 @@ def run_critical(args) -> int:
     if getattr(args, "json", False):
         print(json.dumps(document))
     else:
-        print("\n".join(summary_lines("mixture critical point", [
+        from ._cli_common import with_input_lines
+
+        print(with_input_lines("\n".join(summary_lines("mixture critical point", [
             ("model", mixture.family.label),
             ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),
             ("P", f"{shown.pressure_from_si(point.P):.6g} {shown.pressure}"),
-            ("v", f"{row[2]:.6e} m3/mol" + (" (translated)" if "volume_translation" in stats else ""))])))
+            ("v", f"{row[2]:.6e} m3/mol" + (" (translated)" if "volume_translation" in stats else ""))])), args))
     return 0
