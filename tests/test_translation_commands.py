@@ -111,3 +111,13 @@ def test_bad_translation_requests_are_refused_in_one_line(capsys, argv, message)
     assert main(argv) == 2
     err = capsys.readouterr().err.strip()
     assert message in err and len(err.splitlines()) == 1
+
+
+def test_the_csv_says_its_volumes_are_translated(tmp_path, capsys):
+    plain, moved = tmp_path / "plain.csv", tmp_path / "moved.csv"
+    argv = ["thermo", "pxy", "--mixture", "propane,n-butane", "--eos", "srk", "--temperature", "300", "--quiet"]
+    assert main([*argv, "--csv", str(plain)]) == 0 and main([*argv, "--csv", str(moved), "--volume-translation"]) == 0
+    capsys.readouterr()
+    note = [line for line in moved.read_text().splitlines() if "translated" in line]
+    assert len(note) == 1 and note[0].startswith("# volumes and densities translated") and "Peneloux" in note[0]
+    assert "translated" not in plain.read_text()
