@@ -147,3 +147,12 @@ def test_the_summary_says_what_the_feed_and_the_kij_became(capsys):
     assert ("  kij      : defaults: 6 from the table, 3 by Chueh-Prausnitz, 1 from you, 11 at 0 (every pair with "
             "its source in --json and --record)") in out
     assert out.rstrip().splitlines()[-1].startswith("Caution:")
+
+
+def test_default_kij_need_an_equation_of_state_of_the_table(capsys):
+    assert main(["thermo", "critical", "--feed", str(LIGHT), "--eos", "vdw"]) == 2
+    assert capsys.readouterr().err.strip() == ("contin: error: --kij defaults: the default table is for the pr and srk "
+                                               "equations only; with vdw use '--kij none' (then pairs, if you have "
+                                               "values)")
+    document = _json(capsys, ["thermo", "critical", "--feed", str(LIGHT), "--eos", "rk", "--kij", "none", "--json"])
+    assert document["model"] == "Redlich-Kwong" and {p["source"] for p in document["kij"]} == {"none: 0 (kij none)"}

@@ -271,10 +271,14 @@ def resolve_kij(components: Sequence[Component], eos: str, base: str,
     for pair, _ in pairs:
         i, j = split_pair(pair, names, extra, argument)
         overrides[(names[i], names[j])] = float(user[i, j])
+    name = getattr(eos, "name", eos)
     if base == "defaults":
-        return default_kij(components, getattr(eos, "name", eos), overrides=overrides)
+        if name not in ("pr", "srk"):
+            raise InputError(f"{argument} defaults: the default table is for the pr and srk equations only; with "
+                             f"{name} use '{argument} none' (then pairs, if you have values)")
+        return default_kij(components, name, overrides=overrides)
     matrix = user.copy()
     matrix.setflags(write=False)
     sources = {(a, b): ("user" if (a, b) in overrides or (b, a) in overrides else _SOURCE_NONE)
                for i, a in enumerate(names) for b in names[i + 1:]}
-    return KijDefaults(tuple(names), getattr(eos, "name", eos), matrix, sources)
+    return KijDefaults(tuple(names), name, matrix, sources)
