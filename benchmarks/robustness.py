@@ -7,6 +7,10 @@ and small random kij) the envelope is traced from the dew point at 1 bar and che
 critical point present, special points are their rows and in branch order, side labels change only
 at the critical point, no row on the trivial K = 1 set, every row's residual re-evaluated).
 
+Then the characterised set (``tests/envelope_checks.py``'s ``characterised_set``: five invented
+laboratory analyses ending in a C7+ fraction, each characterised and traced with kij = 0 and with the
+default kij, in PR and SRK), counted apart under ``"characterised"`` in the summary.
+
 ``--kernels`` runs the whole set in fresh processes under several BLAS / CPU kernel settings
 (``OPENBLAS_CORETYPE`` and the ``NPY_DISABLE_CPU_FEATURES`` names this numpy build accepts), each
 child printing the OpenBLAS core it really ran on, and with ``--perturb REL`` also with the start
@@ -132,6 +136,12 @@ def main() -> None:
             records.append(record)
             _show(record, args.json)
         summary.update(_counts(records), perturb=args.perturb, blas=checks.blas_info())
+        characterised = []
+        for case in checks.characterised_set():
+            record = checks.run_case(case, perturb=args.perturb)
+            characterised.append(record)
+            _show(record, args.json)
+        summary["characterised"] = _counts(characterised)
     else:
         settings = checks.kernel_settings()
         runs = []  # (setting name, child's blas info, records)

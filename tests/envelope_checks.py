@@ -56,26 +56,40 @@ KINDS = ("critical", "cricondenbar", "cricondentherm")
 
 @dataclass(frozen=True)
 class Case:
-    """One seeded feed: ``ident`` names it in the output; ``kij`` is a tuple of rows or None for zeros."""
+    """One feed: ``ident`` names it in the output; ``kij`` is a tuple of rows, None for zeros, or
+    ``"defaults"`` (the default table); ``plus`` is a plus fraction ``(z, molar mass, specific
+    gravity)`` that ends the analysis, characterised by the defaults of contin_thermo's characterise."""
 
     ident: str
     kind: str
     names: tuple
     z: tuple
     eos: str
-    kij: tuple | None = None
+    kij: tuple | str | None = None
+    plus: tuple | None = None
 
     def build(self):
-        """(mixture, z) through the public API."""
+        """(mixture, z) through the public API (a plus fraction characterised first)."""
         import contin_thermo
 
+        if self.plus is not None:
+            from contin_thermo.models._characterise import characterise
+
+            result = characterise([*zip(self.names, self.z), ("C7+", *self.plus)])
+            return result.mixture(self.eos, kij=self.kij), np.array(result.z, dtype=float)
         kij = None if self.kij is None else np.array(self.kij, dtype=float)
         return contin_thermo.mixture(list(self.names), self.eos, kij=kij), np.array(self.z, dtype=float)
 
     def describe(self) -> dict:
-        pairs = 0 if self.kij is None else int(np.count_nonzero(np.triu(np.array(self.kij))))
-        return {"case": self.ident, "family": self.kind, "components": list(self.names), "eos": self.eos,
-                "kij_pairs": pairs}
+        if isinstance(self.kij, str) or self.kij is None:
+            pairs = self.kij or 0
+        else:
+            pairs = int(np.count_nonzero(np.triu(np.array(self.kij))))
+        described = {"case": self.ident, "family": self.kind, "components": list(self.names), "eos": self.eos,
+                     "kij_pairs": pairs}
+        if self.plus is not None:
+            described["plus"] = {"z": self.plus[0], "molar_mass": self.plus[1], "specific_gravity": self.plus[2]}
+        return described
 
 
 def robustness_set(count: int = 54, seed: int = 5) -> list[Case]:
@@ -162,6 +176,37 @@ def benchmark_set(count: int = 150, seed: int = 2026) -> list[Case]:
         if with_kij:
             case = Case(case.ident, case.kind, case.names, case.z, case.eos, _random_kij(case.names, rng))
         out.append(case)
+    return out
+
+
+# Invented laboratory analyses ending in a heptanes-plus fraction (demo data, not published samples):
+# a lean and a rich gas, two gas condensates, an oil-like feed, a CO2-rich stream. Each is traced with
+# kij = 0 and with the default kij, in PR and SRK.
+ANALYSES = {
+    "lean gas + C7+": ({"nitrogen": 0.012, "carbon dioxide": 0.015, "methane": 0.880, "ethane": 0.050,
+                        "propane": 0.022, "n-butane": 0.010, "n-pentane": 0.004, "n-hexane": 0.002},
+                       (0.005, 105.0, 0.735)),
+    "rich gas + C7+": ({"nitrogen": 0.011, "carbon dioxide": 0.021, "methane": 0.731, "ethane": 0.096,
+                        "propane": 0.058, "isobutane": 0.013, "n-butane": 0.022, "isopentane": 0.009,
+                        "n-pentane": 0.010, "n-hexane": 0.012}, (0.017, 110.0, 0.745)),
+    "gas condensate + C7+": ({"nitrogen": 0.005, "carbon dioxide": 0.030, "methane": 0.700, "ethane": 0.080,
+                              "propane": 0.045, "n-butane": 0.030, "n-pentane": 0.020, "n-hexane": 0.015},
+                             (0.075, 150.0, 0.790)),
+    "heavy condensate + C7+": ({"carbon dioxide": 0.020, "methane": 0.650, "ethane": 0.090, "propane": 0.060,
+                                "n-butane": 0.040, "n-pentane": 0.025, "n-hexane": 0.020}, (0.095, 190.0, 0.820)),
+    "CO2-rich + C7+": ({"nitrogen": 0.010, "carbon dioxide": 0.800, "methane": 0.150, "ethane": 0.020,
+                        "propane": 0.010}, (0.010, 120.0, 0.760)),
+}
+
+
+def characterised_set() -> list[Case]:
+    """The :data:`ANALYSES`, each with kij none and defaults, PR and SRK: 20 characterised feeds."""
+    out = []
+    for k, (kind, (explicit, plus)) in enumerate(ANALYSES.items()):
+        for eos in ("pr", "srk"):
+            for kij in (None, "defaults"):
+                ident = f"c{k}{eos[0]}{'d' if kij else '0'}"
+                out.append(Case(ident, kind, tuple(explicit), tuple(explicit.values()), eos, kij, plus))
     return out
 
 
@@ -445,6 +490,9 @@ def cases_of(which: str, count: int | None = None, seed: int | None = None, ids=
         if missing:
             raise ValueError(f"cases {missing} are not in the default robustness or benchmark sets")
         return [known[name] for name in idents]
+    if which == "characterised":
+        cases = characterised_set()
+        return cases if ids is None else [cases[i] for i in ids]
     make = {"robustness": robustness_set, "benchmark": benchmark_set}[which]
     options = {key: value for key, value in (("count", count), ("seed", seed)) if value is not None}
     cases = make(**options)
@@ -453,7 +501,7 @@ def cases_of(which: str, count: int | None = None, seed: int | None = None, ids=
 
 def main(argv=None) -> None:
     parser = argparse.ArgumentParser(description="trace and check one seeded set of envelopes (JSON lines)")
-    parser.add_argument("--set", choices=("robustness", "benchmark"), default="benchmark")
+    parser.add_argument("--set", choices=("robustness", "benchmark", "characterised"), default="benchmark")
     parser.add_argument("--count", type=int, default=None)
     parser.add_argument("--seed", type=int, default=None)
     parser.add_argument("--ids", default=None, help="comma-separated positions in the set")

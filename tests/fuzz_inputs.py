@@ -187,7 +187,8 @@ def problem_files(draw) -> str:
 # -- thermo command lines ---------------------------------------------------------------------------------
 _FLUIDS = st.sampled_from(["propane", "CO2", "nC4", "water", "methane", "propan", "", "1", "\u0663"])
 _QUANTITY = st.sampled_from(["300", "26.85 degC", "5 bar", "1e-300", "1e400", "nan", "inf", "-5", "0", "300 K",
-                             "5 bra", "\u0663\u0660\u0660", "1" * 4300, "", "1e308", "3e2"])
+                             "5 bra", "\u0663\u0660\u0660", "1" * 4300, "", "1e308", "3e2", "-2 barg", "5 psig",
+                             "-101.325 kPag", "500 degR", "80 degF"])
 _FRACTION = st.sampled_from(["0.7", "0.3", "nan", "inf", "1e400", "-0.1", "0", "1e308", "\u0660.5", "a", ""])
 _MIXTURE = st.one_of(
     st.sampled_from(["methane=0.7,ethane=0.3", "propane,n-butane", "propane=0.5,n-butane=0.5", "methane", "",
@@ -199,7 +200,9 @@ _OPTIONS = {
         ["pr", "srk", "rk", "vdw", "PR", "x"]), "--from-temperature": _QUANTITY, "--at-temperatures": _QUANTITY,
     "--at-pressures": _QUANTITY, "--mixture": _MIXTURE, "--kij": st.sampled_from(
         ["propane-n-butane=0.01", "methane-ethane=0.01,ethane-methane=0.02", "a-b=1", "propane-propane=0.1", "x",
-         "methane-ethane=nan", "methane-ethane=1e400"]),
+         "methane-ethane=nan", "methane-ethane=1e400", "defaults", "none,propane-n-butane=0.01", "defaults,none",
+         "nonee"]),
+    "--atmosphere": _QUANTITY, "--volume-translation": st.sampled_from(["peneloux", "jhaveri-youngren", "x", ""]),
     "--component": st.sampled_from(["blend-X,520,2.9e6,0.31", "blend-X,520,2.9e6", "blend-X,nan,1,1",
                                     "blend-X,520,2.9e6,-0.9"]),
     "--temperature": _QUANTITY, "--pressure": _QUANTITY, "--from-pressure": _QUANTITY,
@@ -223,8 +226,8 @@ _VALID = {
 
 
 _PURE_OPTIONS = ["--fluid", "--tc", "--pc", "--omega", "--name", "--eos", "--from-temperature", "--at-temperatures",
-                 "--units"]
-_BINARY_OPTIONS = ["--mixture", "--kij", "--component", "--eos", "--units"]
+                 "--units", "--atmosphere", "--volume-translation"]
+_BINARY_OPTIONS = ["--mixture", "--kij", "--component", "--eos", "--units", "--atmosphere", "--volume-translation"]
 _ACCEPTED = {
     "saturation": [*_PURE_OPTIONS, "--at-pressures"], "spinodal": _PURE_OPTIONS,
     "critical": [*_PURE_OPTIONS, "--mixture", "--kij", "--component"], "components": ["--units"],

@@ -102,4 +102,5 @@ def test_critical_mixture_takes_normalise_as_its_own_message_says(capsys):
     assert scaled["P"] == pytest.approx(exact["P"], rel=1e-9)
     code = main(["thermo", "critical", "--fluid", "ethane", "--eos", "pr", "--normalise"])
     assert code == 2 and capsys.readouterr().err.strip() == (
-        "contin: error: --kij, --component and --normalise apply to mixtures only; add --mixture, or drop them")
+        "contin: error: --kij, --component and --normalise apply to mixtures only; add --mixture or --feed, "
+        "or drop them")

@@ -8,7 +8,7 @@ import os
 import pytest
 
 from contin.commands._cli import main
-from contin_thermo.commands._demo import FEED, INTERACTION_STUDY
+from contin_thermo.commands._demo import FEED, INTERACTION_STUDY, PLUS_FRACTION
 
 
 def test_feed_is_a_valid_made_up_composition():
@@ -51,7 +51,27 @@ def test_demo_writes_every_file_and_prints_the_special_points(demo):
     study = json.loads((folder / "interaction-study.json").read_text())
     assert [run["kij"] for run in study["runs"]] == list(INTERACTION_STUDY[1])
     bars = [run["cricondenbar"]["P"] for run in study["runs"]]
-    assert bars == sorted(bars)  # a larger methane-n-octane kij widens the envelope here
+    assert bars == sorted(bars)  # a larger methane - heaviest pseudo-component kij widens the envelope here
+    assert study["pair"] == ["methane", envelope["components"][-1]]
+
+
+def test_demo_characterises_its_plus_fraction_and_shows_the_pseudo_components(demo):
+    _, out, folder = demo
+    envelope = json.loads((folder / "envelope.json").read_text())
+    characterisation = envelope["characterisation"]
+    names = [row["name"] for row in characterisation["components"]]
+    assert envelope["components"][-len(names):] == names and "C7+" not in envelope["components"]
+    assert f"{PLUS_FRACTION['name']} characterised into {len(names)} pseudo-components:" in out
+    for name in names:
+        assert f"\n  {name} " in out
+    for key in ("molar_mass", "specific_gravity"):  # the split reproduces the plus fraction (identity)
+        assert characterisation["checks"]["split"][key]["relative_error"] < 1e-10
+        assert characterisation["checks"]["split"][key]["given"] == PLUS_FRACTION[key]
+    assert sum(envelope["feed"][-len(names):]) == pytest.approx(FEED["C7+"], rel=1e-14)
+    sources = {(p["component_1"], p["component_2"]): p["source"] for p in envelope["kij"]}
+    assert "Chueh & Prausnitz" in sources[("methane", names[-1])]
+    assert "Knapp" in sources[("carbon dioxide", "methane")]
+    assert "Whitson" in out and "Kesler & Lee" in out  # the methods with their sources
 
 
 def test_demo_envelope_special_points_are_ordered_as_on_a_gas_envelope(demo):

@@ -127,7 +127,8 @@ def test_characterise_refuses_unknown_methods_in_one_line(tmp_path, capsys):
 def test_an_envelope_of_an_analysis_uses_its_pseudo_components(tmp_path, capsys):
     path = tmp_path / "analysis.csv"
     path.write_text(CSV)
-    assert main(["thermo", "envelope", "--feed", str(path), "--eos", "pr", "--json"]) in (0, 1)
+    # kij none: with the default table this rich analysis's envelope runs open (see test_feed_commands.py)
+    assert main(["thermo", "envelope", "--feed", str(path), "--eos", "pr", "--kij", "none", "--json"]) in (0, 1)
     document = json.loads(capsys.readouterr().out)
     names = document["components"]
     assert names[:8] == ["nitrogen", "carbon dioxide", "methane", "ethane", "propane", "n-butane", "n-pentane",

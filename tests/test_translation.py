@@ -7,7 +7,7 @@ import pytest
 from scipy.optimize import brentq
 
 from contin import InputError
-from contin_thermo import lookup, saturation_curve, spinodal_curve
+from contin_thermo import lookup, saturation_curve
 from contin_thermo.models._characterise import characterise, molar_mass_of
 from contin_thermo.models._eos import GAS_CONSTANT, family
 from contin_thermo.curves._envelope import trace_envelope
@@ -153,7 +153,6 @@ def test_shift_correlations_as_published():
         (lambda: volume_shifts([lookup("propane")], "vdw"), "eos='vdw': volume translation is defined here for 'srk' and 'pr' only"),
         (lambda: volume_shifts([lookup("propane")], "srk", correlation="jhaveri-youngren"),
          "correlation='jhaveri-youngren' is not one for srk; choose peneloux"),
-        (lambda: translate_curve(spinodal_curve("propane", "pr")), "translate_curve takes a saturation curve, not a 'spinodal'"),
     ],
 )
 def test_bad_requests_are_refused_with_a_message(call, message):

@@ -43,8 +43,10 @@ _EXPORTS = {
     "characterise": ".models._characterise",
     "KijDefaults": ".models._kij",
     "default_kij": ".models._kij",
+    "resolve_kij": ".models._kij",
     "VolumeShifts": ".models._translation",
     "translate_curve": ".models._translation",
+    "translate_mixture_result": ".models._translation",
     "volume_shifts": ".models._translation",
 }
 

@@ -15,7 +15,8 @@ import warnings
 from contin import InputError
 
 from ..models._caution import CAUTION
-from ._cli_common import add_output_options, check_destinations, component_data, emit, with_progress
+from ._cli_common import (add_output_options, add_translation_option, check_destinations, component_data, emit,
+                          read_quantities, translation, with_progress, with_translation_line)
 from ._cli_sweep import add_sweep_options, sweep_command
 from ..models._components import all_components, custom_component, load_components, lookup
 from ..models._eos import FAMILIES, family
@@ -44,6 +45,7 @@ def _add_fluid_options(parser: argparse.ArgumentParser, *, eos_required: bool = 
     parser.add_argument("--json", action="store_true", help="print one JSON object (always SI units) instead of a summary")
     parser.add_argument("--csv", metavar="FILE", help="write the rows as CSV (in the --units set, caution in the header)")
     parser.add_argument("--plot", metavar="FILE", help="draw P-T and T-rho diagrams into FILE (PNG, PDF, SVG)")
+    add_translation_option(parser)
     add_output_options(parser)
 
 
@@ -93,11 +95,16 @@ def register(subparsers) -> None:
         description="Solve dP/dv = d2P/dv2 = 0 for a pure fluid; with --mixture, a mixture critical point. "
                     + CAUTION,
         epilog="examples:\n  contin thermo critical --fluid ethane --eos pr\n"
-               "  contin thermo critical --mixture 'methane=0.7,ethane=0.2,propane=0.1' --eos srk --json",
+               "  contin thermo critical --mixture 'methane=0.7,ethane=0.2,propane=0.1' --eos srk --json\n"
+               "  contin thermo critical --feed analysis.csv --eos pr --kij defaults,methane-ethane=0.005",
     )
     _add_fluid_options(critical)
     critical.add_argument("--mixture", metavar="NAME=X,...", help="mixture composition (mixture critical point)")
-    critical.add_argument("--kij", metavar="A-B=K,...", help="binary interaction parameters (with --mixture)")
+    critical.add_argument("--feed", metavar="FILE", help="a laboratory analysis (.csv or .toml) whose plus fraction "
+                                                         "is characterised (mixture critical point)")
+    critical.add_argument("--kij", metavar="defaults|none,A-B=K,...",
+                          help="interaction parameters (with --mixture or --feed): defaults (the default with "
+                               "--feed) or none (the default with --mixture), then pairs overriding single values")
     critical.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                           help="an extra component for --mixture (repeatable)")
     critical.add_argument("--normalise", action="store_true",
@@ -140,20 +147,14 @@ def _no_subcommand(commands) -> int:
     raise InputError(f"contin thermo needs a subcommand ({names}); see 'contin thermo --help'")
 
 
-def _values(text, kind: str, argument: str) -> list[float]:
-    if text is None:
-        return []
-    from ..models._units import parse_list
-
-    return parse_list(text, kind, argument)
+def _values(args, text, kind: str, argument: str) -> list[float]:
+    return [] if text is None else read_quantities(args, text, kind, argument)
 
 
-def _single(text, kind: str, argument: str):
+def _single(args, text, kind: str, argument: str):
     if text is None:
         return None
-    from ..models._units import parse_quantity
-
-    return parse_quantity(text, kind, argument)
+    return read_quantities(args, text, kind, argument, single=True)[0]
 
 
 def _fluid(args) -> CubicFluid:
@@ -177,7 +178,7 @@ def _fluid(args) -> CubicFluid:
 
         omega = parse_number(args.omega, "--omega")
         component = custom_component(
-            args.name, _single(args.tc, "temperature", "--tc"), _single(args.pc, "pressure", "--pc"), omega,
+            args.name, _single(args, args.tc, "temperature", "--tc"), _single(args, args.pc, "pressure", "--pc"), omega,
             argument="--tc/--pc/--omega",
         )
     else:
@@ -233,12 +234,16 @@ def _summary(result: CurveResult, units: str = "si") -> str:
         lines.append(f"  at       : {_format_row(result.columns, row)}")
     lines.append("  units    : " + ", ".join(f"{col} [{names[col] or '-'}]" for col in result.columns))
     lines.append(CAUTION)
-    return "\n".join(lines)
+    return "\n".join(with_translation_line(lines, result.stats))
 
 
 def _emit(result: CurveResult, args) -> int:
     import inspect
 
+    if translation(args) is not None:
+        from ..models._translation import translate_curve
+
+        result = translate_curve(result, **translation(args))
     from ..reports._plot_pure import plot_pure
 
     defaults = {name: parameter.default for name, parameter in
@@ -259,15 +264,15 @@ def run_pure(args) -> int:
         print(f"contin: warning: {warning.message}", file=sys.stderr)
     if args.curve == "critical":
         return _emit(critical_point(fluid), args)
-    start = _single(args.from_temperature, "temperature", "--from-temperature")
+    start = _single(args, args.from_temperature, "temperature", "--from-temperature")
     _check_two_phase(fluid, start)
-    temperatures = _values(args.at_temperatures, "temperature", "--at-temperatures")
+    temperatures = _values(args, args.at_temperatures, "temperature", "--at-temperatures")
     tc = fluid.component.Tc
     if args.curve == "spinodal":
         trace = lambda progress: spinodal_curve(  # noqa: E731
             fluid, from_temperature=start, at_temperatures=temperatures, on_point=progress)
     else:
-        pressures = _values(args.at_pressures, "pressure", "--at-pressures")
+        pressures = _values(args, args.at_pressures, "pressure", "--at-pressures")
         swept = sweep_command(args, {"command": "saturation", "eos": fluid.family.name,
                                      "components": [component_data(fluid.component)], "from_temperature": start,
                                      "at_temperatures": temperatures, "at_pressures": pressures})
@@ -280,13 +285,14 @@ def run_pure(args) -> int:
 
 
 def _run_critical(args) -> int:
-    if args.mixture is not None:
+    if args.mixture is not None or args.feed is not None:
         module = _mixture_module()
         if module is None or not hasattr(module, "run_critical"):
             raise InputError("--mixture needs the mixture commands, which are not installed in this version")
         return int(module.run_critical(args) or 0)
     if args.kij is not None or args.component or args.normalise:
-        raise InputError("--kij, --component and --normalise apply to mixtures only; add --mixture, or drop them")
+        raise InputError("--kij, --component and --normalise apply to mixtures only; add --mixture or --feed, "
+                         "or drop them")
     if args.eos is None:
         raise InputError("--eos is required: choose vdw, rk, srk or pr")
     return run_pure(args)

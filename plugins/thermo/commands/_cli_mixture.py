@@ -9,7 +9,7 @@ import numpy as np
 
 from contin import InputError
 
-__all__ = ["register", "run_critical", "parse_mixture", "parse_kij", "build_mixture"]
+__all__ = ["register", "run_critical", "parse_mixture", "parse_kij", "kij_request", "build_mixture"]
 
 
 def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bool = True):
@@ -65,35 +65,84 @@ def parse_mixture(text: str, extra=(), *, normalise: bool = False, fractions: bo
     return components, z / z.sum()
 
 
+def kij_request(text: str | None, base: str) -> tuple[str, list]:
+    """(base, pairs) from ``--kij``: an optional first word ``defaults`` or ``none`` (else ``base``),
+    then ``NAME-NAME=VALUE`` pairs that override single pairs of the base.
+
+    Raises:
+        InputError: a malformed entry (the pairs are checked against the mixture later).
+    """
+    from ..models._units import parse_number
+
+    from ..models._kij import KIJ_BASES
+
+    parts = [p.strip() for p in str(text or "").split(",") if p.strip()]
+    if parts and parts[0] in KIJ_BASES:
+        base, parts = parts[0], parts[1:]
+    items = []
+    for part in parts:
+        if "=" not in part:
+            raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01' (only "
+                             "the first entry may be the word defaults or none)")
+        pair, value = part.rsplit("=", 1)
+        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
+    return base, items
+
+
 def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
     """Symmetric kij matrix from ``"methane-ethane=0.01,..."``; zero for pairs not given.
 
-    The text is split into (pair, value) items here; the pairs are read by the model layer's
-    :func:`contin_thermo.models._kij.kij_matrix` (hyphenated names such as ``n-butane`` work).
+    The pairs are read by the model layer's :func:`contin_thermo.models._kij.kij_matrix` (hyphenated
+    names such as ``n-butane`` work).
 
     Raises:
         InputError: a malformed entry, a pair not in the mixture, a value outside (-1, 1), a pair of
             a component with itself, a pair given twice.
     """
     from ..models._kij import kij_matrix
-    from ..models._units import parse_number
 
-    items = []
-    for part in [p.strip() for p in str(text or "").split(",") if p.strip()]:
-        if "=" not in part:
-            raise InputError(f"--kij entry {part!r} must be NAME-NAME=VALUE, e.g. 'methane-ethane=0.01'")
-        pair, value = part.rsplit("=", 1)
-        items.append((pair.strip(), parse_number(value, f"--kij entry {part[:60]!r}")))
-    return kij_matrix(items, list(names), extra, argument="--kij")
+    return kij_matrix(kij_request(text, "none")[1], list(names), extra, argument="--kij")
+
+
+def _feed_components(args, extra, *, fractions: bool):
+    """(components, z) of ``--feed``: its plus fraction characterised, or its named components as they are."""
+    from ..models._characterise import _PLUS, characterise
+    from ..models._components import lookup
+    from ..models._feed import read_feed
+
+    rows = read_feed(args.feed)
+    normalise = bool(getattr(args, "normalise", False))
+    plus = [row for row in rows if _PLUS.match(row["name"])]
+    if plus and not fractions:
+        raise InputError(f"--feed {args.feed!r}: {args.diagram} needs a binary of two named components, but the feed "
+                         f"holds the plus fraction {plus[0]['name']!r} ({plus[0]['line']}); trace its envelope with "
+                         "'contin thermo envelope --feed', or write a feed of two components")
+    if plus:
+        characterised = characterise([{k: v for k, v in row.items() if k != "line"} for row in rows],
+                                     normalise=normalise, extra=extra)
+        args.molar_masses = characterised.molar_masses
+        args.__dict__.setdefault("input_notes", []).append(
+            f"feed     : {plus[0]['name']} of {args.feed} characterised into "
+            f"{', '.join(p.name for p in characterised.pseudo)} ('contin thermo characterise --feed' shows "
+            "their constants and the methods)")
+        return list(characterised.components), np.array(characterised.z, dtype=float)
+    components = [lookup(row["name"], extra, argument=row["line"]) for row in rows]
+    if not fractions and len(components) != 2:
+        raise InputError(f"--feed {args.feed!r}: {args.diagram} needs a binary, but the feed holds {len(components)} "
+                         "components; write a feed of two components")
+    text = ",".join(f"{c.name}={row['z']!r}" for c, row in zip(components, rows))
+    return parse_mixture(text, tuple(extra) + tuple(components), normalise=normalise or not fractions,
+                         fractions=True)
 
 
 def build_mixture(args, *, fractions: bool = True):
-    """(Mixture, z) from parsed arguments (``mixture``, ``kij``, ``component``, ``eos``, ``normalise``)."""
-    from ..models._components import parse_component
+    """(Mixture, z) from parsed arguments (``mixture`` or ``feed``, ``kij``, ``component``, ``eos``,
+    ``normalise``). ``--kij`` starts from the default table for a feed and from zeros for ``--mixture``;
+    every pair used, with its source, is kept on ``args.kij_used`` for the run record and JSON."""
+    from ..models._components import load_components, parse_component
     from ..models._eos import family
+    from ..models._kij import resolve_kij
     from ..models._mixture import Mixture
-
-    from ..models._components import load_components
 
     extra = tuple(parse_component(text) for text in (getattr(args, "component", None) or []))
     for k, component in enumerate(extra):
@@ -103,32 +152,47 @@ def build_mixture(args, *, fractions: bool = True):
     if getattr(args, "components_file", None):
         extra += tuple(c for c in load_components(args.components_file)
                        if not any(c.name == e.name for e in extra))
-    if getattr(args, "feed", None) is not None:
-        # A laboratory analysis: its plus fraction split and lumped into pseudo-components.
-        from ..models._characterise import characterise
-        from ..models._feed import read_feed
-
-        rows = [{key: value for key, value in row.items() if key != "line"} for row in read_feed(args.feed)]
-        characterised = characterise(rows, normalise=bool(getattr(args, "normalise", False)), extra=extra)
-        components, z = list(characterised.components), np.array(characterised.z, dtype=float)
+    feed = getattr(args, "feed", None) is not None
+    if feed:
+        components, z = _feed_components(args, extra, fractions=fractions)
         extra = extra + tuple(c for c in components if not any(c.name == e.name for e in extra))
     else:
         components, z = parse_mixture(args.mixture, extra, normalise=bool(getattr(args, "normalise", False)),
                                       fractions=fractions)
-    kij = parse_kij(getattr(args, "kij", None), [c.name for c in components], extra)
-    return Mixture(tuple(components), family(args.eos), kij), z
+    base, pairs = kij_request(getattr(args, "kij", None), "defaults" if feed else "none")
+    kij = resolve_kij(components, args.eos, base, pairs, extra, argument="--kij")
+    args.kij_used = kij.pairs()
+    args.__dict__.setdefault("input_notes", []).append(f"kij      : {_kij_summary(base, args.kij_used)}")
+    return Mixture(tuple(components), family(args.eos), kij.matrix), (z if fractions else None)
+
+
+_KIJ_HELP = ("interaction parameters: 'defaults' (the published table and Chueh-Prausnitz for methane with heavy "
+             "ends; the default with --feed) or 'none' (all 0; the default with --mixture), then pairs that "
+             "override single values, e.g. 'defaults,methane-ethane=0.01' or 'methane-ethane=0.01'")
+
+
+def _kij_summary(base: str, pairs: list) -> str:
+    """One line on where the kij came from: how many pairs from the table, a correlation, the user, or 0."""
+    counts = {}
+    for pair in pairs:
+        source = pair["source"]
+        kind = ("from you" if source == "user" else "by Chueh-Prausnitz" if source.startswith("Chueh") else
+                "at 0" if source.startswith(("no default", "none")) else "from the table")
+        counts[kind] = counts.get(kind, 0) + 1
+    shown = ", ".join(f"{counts[k]} {k}" for k in ("from the table", "by Chueh-Prausnitz", "from you", "at 0")
+                      if k in counts)
+    return f"{base}: {shown} (every pair with its source in --json and --record)"
 
 
 def _common(parser, *, fractions: bool = True) -> None:
-    if fractions:
-        source = parser.add_mutually_exclusive_group(required=True)
-        source.add_argument("--mixture", help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'")
-        source.add_argument("--feed", metavar="FILE",
-                            help="a laboratory analysis (.csv or .toml) whose plus fraction is characterised "
-                                 "(see contin thermo characterise), e.g. --feed analysis.csv")
-    else:
-        parser.add_argument("--mixture", required=True, help="the two components, e.g. 'propane,n-butane'")
-    parser.add_argument("--kij", default=None, help="interaction parameters, e.g. 'methane-ethane=0.01'")
+    source = parser.add_mutually_exclusive_group(required=True)
+    source.add_argument("--mixture", help="components and mole fractions, e.g. 'methane=0.8,ethane=0.2'" if fractions
+                        else "the two components, e.g. 'propane,n-butane'")
+    source.add_argument("--feed", metavar="FILE",
+                        help="a laboratory analysis (.csv or .toml) whose plus fraction is characterised "
+                             "(see contin thermo characterise), e.g. --feed analysis.csv" if fractions else
+                             "a feed file (.csv or .toml) of the two components (amounts are not used)")
+    parser.add_argument("--kij", default=None, help=_KIJ_HELP)
     parser.add_argument("--component", action="append", default=[], metavar="NAME,Tc,Pc,omega",
                         help="a user component (K, Pa); repeatable")
     parser.add_argument("--eos", choices=("srk", "pr"), required=True, help="cubic equation of state: srk or pr")
@@ -157,7 +221,7 @@ _EXAMPLES = {
 def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
     from ..models._caution import CAUTION
-    from ._cli_common import add_output_options
+    from ._cli_common import add_output_options, add_translation_option
     from ._cli_sweep import KINDS, add_sweep_options
 
     envelope = thermo_subparsers.add_parser(
@@ -166,6 +230,7 @@ def register(thermo_subparsers) -> None:
                     "--from-pressure through the cricondentherm, the critical point and the cricondenbar "
                     "to the bubble point; check every point for stability. " + CAUTION)
     _common(envelope)
+    add_translation_option(envelope)
     add_output_options(envelope)
     add_sweep_options(envelope, tuple(KINDS))
     envelope.add_argument("--from-pressure", default="1e5", metavar="PA",
@@ -182,6 +247,7 @@ def register(thermo_subparsers) -> None:
                         "component to the other or to where the two-phase region closes; azeotropes are "
                         "reported. " + CAUTION)
         _common(parser, fractions=False)
+        add_translation_option(parser)
         add_output_options(parser)
         add_sweep_options(parser, tuple(KINDS))
         parser.add_argument(option, required=True, metavar=unit,
@@ -190,23 +256,38 @@ def register(thermo_subparsers) -> None:
         parser.set_defaults(handler=run_binary, diagram=name)
 
 
+def kij_used(args) -> list:
+    """Every kij pair used by the last :func:`build_mixture` on ``args``, with its source."""
+    return list(getattr(args, "kij_used", []))
+
+
 def _mixture_input(args, mixture, z=None) -> dict:
     """What a run record keeps of a mixture command: components as used, kij, feed, model."""
     from ._cli_common import component_data
 
     data = {"command": getattr(args, "thermo_command", None), "eos": mixture.family.name,
             "components": [component_data(c) for c in mixture.components],
-            "kij": [[float(v) for v in row] for row in mixture.kij]}
+            "kij": [[float(v) for v in row] for row in mixture.kij], "kij_pairs": kij_used(args)}
     if z is not None:
         data["feed"] = [float(v) for v in z]
     return data
 
 
+def _translated(args, result, z=None):
+    """``result`` with Peneloux-type volume shifts if ``--volume-translation`` was given."""
+    from ._cli_common import translation
+    from ..models._translation import translate_mixture_result
+
+    options = translation(args)
+    if options is None:
+        return result
+    return translate_mixture_result(result, z, molar_masses=getattr(args, "molar_masses", None), **options)
+
+
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
-    from ._cli_common import check_destinations, emit, with_progress
+    from ._cli_common import check_destinations, emit, read_quantities, with_progress, with_translation_line
     from ..curves._envelope import trace_envelope
-    from ..models._units import parse_pressure
 
     check_destinations(args)
     mixture, z = build_mixture(args)
@@ -219,7 +300,7 @@ def run_envelope(args) -> int:
             raise InputError("--quality is empty; give vapour fractions such as 0.1,0.5")
         for q in parts:
             quality.append(parse_number(q, "--quality"))
-    from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+    from_pressure = read_quantities(args, args.from_pressure, "pressure", "--from-pressure", single=True)[0]
     from ._cli_sweep import sweep_command
 
     swept = sweep_command(args, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality})
@@ -232,23 +313,22 @@ def run_envelope(args) -> int:
     from ..curves._envelope import _MAX_STEP, _STEP, _TOLERANCE
     from ..reports._plot_envelope import plot_envelope
 
-    return emit(args, envelope, "\n".join(envelope.summary(args.units)), plot_envelope,
+    envelope = _translated(args, envelope, z)
+    return emit(args, envelope, "\n".join(with_translation_line(envelope.summary(args.units), envelope.stats)),
+                plot_envelope,
                 {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
-                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
 
 def run_binary(args) -> int:
     """``contin thermo pxy|txy``."""
     from ..curves._binary import _MAX_STEP, _STEP, _TOLERANCE, pxy, txy
-    from ._cli_common import check_destinations, emit, with_progress
-    from ..models._units import parse_pressure, parse_temperature
+    from ._cli_common import check_destinations, emit, read_quantities, with_progress, with_translation_line
 
     check_destinations(args)
     mixture, _ = build_mixture(args, fractions=False)
-    if args.diagram == "pxy":
-        fixed = parse_temperature(args.temperature, "--temperature")
-    else:
-        fixed = parse_pressure(args.pressure, "--pressure")
+    kind, text = ("temperature", args.temperature) if args.diagram == "pxy" else ("pressure", args.pressure)
+    fixed = read_quantities(args, text, kind, f"--{kind}", single=True)[0]
     from ._cli_sweep import sweep_command
 
     swept = sweep_command(args, {**_mixture_input(args, mixture), "command": args.diagram, "fixed": fixed})
@@ -259,9 +339,11 @@ def run_binary(args) -> int:
                             lambda progress: diagram_of(mixture, fixed, on_point=progress))
     from ..reports._plot_envelope import plot_binary
 
-    return emit(args, diagram, "\n".join(diagram.summary(args.units)), plot_binary,
+    diagram = _translated(args, diagram)
+    return emit(args, diagram, "\n".join(with_translation_line(diagram.summary(args.units), diagram.stats)),
+                plot_binary,
                 {**_mixture_input(args, mixture), args.diagram[0].upper(): fixed},
-                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
+                {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 
 
 def run_critical(args) -> int:
@@ -279,6 +361,8 @@ def run_critical(args) -> int:
     if getattr(args, "plot", None) is not None:
         raise InputError("--plot draws curves; a mixture critical point is one point: drop --plot, or use "
                          "'contin thermo envelope' for a picture")
+    if getattr(args, "mixture", None) is not None and getattr(args, "feed", None) is not None:
+        raise InputError("--mixture and --feed cannot be combined: give the mixture one way")
     if getattr(args, "fluid", None) is not None:
         raise InputError("--fluid and --mixture cannot be combined: --fluid names one fluid, --mixture a mixture")
     own = [f"--{name.replace('_', '-')}" for name in ("tc", "pc", "omega", "from_temperature",
@@ -292,6 +376,16 @@ def run_critical(args) -> int:
     point = critical_point(mixture, z)
     columns = ("T", "P", "v")
     row = [point.T, float(point.P), point.v]
+    stats = {"setup_seconds": 0.0, "trace_seconds": 0.0, "newton_iterations": 0, "jacobian_evaluations": 0}
+    from ._cli_common import translation
+
+    if translation(args) is not None:
+        from ..models._translation import volume_shifts
+
+        shifts = volume_shifts(mixture.components, mixture.family.name, molar_masses=getattr(args, "molar_masses", None),
+                               **translation(args))
+        row[2] -= shifts.of(z)
+        stats["volume_translation"] = shifts.as_dict()
     special = [{"kind": "critical", "index": 0, "values": dict(zip(columns, row)),
                 "info": {"eigenvalue": point.eigenvalue, "cubic_form": point.cubic}}]
     shown = output_units(getattr(args, "units", "si"))
@@ -300,17 +394,19 @@ def run_critical(args) -> int:
                     notes=[f"model: {mixture.family.label}; Heidemann & Khalil (1980) criterion"])
     queue(args, "csv", lambda path: fill_text(path, text))
     document = contin.json_document("completed", "critical point found (Heidemann-Khalil criterion)", columns,
-                                    [row], special, [], {"setup_seconds": 0.0, "trace_seconds": 0.0,
-                                                         "newton_iterations": 0, "jacobian_evaluations": 0},
-                                    caution=CAUTION, model=mixture.family.label)
+                                    [row], special, [], stats,
+                                    caution=CAUTION, model=mixture.family.label,
+                                    components=list(mixture.names), feed=[float(v) for v in z], kij=kij_used(args))
     write_run_record(args, document, _mixture_input(args, mixture, z))
     finish(args)
     if getattr(args, "json", False):
         print(json.dumps(document))
     else:
-        print("\n".join(summary_lines("mixture critical point", [
+        from ._cli_common import with_input_lines
+
+        print(with_input_lines("\n".join(summary_lines("mixture critical point", [
             ("model", mixture.family.label),
             ("T", f"{shown.temperature_from_si(point.T):.6f} {shown.temperature}"),
             ("P", f"{shown.pressure_from_si(point.P):.6g} {shown.pressure}"),
-            ("v", f"{point.v:.6e} m3/mol")])))
+            ("v", f"{row[2]:.6e} m3/mol" + (" (translated)" if "volume_translation" in stats else ""))])), args))
     return 0

@@ -1,10 +1,13 @@
 """`contin demo`: the main job on an embedded default, set in an invented gas plant.
 
 The Harrow Ridge gas plant (invented) receives a rich gas from the Kestrel Flats field (invented; the
-composition below is made up for this demo and matches no published sample). The demo traces the
-feed's phase envelope through cricondentherm, critical point and cricondenbar; the saturation curves
-of two of its components; and the envelope again for four values of one interaction parameter. It
-writes CSV, JSON and PNG files into a folder and prints a summary with units and the caution.
+laboratory analysis below, ending in a heptanes-plus fraction, is made up for this demo and matches
+no published sample). The demo characterises the plus fraction into pseudo-components (the defaults
+of ``contin thermo characterise``), takes the default interaction parameters, traces the feed's phase
+envelope through cricondentherm, critical point and cricondenbar; the saturation curves of two of its
+components; and the envelope again for four values of the methane - heaviest pseudo-component
+interaction parameter. It writes CSV, JSON and PNG files into a folder and prints a summary with the
+pseudo-components, units and the caution.
 """
 
 from __future__ import annotations
@@ -23,39 +26,48 @@ from contin import InputError
 
 from ..models._caution import CAUTION
 from ._cli_common import add_units_option
-from ..models._components import lookup
 from ..models._eos import family
-from typing import TYPE_CHECKING
-
-if TYPE_CHECKING:  # the models are imported when the demo runs: registering the command stays cheap
-    from ..models._mixture import Mixture
 from ..models._units import output_units
 
-__all__ = ["FEED", "SCENARIO", "INTERACTION_STUDY", "run_demo", "register"]
+__all__ = ["FEED", "PLUS_FRACTION", "SCENARIO", "INTERACTION_STUDY", "run_demo", "register"]
 
 SCENARIO = "Harrow Ridge gas plant (invented), rich gas from the Kestrel Flats field (invented)"
-# Made-up composition, mole fractions summing to 1.
+# Made-up laboratory analysis, mole fractions summing to 1, ending in a heptanes-plus fraction.
 FEED = {
     "nitrogen": 0.011, "carbon dioxide": 0.021, "methane": 0.731, "ethane": 0.096, "propane": 0.058,
     "isobutane": 0.013, "n-butane": 0.022, "isopentane": 0.009, "n-pentane": 0.010, "n-hexane": 0.012,
-    "n-heptane": 0.010, "n-octane": 0.007,
+    "C7+": 0.017,
 }
+# The plus fraction's measured properties (made up): molar mass g/mol, specific gravity 60/60 degF.
+PLUS_FRACTION = {"name": "C7+", "molar_mass": 110.0, "specific_gravity": 0.745}
 EOS = "pr"
 SATURATION_FLUIDS = ("propane", "n-butane")
-# The pair whose interaction parameter the study varies, and its values.
-INTERACTION_STUDY = (("methane", "n-octane"), (0.0, 0.04, 0.08, 0.12))
+# The pair whose interaction parameter the study varies (methane and the heaviest pseudo-component,
+# named once the plus fraction is characterised), and its values; the other pairs keep their defaults.
+HEAVIEST = "heaviest pseudo-component"
+INTERACTION_STUDY = (("methane", HEAVIEST), (0.0, 0.04, 0.08, 0.12))
 SPECIAL_KINDS = ("cricondentherm", "critical", "cricondenbar")
 
 
-def _mixture(kij_value: float = 0.0) -> tuple[Mixture, np.ndarray]:
+def _characterised():
+    """The analysis with its plus fraction characterised by the defaults of ``contin thermo characterise``."""
+    from ..models._characterise import characterise
+
+    rows = [(name, z, PLUS_FRACTION["molar_mass"], PLUS_FRACTION["specific_gravity"]) if name == PLUS_FRACTION["name"]
+            else (name, z) for name, z in FEED.items()]
+    return characterise(rows)
+
+
+def _mixture(characterised, kij_value: float | None = None):
+    """(mixture, z, kij pairs with sources): the default kij, the study's pair set to ``kij_value`` if given."""
+    from ..models._kij import resolve_kij
     from ..models._mixture import Mixture
 
-    names = list(FEED)
-    kij = np.zeros((len(names), len(names)))
-    (a, b), _ = INTERACTION_STUDY
-    i, j = names.index(a), names.index(b)
-    kij[i, j] = kij[j, i] = kij_value
-    return Mixture(tuple(lookup(name) for name in names), family(EOS), kij), np.array(list(FEED.values()))
+    components = characterised.components
+    (a, _), _ = INTERACTION_STUDY
+    pairs = [] if kij_value is None else [(f"{a}-{components[-1].name}", kij_value)]
+    kij = resolve_kij(components, EOS, "defaults", pairs, components)
+    return Mixture(components, family(EOS), kij.matrix), np.array(characterised.z, dtype=float), kij.pairs()
 
 
 def _prepare_folder(folder: Path) -> Path:
@@ -121,7 +133,8 @@ def _envelope_figure(envelope, title: str):
     _draw_envelopes(ax, [envelope], ["feed"], split_sides=True, annotate=True)
     ax.set_title(title, fontsize=10)
     ax.legend(fontsize=8, loc="upper left")
-    _caption(figure, f"model: {family(EOS).label}, one-fluid mixing, all kij = 0. {CAUTION}")
+    _caption(figure, f"model: {family(EOS).label}, one-fluid mixing, default kij (published table; Chueh-Prausnitz "
+                     f"for methane with the heavy ends); C7+ characterised into pseudo-components. {CAUTION}")
     return figure
 
 
@@ -141,7 +154,8 @@ def _study_figure(envelopes, labels, title: str):
     whole.set_title(title, fontsize=10)
     near.set_title("enlarged: critical point and cricondenbar", fontsize=10)
     whole.legend(fontsize=8, loc="upper left")
-    _caption(figure, f"model: {family(EOS).label}, one-fluid mixing; only the named kij varies. {CAUTION}")
+    _caption(figure, f"model: {family(EOS).label}, one-fluid mixing; only the named kij varies, the others keep "
+                     f"their defaults. {CAUTION}")
     return figure
 
 
@@ -219,12 +233,13 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
     _pyplot(headless=True)  # the demo only writes files
     folder = _prepare_folder(Path(out))
     began = time.perf_counter()
-    mixture, z = _mixture(0.0)
+    characterised = _characterised()
+    mixture, z, kij_pairs = _mixture(characterised)
     envelope = trace_envelope(mixture, z)
     curves = [saturation_curve(name, EOS, at_pressures=[101325.0]) for name in SATURATION_FLUIDS]
-    (pair, values) = INTERACTION_STUDY
-    study = [envelope if value == 0.0 else trace_envelope(*_mixture(value), check_stability=False)
-             for value in values]
+    (first, _), values = INTERACTION_STUDY
+    pair = (first, characterised.components[-1].name)
+    study = [trace_envelope(*_mixture(characterised, value)[:2], check_stability=False) for value in values]
     seconds = time.perf_counter() - began
 
     written = []
@@ -233,7 +248,9 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
         written.append(path.name)
 
     envelope.to_csv(folder / "envelope.csv"); keep(folder / "envelope.csv")
-    _write_json(folder / "envelope.json", envelope.to_dict()); keep(folder / "envelope.json")
+    _write_json(folder / "envelope.json", {**envelope.to_dict(), "kij": kij_pairs,
+                                           "characterisation": {**characterised.to_dict(), "analysis": FEED}})
+    keep(folder / "envelope.json")
     _save(_envelope_figure(envelope, "Phase envelope of the Kestrel Flats rich gas (invented feed)"),
           folder / "envelope.png"); keep(folder / "envelope.png")
     for curve in curves:
@@ -252,12 +269,27 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
             row[kind] = None if sp is None else {"T": sp["values"]["T"], "P": sp["values"]["P"]}
         study_rows.append(row)
     _write_json(folder / "interaction-study.json", {"pair": list(pair), "eos": EOS, "feed": FEED,
+                                                    "components": list(mixture.names), "z": [float(v) for v in z],
                                                     "runs": study_rows, "caution": CAUTION})
     keep(folder / "interaction-study.json")
 
     say = lambda text="": print(text, file=stream)  # noqa: E731
     say(f"contin demo: {SCENARIO}")
-    say(f"model: {family(EOS).label}; feed of {len(FEED)} components (made-up composition)")
+    say(f"model: {family(EOS).label}; made-up laboratory analysis of {len(FEED) - 1} components and "
+        f"{PLUS_FRACTION['name']} ({FEED[PLUS_FRACTION['name']]:.2%}, M = {PLUS_FRACTION['molar_mass']:g} g/mol, "
+        f"SG = {PLUS_FRACTION['specific_gravity']:g}); default kij")
+    say()
+    say(f"{PLUS_FRACTION['name']} characterised into {len(characterised.pseudo)} pseudo-components:")
+    say(f"  {'name':<10}{'z':>9}{'M g/mol':>9}{'SG':>8}{'Tc':>14}{'Pc':>14}{'omega':>8}")
+    for p in characterised.pseudo:
+        say(f"  {p.name:<10}{p.z:>9.5f}{p.molar_mass:>9.2f}{p.specific_gravity:>8.4f}{_format_t(shown, p.Tc):>14}"
+            f"{_format_p(shown, p.Pc):>14}{p.omega:>8.4f}")
+    say("  methods (with their sources):")
+    for step, text in characterised.methods.items():
+        say(f"    {step}: {text}")
+    check = characterised.checks["split"]
+    say(f"  the split reproduces M+ and SG+ to {max(check['molar_mass']['relative_error'], check['specific_gravity']['relative_error']):.1e} "
+        "(relative)")
     say()
     say(f"Feed phase envelope: {len(envelope.rows)} points, {'complete' if envelope.success else envelope.message}")
     say(f"  {'special point':<16}{'T':>14}{'P':>16}")
@@ -265,7 +297,7 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
         sp = envelope.special(kind)
         if sp is not None:
             say(f"  {kind:<16}{_format_t(shown, sp['values']['T']):>14}{_format_p(shown, sp['values']['P']):>16}")
-    for line in envelope.summary():
+    for line in envelope.summary(units):
         if "metastable" in line or "stability" in line:
             say(f"  {line.strip()}")
     say()
@@ -293,9 +325,10 @@ def register(subparsers) -> None:
     parser = subparsers.add_parser(
         "demo",
         help="run the main job on a built-in invented gas-plant feed",
-        description="Trace the phase envelope of an invented rich gas (cricondentherm, critical point, "
-                    "cricondenbar), the saturation curves of two of its components, and the envelope for "
-                    "four values of one interaction parameter; write CSV, JSON and PNG files.",
+        description="Characterise the heptanes-plus fraction of an invented rich-gas analysis, trace the "
+                    "phase envelope (cricondentherm, critical point, cricondenbar), the saturation curves of two "
+                    "of its components, and the envelope for four values of one interaction parameter; write "
+                    "CSV, JSON and PNG files.",
         epilog="examples:\n  contin demo\n  contin demo --out contin-demo --units degF-psia",
     )
     parser.add_argument("--out", default="contin-demo", metavar="DIR",

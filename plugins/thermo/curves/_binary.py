@@ -67,14 +67,15 @@ class BinaryDiagram:
 
     def to_csv(self, path, units: str = "si"):
         """Write the rows as CSV with the caution and units header (``units``: ``si``, ``degC-bar`` or ``degF-psia``)."""
-        from ..reports._report import write_csv
+        from ..reports._report import translation_notes, write_csv
         from ..models._units import convert_rows, output_units
 
         names = {"x1": "", "y1": "", "P": "Pa", "T": "K", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}
         rows, names = convert_rows(self.columns, self.rows, names, output_units(units))
         fixed = f"T = {self.fixed} K" if self.kind == "pxy" else f"P = {self.fixed} Pa"
         return write_csv(path, self.columns, rows, names, title=f"{self.kind} diagram at {fixed}",
-                         notes=[f"model: {self.mixture.family.label}; components: {', '.join(self.mixture.names)}"])
+                         notes=[f"model: {self.mixture.family.label}; components: {', '.join(self.mixture.names)}",
+                                *translation_notes(self.stats)])
 
     def summary(self, units: str = "si") -> list[str]:
         """Human summary lines with the caution (temperatures and pressures in ``units``)."""

@@ -444,7 +444,7 @@ class Envelope:
             path: the file.
             units: ``"si"`` (K, Pa), ``"degC-bar"`` or ``"degF-psia"`` for temperatures and pressures.
         """
-        from ..reports._report import write_csv
+        from ..reports._report import translation_notes, write_csv
         from ..models._units import convert_rows, output_units
 
         system = output_units(units)
@@ -452,7 +452,7 @@ class Envelope:
         names.update({c: "" for c in self.columns if c.startswith("K_")})
         rows, names = convert_rows(self.columns, self.rows, names, system)
         feed = ", ".join(f"{n}={v:.6g}" for n, v in zip(self.mixture.names, self.z))
-        notes = [f"model: {self.mixture.family.label}; feed: {feed}"]
+        notes = [f"model: {self.mixture.family.label}; feed: {feed}", *translation_notes(self.stats)]
         for sp in self.special_points:
             notes.append(f"{sp['kind']}: T = {sp['values']['T']!r} K, P = {sp['values']['P']!r} Pa")
         return write_csv(path, self.columns, rows, names, title="phase envelope", notes=notes)

@@ -50,7 +50,7 @@ from contin import InputError
 from ..models._caution import CAUTION
 from ..models._components import Component, lookup
 from ..models._eos import GAS_CONSTANT, CubicFamily, family
-from ..reports._report import csv_text, atomic_write_text
+from ..reports._report import atomic_write_text, csv_text, translation_notes
 
 __all__ = [
     "CubicFluid",
@@ -663,7 +663,7 @@ class CurveResult:
 
         c = self.component
         notes = [f"fluid: {c.name} (Tc = {c.Tc:g} K, Pc = {c.Pc:g} Pa, omega = {c.omega:g}; {c.source})",
-                 f"equation of state: {self.family.label} ({self.family.reference})"]
+                 f"equation of state: {self.family.label} ({self.family.reference})", *translation_notes(self.stats)]
         rows, names = convert_rows(self.columns, self.points.tolist(), self.units, output_units(units))
         return csv_text(self.columns, rows, names, title=f"{self.kind} curve", notes=notes)
 

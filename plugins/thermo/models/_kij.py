@@ -35,13 +35,15 @@ from importlib import resources
 import numpy as np
 
 from contin import InputError
+from contin.base import suggest
 
 from ._caution import CAUTION
 from ._components import FORMULAS, Component, lookup
 from ._eos import GAS_CONSTANT
 from ._units import parse_number
 
-__all__ = ["KijDefaults", "chueh_prausnitz", "critical_volume", "default_kij", "kij_table", "kij_matrix", "split_pair"]
+__all__ = ["KIJ_BASES", "KijDefaults", "chueh_prausnitz", "critical_volume", "default_kij", "kij_table", "kij_matrix",
+           "resolve_kij", "split_pair"]
 
 #: The table's n-alkanes counted as heavy ends (the rest of the table is light or not a hydrocarbon).
 HEAVY_TABLE_NAMES = ("n-heptane", "n-octane", "n-nonane", "n-decane", "n-dodecane")
@@ -50,6 +52,9 @@ _SOURCE_CP = ("Chueh & Prausnitz, AIChE J. 13 (1967) 1099, exponent {n:g}; Vc = 
               "Zc = 0.291 - 0.080 omega (Pitzer et al. 1955, memory)")
 _SOURCE_ZERO = "no default for this pair: 0 (hydrocarbon pairs: common practice)"
 _SOURCE_UNKNOWN = "no default for this pair in the table: 0; give a value if one is published for it"
+_SOURCE_NONE = "none: 0 (kij none)"
+#: The bases of a kij request: the default table and correlation, or zeros; user pairs override either.
+KIJ_BASES = ("defaults", "none")
 
 
 @lru_cache(maxsize=1)
@@ -243,3 +248,37 @@ def kij_matrix(pairs: Mapping[str, float] | Iterable[tuple[str, float]] | None, 
         given[key] = shown
         kij[i, j] = kij[j, i] = number
     return kij
+
+
+def resolve_kij(components: Sequence[Component], eos: str, base: str,
+                pairs: Iterable[tuple[str, float]] = (), extra: Sequence[Component] = (), *,
+                argument: str = "kij") -> KijDefaults:
+    """The kij of a mixture with every pair's source: ``base`` (``"defaults"``, :func:`default_kij`, or
+    ``"none"``, zeros) with the user's ``pairs`` (``("methane-ethane", 0.01)`` items, read as by
+    :func:`kij_matrix`) overriding single pairs (source ``"user"``).
+
+    Raises:
+        InputError: an unknown base, or a pair :func:`kij_matrix` refuses.
+    """
+    if base not in KIJ_BASES:
+        raise InputError(f"{argument}: unknown base {base!r}; choose defaults or none, then pairs such as "
+                         f"methane-ethane=0.01{suggest(str(base), KIJ_BASES)}")
+    components = tuple(components)
+    names = [c.name for c in components]
+    pairs = list(pairs)
+    user = kij_matrix(pairs, names, extra, argument=argument)  # checks every pair before it is used
+    overrides = {}
+    for pair, _ in pairs:
+        i, j = split_pair(pair, names, extra, argument)
+        overrides[(names[i], names[j])] = float(user[i, j])
+    name = getattr(eos, "name", eos)
+    if base == "defaults":
+        if name not in ("pr", "srk"):
+            raise InputError(f"{argument} defaults: the default table is for the pr and srk equations only; with "
+                             f"{name} use '{argument} none' (then pairs, if you have values)")
+        return default_kij(components, name, overrides=overrides)
+    matrix = user.copy()
+    matrix.setflags(write=False)
+    sources = {(a, b): ("user" if (a, b) in overrides or (b, a) in overrides else _SOURCE_NONE)
+               for i, a in enumerate(names) for b in names[i + 1:]}
+    return KijDefaults(tuple(names), name, matrix, sources)

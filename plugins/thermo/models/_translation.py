@@ -38,8 +38,8 @@ from ._caution import CAUTION
 from ._components import Component
 from ._eos import GAS_CONSTANT, family
 
-__all__ = ["JHAVERI_YOUNGREN", "VolumeShifts", "rackett_compressibility", "translate_curve", "translate_volume",
-           "translated_ln_phi", "volume_shifts"]
+__all__ = ["JHAVERI_YOUNGREN", "VolumeShifts", "rackett_compressibility", "translate_curve", "translate_mixture_result",
+           "translate_volume", "translated_ln_phi", "volume_shifts"]
 
 #: Jhaveri & Youngren (1988) dimensionless shifts s = c/b for the Peng-Robinson equation (memory).
 JHAVERI_YOUNGREN = {
@@ -84,6 +84,10 @@ class VolumeShifts:
         """The mixture's shift sum x_i c_i (m^3/mol) for mole fractions ``x`` (normalised here)."""
         x = np.asarray(x, dtype=float)
         return float(self.c @ x / x.sum())
+
+    def as_dict(self) -> dict:
+        """``components``, ``c`` (m^3/mol) and ``sources``, for JSON output and run records."""
+        return {"components": list(self.names), "c": [float(c) for c in self.c], "sources": list(self.sources)}
 
 
 def volume_shifts(
@@ -160,35 +164,77 @@ def translated_ln_phi(ln_phi: np.ndarray, shifts: VolumeShifts, T: float, P: flo
     return np.asarray(ln_phi, dtype=float) - shifts.c * (P / (GAS_CONSTANT * T))
 
 
+def _moved_table(columns: Sequence[str], rows, shift_of) -> list:
+    """Rows with every molar-volume column ``v...`` less its shift ``shift_of(row, column)``, and the
+    densities ``rho...`` and compressibility ``Z`` recomputed from them; other columns untouched."""
+    out = []
+    for row in rows:
+        row = list(row)
+        for k, column in enumerate(columns):
+            if column == "v" or column.startswith("v_"):
+                row[k] = float(row[k]) - shift_of(row, column)
+        for k, column in enumerate(columns):
+            if column.startswith("rho"):
+                row[k] = 1.0 / row[columns.index("v" + column[3:])]
+            elif column == "Z":
+                row[k] = row[columns.index("P")] * row[columns.index("v")] / (GAS_CONSTANT * row[columns.index("T")])
+        out.append(row)
+    return out
+
+
 def translate_curve(curve, *, correlation: str | None = None, molar_mass: float | None = None):
-    """A saturation :class:`~contin_thermo.curves._pure.CurveResult` with translated volumes and densities.
+    """A pure-fluid :class:`~contin_thermo.curves._pure.CurveResult` (saturation curve, spinodal or
+    critical point) with translated volumes, densities and Z.
 
     Temperatures, pressures and enthalpies of vaporisation are untouched (the translation leaves the
-    equilibrium unchanged and v_vapour - v_liquid too); v_liquid, v_vapour and the densities move.
-    ``stats["volume_translation"]`` names the shift and its source.
+    equilibrium unchanged, the spinodal pressures too, and v_vapour - v_liquid); every volume moves by
+    the shift c. ``stats["volume_translation"]`` names the shift and its source.
 
     Raises:
-        InputError: a result that is not a saturation curve, or an equation of state without shifts.
+        InputError: an equation of state without shifts, or a shift that is not finite.
     """
-    if curve.kind != "saturation":
-        raise InputError(f"translate_curve takes a saturation curve, not a {curve.kind!r} result")
     masses = {curve.component.name: molar_mass} if molar_mass is not None else None
     shifts = volume_shifts([curve.component], curve.family.name, correlation=correlation, molar_masses=masses)
     c = float(shifts.c[0])
-    columns = curve.columns
-
-    def moved(points: np.ndarray) -> np.ndarray:
-        points = np.array(points, dtype=float, copy=True)
-        if points.size == 0:
-            return points
-        for volume, density in (("v_liquid", "rho_liquid"), ("v_vapour", "rho_vapour")):
-            points[:, columns.index(volume)] -= c
-            points[:, columns.index(density)] = 1.0 / points[:, columns.index(volume)]
-        return points
-
-    stats = {**curve.stats, "volume_translation": {"c": c, "source": shifts.sources[0]}}
     if not math.isfinite(c):
         raise InputError(f"{curve.component.name}: the volume shift is not finite; check Tc, Pc and omega")
+    columns = list(curve.columns)
+
+    def moved(points: np.ndarray) -> np.ndarray:
+        points = np.asarray(points, dtype=float)
+        return np.array(_moved_table(columns, points.tolist(), lambda row, column: c), dtype=float).reshape(points.shape)
+
+    stats = {**curve.stats, "volume_translation": {"c": c, "source": shifts.sources[0]}}
     special = tuple({**sp, "values": {k: (v - c if k == "v" else v) for k, v in sp["values"].items()}}
                     for sp in curve.special_points)
     return replace(curve, points=moved(curve.points), at=moved(curve.at), special_points=special, stats=stats)
+
+
+def translate_mixture_result(result, z=None, *, correlation: str | None = None,
+                             molar_masses: Mapping[str, float] | None = None):
+    """A phase envelope or a binary Pxy/Txy diagram (``.mixture``, ``.columns``, ``.rows``, ``.stats``)
+    with translated volumes; temperatures, pressures, K-values and compositions untouched.
+
+    Each volume moves by the shift of its own phase's composition: on an envelope ``v_feed`` by that
+    of the feed ``z`` and ``v_incipient`` by that of the incipient phase w_i = K_i z_i / sum K z; on a
+    binary diagram ``v_liquid`` by that of (x1, 1 - x1) and ``v_vapour`` by that of (y1, 1 - y1).
+
+    Raises:
+        InputError: an equation of state without shifts.
+    """
+    mixture = result.mixture
+    shifts = volume_shifts(mixture.components, mixture.family.name, correlation=correlation,
+                           molar_masses=molar_masses)
+    columns = list(result.columns)
+    k_columns = [k for k, column in enumerate(columns) if column.startswith("K_")]
+
+    def shift_of(row, column):
+        if column == "v_feed":
+            return shifts.of(z)
+        if column == "v_incipient":
+            return shifts.of(np.array([row[k] for k in k_columns]) * np.asarray(z, dtype=float))
+        first = row[columns.index("x1" if column == "v_liquid" else "y1")]
+        return shifts.of([first, 1.0 - first])
+
+    stats = {**result.stats, "volume_translation": shifts.as_dict()}
+    return replace(result, rows=_moved_table(columns, result.rows, shift_of), stats=stats)

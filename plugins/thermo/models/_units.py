@@ -1,7 +1,8 @@
 """Temperatures and pressures with units on input; named unit sets on output.
 
 Input accepts a bare number (SI: K, Pa) or a number followed by a unit: ``K``, ``degC``, ``degF``,
-``degR``, ``bar``, ``MPa``, ``kPa``, ``Pa``, ``psia``, ``atm``. Files and JSON are always SI; the
+``degR``, ``bar``, ``MPa``, ``kPa``, ``Pa``, ``psia``, ``atm``, and the gauge pressures ``barg``,
+``psig`` and ``kPag`` (above a stated atmospheric pressure, 101325 Pa unless given). Files and JSON are always SI; the
 printed summary and CSV may use a unit set named by what it contains: ``si`` (K, Pa), ``degC-bar``
 or ``degF-psia``.
 """
@@ -17,7 +18,10 @@ from contin import InputError
 from contin.base import suggest
 
 __all__ = [
+    "GAUGE_UNITS",
     "PRESSURE_UNITS",
+    "STANDARD_ATMOSPHERE",
+    "gauge_unit",
     "TEMPERATURE_UNITS",
     "UNIT_SYSTEMS",
     "UNIT_SYSTEMS_HELP",
@@ -53,7 +57,10 @@ PRESSURE_UNITS: dict[str, float] = {
     "atm": 101325.0,
     "psia": PSI,
 }
-_KINDS = {"temperature": TEMPERATURE_UNITS, "pressure": PRESSURE_UNITS}
+#: Gauge pressures: absolute = value x factor + atmospheric pressure.
+GAUGE_UNITS: dict[str, float] = {"barg": 1e5, "psig": PSI, "kPag": 1e3}
+STANDARD_ATMOSPHERE = 101325.0  # Pa (exact, definition)
+_KINDS = {"temperature": TEMPERATURE_UNITS, "pressure": {**PRESSURE_UNITS, **GAUGE_UNITS}}
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z]*)\s*$", re.ASCII)
 _PLAIN = re.compile(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*$", re.ASCII)
 _NOT_FINITE = re.compile(r"^\s*[-+]?(?:nan|inf|infinity)\s*$", re.IGNORECASE)
@@ -107,17 +114,25 @@ def _unit_kind(unit: str) -> str | None:
     return None
 
 
-def parse_quantity(text: str | float, kind: str, argument: str) -> float:
+def gauge_unit(text) -> str | None:
+    """The gauge unit (``barg``, ``psig``, ``kPag``) that ``text`` is written in, or None."""
+    match = _NUMBER.match(str(text)) if isinstance(text, str) else None
+    return match.group(2) if match and match.group(2) in GAUGE_UNITS else None
+
+
+def parse_quantity(text: str | float, kind: str, argument: str, *, atmosphere: float = STANDARD_ATMOSPHERE) -> float:
     """A temperature (K) or pressure (Pa) from ``text``: a bare SI number or a number with a unit.
 
     Args:
         text: e.g. ``"300"``, ``"26.85 degC"``, ``"50 bar"``, ``"14.7psia"``, or a number.
         kind: ``"temperature"`` or ``"pressure"``.
         argument: the option or key being read, named in error messages.
+        atmosphere: the atmospheric pressure (Pa) that gauge pressures are above.
 
     Raises:
         InputError: not a number, an unknown unit (with the nearest valid one), a unit of the other
-            kind ("a pressure given in K"), or a temperature at or below absolute zero.
+            kind ("a pressure given in K"), a temperature at or below absolute zero, or a gauge
+            pressure at or below minus one atmosphere (no absolute pressure).
     """
     if isinstance(text, bool):
         raise InputError(f"{argument}: {str(text).lower()} is a boolean, not a {kind}")
@@ -152,6 +167,13 @@ def parse_quantity(text: str | float, kind: str, argument: str) -> float:
         if kelvin <= 0.0:
             raise InputError(f"{argument}: {text!r} is at or below absolute zero")
         return kelvin
+    if unit in GAUGE_UNITS:
+        pascal = value * GAUGE_UNITS[unit] + atmosphere
+        if not pascal > 0.0:
+            raise InputError(f"{argument}: {text!r} is a gauge pressure at or below -1 atm (the atmosphere of "
+                             f"{atmosphere:g} Pa), which leaves no absolute pressure; a gauge pressure must lie "
+                             "above minus the atmosphere")
+        return pascal
     pascal = value * PRESSURE_UNITS[unit or "Pa"]
     if pascal <= 0.0:
         raise InputError(f"{argument}: {text!r} must be a positive pressure")
@@ -163,17 +185,18 @@ def parse_temperature(text: str | float, argument: str = "temperature") -> float
     return parse_quantity(text, "temperature", argument)
 
 
-def parse_pressure(text: str | float, argument: str = "pressure") -> float:
-    """A pressure in Pa from a bare number (Pa) or a number with a unit (Pa, kPa, MPa, bar, atm, psia)."""
-    return parse_quantity(text, "pressure", argument)
+def parse_pressure(text: str | float, argument: str = "pressure", *, atmosphere: float = STANDARD_ATMOSPHERE) -> float:
+    """A pressure in Pa from a bare number (Pa) or a number with a unit (Pa, kPa, MPa, bar, atm, psia; gauge
+    barg, psig, kPag above ``atmosphere``)."""
+    return parse_quantity(text, "pressure", argument, atmosphere=atmosphere)
 
 
-def parse_list(text: str, kind: str, argument: str) -> list[float]:
+def parse_list(text: str, kind: str, argument: str, *, atmosphere: float = STANDARD_ATMOSPHERE) -> list[float]:
     """A comma-separated list of temperatures or pressures, each with an optional unit."""
     parts = [part for part in str(text).split(",") if part.strip()]
     if not parts:
         raise InputError(f"{argument}: give at least one value (comma-separated)")
-    return [parse_quantity(part, kind, argument) for part in parts]
+    return [parse_quantity(part, kind, argument, atmosphere=atmosphere) for part in parts]
 
 
 @dataclass(frozen=True)

@@ -12,7 +12,7 @@ from contin.base import write_text_atomically
 
 from ..models._caution import CAUTION, caution_comment
 
-__all__ = ["atomic_write_text", "csv_text", "write_csv", "summary_lines", "format_value", "table_frame"]
+__all__ = ["atomic_write_text", "csv_text", "translation_notes", "write_csv", "summary_lines", "format_value", "table_frame"]
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:
@@ -65,6 +65,20 @@ def csv_text(
     for row in rows:
         writer.writerow([format_value(v) for v in row])
     return head.getvalue()
+
+
+def translation_notes(stats: Mapping) -> list[str]:
+    """CSV note lines saying that volumes are translated, with each shift and its source (none if not)."""
+    moved = stats.get("volume_translation")
+    if moved is None:
+        return []
+    if "components" in moved:
+        shifts = "; ".join(f"{n}: c = {c!r} m3/mol ({s})" for n, c, s in zip(moved["components"], moved["c"],
+                                                                              moved["sources"]))
+    else:
+        shifts = f"c = {moved['c']!r} m3/mol ({moved['source']})"
+    return ["volumes and densities translated, v = v_eos - sum x_i c_i (temperatures and pressures unchanged): "
+            + shifts]
 
 
 def write_csv(path: str | Path, columns, rows, units, *, title: str = "", notes: Sequence[str] = ()) -> Path:
