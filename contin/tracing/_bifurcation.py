@@ -27,7 +27,8 @@ from ._extended import Extended
 from ._locate import IllinoisBracket, Located, locate_zero
 from ..base._names import suggest
 from ..systems._system import finite_difference_step
-from ._tangent import Bordered, SingularMatrix, tangent
+from ._linear import LinearSolver, dense, is_sparse, solver_for
+from ._tangent import SingularMatrix, factorise_bordered, tangent
 
 __all__ = [
     "DETECTABLE",
@@ -90,46 +91,46 @@ def check_detect(detect, system, folds: Sequence[str]) -> frozenset[str]:
 
 
 # -- branch points ---------------------------------------------------------------------------------
-def bordered_sign(factors: tuple, along: float, index: np.ndarray) -> int:
-    """Sign of det [dG/dx; t] from LAPACK LU factors ``(lu, piv)`` of [dG/dx; row].
+def bordered_sign(factors, along: float) -> int:
+    """Sign of det [dG/dx; t] from the linear solver's factors of [dG/dx; row].
 
     The determinant is linear in the last row and vanishes for rows orthogonal to the tangent, so
-    det [dG/dx; row] = det [dG/dx; t] (row . t): the sign needs only the signs of diag(U), the parity
-    of the row swaps and the sign of row . t — about two microseconds on top of the corrector's
-    factorisation, which is why it can run at every step.
+    det [dG/dx; row] = det [dG/dx; t] (row . t): the sign needs only the sign of the factors'
+    determinant (the signs of the pivots and the parity of the permutations, counted exactly in
+    integers) and the sign of row . t — microseconds on top of the corrector's factorisation for a
+    dense LU, one pass over the pivots for a sparse one, which is why it can run at every step.
 
     Args:
-        factors: ``(lu, piv)`` from LAPACK getrf of [dG/dx; row].
+        factors: the solver's factors of [dG/dx; row] (their ``sign()``).
         along: row . t (for the pseudo-arclength row, the cosine of the turn between the tangents).
-        index: ``numpy.arange(n + 1)``, made once per trace.
 
     Returns:
         +1 or -1; 0 when ``row`` is orthogonal to ``t`` (then the caller computes the determinant).
     """
     if along == 0.0:
         return 0
-    lu, piv = factors
-    # The parity of (negative pivots) + (row swaps) is the parity of their exclusive or: one count.
-    odd = np.count_nonzero(np.signbit(lu.diagonal()) ^ (piv != index)) & 1
-    return (-1 if odd else 1) * (1 if along > 0.0 else -1)
+    return factors.sign() * (1 if along > 0.0 else -1)
 
 
-def determinant_sign(jacobian: np.ndarray, t: np.ndarray) -> int:
+def determinant_sign(jacobian, t: np.ndarray, solver: LinearSolver | None = None) -> int:
     """Sign of det [dG/dx; t] computed directly (the rare path: no usable factors)."""
-    sign, _ = np.linalg.slogdet(np.vstack([jacobian, t]))
+    sign, _ = (solver or solver_for(jacobian)).log_determinant(jacobian, t)
     return int(sign)
 
 
-def _log_scale(jacobian: np.ndarray) -> float:
+def _log_scale(jacobian) -> float:
     """log of the product of the Jacobian's row lengths (Hadamard's bound on the bordered determinant)."""
-    lengths = np.sqrt(np.einsum("ij,ij->i", jacobian, jacobian))
+    if is_sparse(jacobian):
+        lengths = np.sqrt(np.asarray(jacobian.multiply(jacobian).sum(axis=1)).reshape(-1))
+    else:
+        lengths = np.sqrt(np.einsum("ij,ij->i", jacobian, jacobian))
     lengths = lengths[lengths > 0.0]
     return float(np.log(lengths).sum())
 
 
-def _scaled_determinant(jacobian: np.ndarray, row: np.ndarray, log_scale: float) -> float:
+def _scaled_determinant(jacobian, row: np.ndarray, log_scale: float) -> float:
     """det [dG/dx; row] divided by a scale fixed over the bracket, so it is smooth (and of order one)."""
-    sign, logarithm = np.linalg.slogdet(np.vstack([jacobian, row]))
+    sign, logarithm = solver_for(jacobian).log_determinant(jacobian, row)
     if sign == 0.0:
         return 0.0
     return float(sign) * math.exp(min(logarithm - log_scale, 700.0))
@@ -156,9 +157,14 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
     norm = float(abs(residual).max()) if residual.size else 0.0
     if residual_converged(residual, jacobian, guess, options.tolerance, extended.relative_tolerance, False):
         return Correction(True, guess.copy(), residual, jacobian, 0, norm), jacobian
-    matrix = np.vstack([jacobian, unit])
     rhs = np.append(-residual, 0.0)
-    step = np.linalg.lstsq(matrix, rhs, rcond=None)[0]
+    if is_sparse(jacobian):
+        from scipy.sparse import csr_array, vstack
+        from scipy.sparse.linalg import lsqr
+
+        step = lsqr(vstack([jacobian, csr_array(unit[None, :])]), rhs, atol=1e-14, btol=1e-14)[0]
+    else:
+        step = np.linalg.lstsq(np.vstack([jacobian, unit]), rhs, rcond=None)[0]
     nudged = guess + step
     correction = correct(extended, nudged, unit, float(unit @ guess), **keywords)
     if correction.converged:
@@ -168,7 +174,7 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
 
 def _tangent_or(jacobian: np.ndarray, row: np.ndarray, reference: np.ndarray) -> np.ndarray:
     try:
-        return tangent(Bordered(jacobian, row), reference)
+        return tangent(factorise_bordered(jacobian, row), reference)
     except SingularMatrix:
         return reference.copy()
 
@@ -199,16 +205,19 @@ def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: flo
     Jacobian of this system is regular, so Newton converges quadratically from the located bracket
     (Moore, The numerical treatment of non-trivial bifurcation points, Numer. Funct. Anal. Optim. 2,
     1980; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, section 5.5).
-    The Hessian of phi . G is taken by central differences of the exact Jacobian.
+    The Hessian of phi . G is taken by central differences of the exact Jacobian. On the sparse path
+    (a Jacobian given as a scipy.sparse matrix) there is no refinement: that Hessian costs 2 (n + 1)
+    Jacobians and a dense system of 2n + 2 rows, so the bracket's point stands.
 
     Returns:
         (the refined point with ``located_to`` the length of the last Newton correction of x, or None
-        if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch), and the length
-        of the first correction of x: an estimate of how far x itself is from the branch point.
+        if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch, or the Jacobian is
+        sparse), and the length of the first correction of x: an estimate of how far x itself is from
+        the branch point (inf when not known).
     """
     n = extended.n
     residual, jacobian = extended.linearise(x)
-    if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+    if is_sparse(jacobian) or not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
         return None, math.inf
     try:
         left = np.linalg.svd(jacobian)[0]

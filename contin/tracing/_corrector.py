@@ -6,9 +6,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg.lapack import dgetrf, dgetrs
 
 from ._extended import Extended
+from ._linear import SingularMatrix, all_finite
 
 __all__ = ["Correction", "correct", "residual_converged", "term_sizes"]
 
@@ -24,7 +24,7 @@ def term_sizes(jacobian: np.ndarray, x: np.ndarray) -> np.ndarray:
     counted at least at unit size), so the rounding error of G_i is a small multiple of
     machine epsilon times w_i; it scales with the equation (multiplying G_i by c multiplies w_i by |c|).
     """
-    return np.abs(jacobian) @ np.maximum(1.0, np.abs(x))
+    return abs(jacobian) @ np.maximum(1.0, np.abs(x))
 
 
 def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
@@ -46,7 +46,7 @@ def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray
 def _stalled_reason(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
                     relative_tolerance: float, norm: float) -> str | None:
     """The failure reason when the residual is already near the rounding level of its terms, else None."""
-    if not residual.size or not math.isfinite(norm) or jacobian is None or not np.all(np.isfinite(jacobian)):
+    if not residual.size or not math.isfinite(norm) or jacobian is None or not all_finite(jacobian):
         return None
     sizes = term_sizes(jacobian, x)
     worst = int(np.argmax(abs(residual) / np.maximum(sizes, 1e-300)))
@@ -78,7 +78,7 @@ class Correction:
     iterations: int
     residual_norm: float
     reason: str = ""
-    factors: tuple | None = None  # LAPACK LU of [jacobian; row] when the last iteration factorised exactly that
+    factors: object | None = None  # the solver's factors of [jacobian; row] when the last iteration made exactly those
 
 
 def correct(
@@ -157,23 +157,19 @@ def correct(
     scale = 1.0 + float(abs(x).max())
     step_tolerance = max(math.sqrt(tolerance), 1e-8) * scale
     size = row.size
-    matrix = np.empty((size, size))
+    solver = extended.solver
     rhs = np.empty(size)
     last_step = math.inf
     previous_norm = math.inf
     counters = extended.counters
     for iteration in range(1, max_iterations + 1):
-        # Factorise [dG/dx; row] in place with LAPACK (the scipy.linalg wrappers cost more than the
-        # factorisation itself at these sizes).
-        matrix[:-1] = jacobian
-        matrix[-1] = row
-        lu, piv, info = dgetrf(matrix, overwrite_a=True)
-        pivots = abs(lu.diagonal())
-        if info != 0 or not pivots.min() > 1e-13 * max(1.0, float(pivots.max())):
+        try:
+            factors = solver.factorise(jacobian, row)
+        except SingularMatrix:
             return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
         rhs[:-1] = -residual
         rhs[-1] = target - row @ x
-        dx, _ = dgetrs(lu, piv, rhs)
+        dx = factors.solve(rhs)
         step = float(abs(dx).max())
         counters.newton_iterations += 1
         if not math.isfinite(step):
@@ -184,7 +180,7 @@ def correct(
             if jacobian_here and last_step <= step_tolerance and residual_converged(
                     residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm):
                 return Correction(True, x, residual, jacobian, iteration - 1, norm,
-                                  factors=None if exact_jacobian else (lu, piv))
+                                  factors=None if exact_jacobian else factors)
             reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm)
             return Correction(False, x, residual, jacobian, iteration, norm, reason or "Newton diverged")
         x = x + dx
@@ -200,7 +196,7 @@ def correct(
             residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm)
         if converged and jacobian_here and not exact_jacobian:
             # The Jacobian kept is the one just factorised with this row: its LU serves the tangent.
-            return Correction(True, x, residual, jacobian, iteration, norm, factors=(lu, piv))
+            return Correction(True, x, residual, jacobian, iteration, norm, factors=factors)
         residual, jacobian = extended.linearise(x)
         jacobian_here = True
         # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).

@@ -22,7 +22,8 @@ from ._options import TraceOptions
 from ..results._status import Status
 from ._stepsize import StepController
 from ..systems._system import System
-from ._tangent import Bordered, SingularMatrix, from_factors, one_blas_thread, tangent
+from ._linear import LinearSolver, all_finite
+from ._tangent import SingularMatrix, factorise_bordered, one_blas_thread, tangent
 
 __all__ = ["trace", "start_vector"]
 
@@ -142,6 +143,7 @@ def trace(
     max_turn: float = 0.5,
     max_correction: float = 0.5,
     max_iterations: int = 8,
+    linear_solver: str | LinearSolver = "auto",
     bounds: Mapping[str, Sequence[float]] | None = None,
     events: Sequence[Event] = (),
     at: Mapping[str, Sequence[float]] | None = None,
@@ -182,7 +184,8 @@ def trace(
         parameters: values overriding the system's parameter values (the free one's is the start).
         direction, step, min_step, max_step, max_points, tolerance, relative_tolerance, max_iterations,
             corrector, max_turn, max_correction: see :class:`TraceOptions` (which also states Newton's
-            convergence test exactly); or pass ``options`` instead (not both). ``max_turn`` (radians
+            convergence test exactly), and ``linear_solver`` (dense or sparse LU of the bordered matrix,
+            or a solver of your own: docs/linear-solvers.md); or pass ``options`` instead (not both). ``max_turn`` (radians
             between successive tangents) and ``max_correction`` (the corrector's distance from the
             predictor, as a fraction of the step) make a step shorter before it can jump over a tight
             turn or onto a nearby branch.
@@ -222,7 +225,8 @@ def trace(
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
                     relative_tolerance=relative_tolerance, max_iterations=max_iterations, direction=direction,
-                    corrector=corrector, max_turn=max_turn, max_correction=max_correction)
+                    corrector=corrector, max_turn=max_turn, max_correction=max_correction,
+                    linear_solver=linear_solver)
     if options is None:
         options = TraceOptions(**keywords)
     elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):
@@ -247,7 +251,8 @@ def trace(
         raise InputError("two events share one name; give each event its own name")
 
     counters = Counters()
-    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance)
+    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance,
+                        options.linear_solver)
     x0 = np.append(u0, parameter_values[free_index])
     for index, low, high in bound_list:
         if not low <= x0[index] <= high:
@@ -322,7 +327,6 @@ class _Run:
         self.initial_tangent: np.ndarray | None = None
         self.branch_points = False  # look for simple branch points
         self.hopf = False  # look for Hopf points (ODE systems only)
-        self.index = np.arange(0)  # 0 .. n, for the parity of LU row swaps
         # (sign of det [dF/dx; t], sign of the Hopf test, eigenvalues of dF/du with positive real part
         # or -1 when not counted) at the last accepted point
         self.signs = (0, 0, -1)
@@ -392,7 +396,7 @@ class _Run:
             return
         residual, jacobian = checked
         try:
-            Bordered(jacobian, row)
+            factorise_bordered(jacobian, row, self.extended.solver)
         except SingularMatrix:
             raise InputError(
                 f"{where} is singular at the start point ("
@@ -411,7 +415,7 @@ class _Run:
             )
             return
         try:
-            bordered = Bordered(correction.jacobian, row)
+            bordered = factorise_bordered(correction.jacobian, row, self.extended.solver)
         except SingularMatrix:
             raise InputError(
                 f"the Jacobian dF/du is singular at the corrected start point ({self.describe(correction.x)})"
@@ -421,8 +425,7 @@ class _Run:
         if self.initial_tangent is None and t[n] == 0.0:
             t = reference.copy()
         self.jacobian = correction.jacobian
-        self.index = np.arange(n + 1)
-        self.signs = self.test_signs(bordered.factors, float(row @ t), t, correction.jacobian)
+        self.signs = self.test_signs(bordered, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
         self.event_slopes = [self.event_slope(event, correction.x, t) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
@@ -452,7 +455,7 @@ class _Run:
                              "give one equation per unknown")
         with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
             residual, jacobian = self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
-        if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+        if not (np.all(np.isfinite(residual)) and all_finite(jacobian)):
             detail = describe_non_finite(self.extended, x0, residual, jacobian)
             self.finish(Status.NON_FINITE, f"{Status.NON_FINITE.message}: {detail}")
             return None
@@ -534,8 +537,8 @@ class _Run:
                                f"{options.max_correction:g} of the step)")
             elif correction.converged:
                 try:
-                    factored = (from_factors(correction.factors, row) if correction.factors is not None
-                                else Bordered(correction.jacobian, row))
+                    factored = (correction.factors if correction.factors is not None
+                                else factorise_bordered(correction.jacobian, row, self.extended.solver))
                     t_new = tangent(factored, t)
                     cosine = float(t_new @ t)
                     turn = math.acos(min(1.0, max(-1.0, cosine)))
@@ -570,7 +573,7 @@ class _Run:
                 h = shorter
                 continue
             x_new = correction.x
-            signs = self.test_signs(factored.factors, cosine if row is t else float(row @ t_new), t_new,
+            signs = self.test_signs(factored, cosine if row is t else float(row @ t_new), t_new,
                                     correction.jacobian)
             at_min_step = step_now <= options.min_step * (1.0 + 1e-12)
             if jump:
@@ -632,15 +635,16 @@ class _Run:
         return best
 
     # -- special points between two accepted points ---------------------------------------------
-    def test_signs(self, factors: tuple, along: float, t: np.ndarray, jacobian: np.ndarray) -> tuple[int, int, int]:
+    def test_signs(self, factors, along: float, t: np.ndarray, jacobian) -> tuple[int, int, int]:
         """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off), and
         the number of eigenvalues of dF/du with positive real part (-1 when Hopf points are not looked
-        for); ``factors`` are the LU factors of [jacobian; row] and ``along`` is row . t."""
+        for, or not counted: on the sparse path); ``factors`` are the linear solver's factors of
+        [jacobian; row] and ``along`` is row . t."""
         branch_sign = 0
         if self.branch_points:
-            branch_sign = bordered_sign(factors, along, self.index)
+            branch_sign = bordered_sign(factors, along)
             if branch_sign == 0:
-                branch_sign = determinant_sign(jacobian, t)
+                branch_sign = determinant_sign(jacobian, t, self.extended.solver)
         hopf, unstable = hopf_signature(jacobian[:, : self.extended.n]) if self.hopf else (0, -1)
         return branch_sign, hopf, unstable
 
@@ -1057,6 +1061,7 @@ class _Run:
             "rejected_steps": counters.rejected_steps,
             "rejections": dict(sorted(counters.rejections.items())),
             "points": len(self.rows),
+            "linear_solver": self.extended.solver.name,
         }
         if self.notes:
             stats["notes"] = list(self.notes)
