@@ -132,3 +132,100 @@ def test_the_sparse_path_reproduces_the_one_dimensional_bratu_fold():
     assert abs(sparse_fold.values["lambda"] - BRATU_CRITICAL_LAMBDA) < 2e-3
     for row in sparse_branch.points:  # the driver's residual test holds on the sparse path
         assert np.max(np.abs(sparse_bratu(39).residual(row[:-1], row[-1:]))) <= 1e-10
+
+
+# -- symbolic systems and problem files with indexed families ----------------------------------------
+BRATU_FILE = """\
+# The 1D Bratu problem as an indexed family, scaled by h^2 (h = 1/40)
+[unknowns]
+u = {{ count = 41, start = 0.0 }}
+[parameters]
+lambda_ = 0.0
+[constants]
+h = 0.025
+[equations]
+left = "u[0]"
+row = {{ for = "{range}", expression = "{row}" }}
+right = "u[40]"
+[trace]
+free = "lambda_"
+step = 0.1
+max_step = 0.5
+bounds = {{ lambda_ = [-0.1, 4.0], "u[20]" = [-1.0, 3.0] }}
+max_points = 400
+linear_solver = "{solver}"
+"""
+ROW = "u[i-1] - 2*u[i] + u[i+1] + h**2*lambda_*exp(u[i])"
+
+
+def write_bratu(tmp_path, range_="i in 1..40", row=ROW, solver="sparse") -> pathlib.Path:
+    path = tmp_path / "bratu.toml"
+    path.write_text(BRATU_FILE.format(range=range_, row=row, solver=solver), encoding="utf-8")
+    return path
+
+
+def test_an_indexed_problem_file_gives_the_fold_of_the_python_callable(tmp_path):
+    problem = contin.load_problem(write_bratu(tmp_path))
+    system = problem.system
+    assert system.unknowns[:2] == ("u[0]", "u[1]") and system.equations[:3] == ("left", "row[1]", "row[2]")
+    branch = contin.trace(system, dict(problem.start), **dict(problem.options))
+    assert branch.stats["linear_solver"] == "sparse_lu"
+    (fold,) = branch.special("fold")
+    _, callable_fold = bratu_fold(bratu_system(39))  # the same grid: 39 interior points, h = 1/40
+    assert fold.values["lambda_"] == pytest.approx(callable_fold.values["lambda"], abs=1e-10)
+    assert fold.point[1:40] == pytest.approx(callable_fold.point[:-1], abs=1e-8)
+
+
+def test_the_inclusive_range_gives_the_same_equations(tmp_path):
+    one = contin.load_problem(write_bratu(tmp_path, "i in 1..40")).system
+    other = contin.load_problem(write_bratu(tmp_path, "i in 1..=39")).system
+    assert one.equations == other.equations
+    u = np.linspace(0.0, 1.0, 41)
+    assert np.array_equal(one.residual(u, np.array([2.0])), other.residual(u, np.array([2.0])))
+
+
+@pytest.mark.parametrize("range_, row, message", [
+    ("i in 1..41", ROW, r"line 10: equations\.row, column 19: u\[i\+1\] is u\[41\] at i = 40, outside u\[0\.\.40\]; "
+                        r"change the index or the range$"),
+    ("i in 0..40", ROW, r"line 10: equations\.row, column 1: u\[i-1\] is u\[-1\] at i = 0, outside u\[0\.\.40\]"),
+    ("i from 1 to 40", ROW, r"line 10: equations\.row: for = 'i from 1 to 40' is not a range; write for = \"i in 1\.\.99\""),
+    ("i in 40..1", ROW, r"line 10: equations\.row: for = 'i in 40\.\.1' is empty \(40 to 0\)"),
+    ("u in 1..40", ROW, r"line 10: equations\.row: the index 'u' is also a family of unknowns"),
+    ("i in 1..40", "u[i/2] - u[i]", r"line 10: equations\.row, column 3: an index is whole numbers and index variables "
+                                    r"with \+ - \* only"),
+    ("i in 1..40", "u[j] - u[i]", r"column 3: 'j' is not an index variable \(index variables: i\)"),
+    ("i in 1..40", "v[i] - u[i]", r"equation 'row\[1\]', column 1: 'v' is not an indexed family \(families: u\)"),
+    ("i in 1..40", "u - 1", r"equation 'row\[1\]', column 1: 'u' is an indexed family: name one entry, e.g\. u\[0\]"),
+])
+def test_a_bad_family_is_named_with_file_key_and_line(tmp_path, range_, row, message):
+    path = write_bratu(tmp_path, range_, row)
+    with pytest.raises(contin.InputError, match=message) as caught:
+        contin.load_problem(path)
+    assert str(caught.value).startswith(str(path)) and "\n" not in str(caught.value)
+
+
+@pytest.mark.parametrize("family, message", [
+    ("{ count = 0 }", r"line 3: unknowns\.u: count = 0; give the number of entries as a whole number from 1"),
+    ("{ count = 3, start = [0.0, 1.0] }", r"line 3: unknowns\.u: start has 2 values but count = 3"),
+    ("{ count = 3, begin = 0.0 }", r"line 3: unknown key 'begin' in unknowns\.u \(allowed: count, start\)"),
+])
+def test_a_bad_family_of_unknowns_is_named(tmp_path, family, message):
+    path = write_bratu(tmp_path)
+    path.write_text(path.read_text().replace("{ count = 41, start = 0.0 }", family))
+    with pytest.raises(contin.InputError, match=message):
+        contin.load_problem(path)
+
+
+def test_a_large_symbolic_system_returns_only_its_non_zeros():
+    size = 450  # above SPARSE_SIZE: sparse by default
+    equations = {f"e{i}": f"x{i - 1 if i else size - 1} - 2*x{i} + p*exp(x{i})" for i in range(size)}
+    system = contin.SymbolicSystem(equations, {f"x{i}": 0.0 for i in range(size)}, {"p": 0.5}, cache=False)
+    dense_twin = contin.SymbolicSystem(equations, {f"x{i}": 0.0 for i in range(size)}, {"p": 0.5}, cache=False,
+                                       sparse=False)
+    u = np.sin(np.arange(size))
+    _, jacobian, column = system.linearise(u, np.array([0.5]), 0)
+    _, expected, expected_column = dense_twin.linearise(u, np.array([0.5]), 0)
+    assert sparse.issparse(jacobian) and jacobian.nnz == 2 * size
+    assert np.array_equal(jacobian.toarray(), expected) and np.array_equal(column, expected_column)
+    assert system.symbolic_summary()["jacobian_format"] == "sparse"
+    assert dense_twin.symbolic_summary()["jacobian_format"] == "dense"
