@@ -229,3 +229,89 @@ def test_a_large_symbolic_system_returns_only_its_non_zeros():
     assert np.array_equal(jacobian.toarray(), expected) and np.array_equal(column, expected_column)
     assert system.symbolic_summary()["jacobian_format"] == "sparse"
     assert dense_twin.symbolic_summary()["jacobian_format"] == "dense"
+
+
+# -- Hopf points on the sparse path -------------------------------------------------------------------
+def oscillator_chain(cells: int, diffusion: float = 0.1, frequency: float = 1.0) -> contin.CallableSystem:
+    """An invented ring-free chain of diffusively coupled oscillators, zero at both ends:
+
+        du_i/dt = D (u_{i-1} - 2 u_i + u_{i+1}) / h^2 + p u_i - w v_i - u_i (u_i^2 + v_i^2)
+        dv_i/dt = D (v_{i-1} - 2 v_i + v_{i+1}) / h^2 + w u_i + p v_i - v_i (u_i^2 + v_i^2)
+
+    u = v = 0 solves it for every p; there dF/du has the eigenvalues p - D m_k +- i w, with
+    m_k = (2 - 2 cos(k pi h)) / h^2 (k = 1 .. N) the eigenvalues of the discrete -d2/dx2 (common
+    practice), so the Hopf points of the zero branch are exactly p = D m_k, each with frequency w.
+    """
+    h = 1.0 / (cells + 1)
+    line = sparse.diags_array([np.ones(cells - 1), -2.0 * np.ones(cells), np.ones(cells - 1)],
+                              offsets=[-1, 0, 1]) * (diffusion / h**2)
+    eye = sparse.identity(cells)
+    rotation = sparse.csr_array(np.array([[0.0, -frequency], [frequency, 0.0]]))
+    linear = (sparse.kron(sparse.identity(2), line) + sparse.kron(rotation, eye)).tocsr()
+
+    def residual(z, p):
+        u, v = z[:cells], z[cells:]
+        size = u * u + v * v
+        return linear @ z + p[0] * z - np.concatenate([u * size, v * size])
+
+    def jacobian(z, p):
+        u, v = z[:cells], z[cells:]
+        size = u * u + v * v
+        cubic = sparse.block_array([[sparse.diags_array(size + 2 * u * u), sparse.diags_array(2 * u * v)],
+                                    [sparse.diags_array(2 * u * v), sparse.diags_array(size + 2 * v * v)]])
+        return (linear + p[0] * sparse.identity(2 * cells) - cubic).tocsr()
+
+    return contin.CallableSystem(residual, 2 * cells, {"p": -0.5}, jacobian=jacobian,
+                                 parameter_jacobian=lambda z, p: z[:, None], start=np.zeros(2 * cells), kind="ode")
+
+
+def test_hopf_points_of_a_sparse_ode_by_the_eigenvalues_nearest_zero():
+    cells, diffusion = 60, 0.1
+    h = 1.0 / (cells + 1)
+    expected = [diffusion * (2 - 2 * math.cos(k * math.pi * h)) / h**2 for k in (1, 2)]
+    branch = contin.trace(oscillator_chain(cells, diffusion), free="p", step=0.1, max_step=0.5,
+                          bounds={"p": (-0.5, 0.5 * (expected[1] + diffusion * (2 - 2 * math.cos(3 * math.pi * h)) / h**2))})
+    assert branch.stats["linear_solver"] == "sparse_lu"
+    hopf = branch.special("hopf")
+    assert [point.values["p"] for point in hopf] == pytest.approx(expected, abs=1e-9)
+    assert [point.info["angular_frequency"] for point in hopf] == pytest.approx([1.0, 1.0], abs=1e-9)
+    assert not branch.special("fold") and not branch.special("branch_point")
+
+
+# -- memory in proportion to the non-zeros ----------------------------------------------------------
+MEMORY_SCRIPT = """
+import json, resource, sys
+import numpy as np
+sys.path.insert(0, {benchmarks!r})
+import bratu2d
+import contin
+import scipy.sparse.linalg  # loaded before the limit, like everything the trace needs
+
+def virtual_bytes():
+    with open("/proc/self/status") as status:
+        return next(int(line.split()[1]) * 1024 for line in status if line.startswith("VmSize:"))
+
+grid = 100
+size = grid * grid
+limit = virtual_bytes() + 300 * 2**20  # 300 MiB more than now; one dense n x n array is 763 MiB
+resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
+try:
+    np.ones((size, size))
+    dense = "fits"
+except MemoryError:
+    dense = "MemoryError"
+branch = contin.trace(bratu2d.bratu2d_system(grid), free="lam", step=0.5, max_points=4)
+print(json.dumps({{"dense": dense, "success": branch.success, "points": len(branch.points),
+                  "solver": branch.stats["linear_solver"], "lam": float(branch.points[-1, -1])}}))
+"""
+
+
+@pytest.mark.skipif(not pathlib.Path("/proc/self/status").exists(), reason="reads VmSize from /proc")
+def test_ten_thousand_unknowns_trace_where_one_dense_matrix_would_not_fit():
+    script = MEMORY_SCRIPT.format(benchmarks=str(ROOT / "benchmarks"))
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120, check=False)
+    assert done.returncode == 0, done.stderr[-2000:]
+    result = json.loads(done.stdout)
+    assert result["dense"] == "MemoryError"  # the limit is real: the dense path could not even hold dF/du
+    assert (result["success"], result["points"], result["solver"]) == (True, 4, "sparse_lu")  # max_points reached
+    assert 0.0 < result["lam"] < 6.81  # climbing the lower branch, below the fold

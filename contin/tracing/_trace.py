@@ -27,6 +27,9 @@ from ._tangent import SingularMatrix, factorise_bordered, one_blas_thread, tange
 
 __all__ = ["trace", "start_vector"]
 
+#: Largest sparse system whose Hopf points get a first Lyapunov coefficient (it is computed densely).
+LYAPUNOV_SIZE = 1000
+
 # _special_points' answer when the trace goes on from its last row rather than from the step's end.
 RESUME = "resume"
 
@@ -705,6 +708,10 @@ class _Run:
                 if facts["kind"] == "hopf":
                     found.append((fraction_of(located.x), "hopf", facts, located))
                     hopf_crossings += 1
+                elif facts["kind"] == "jump":
+                    self.notes.append(f"the sparse Hopf test changed sign between {self.describe(xa)} and "
+                                      f"{self.describe(xb)} because the eigenvalue pair nearest the imaginary axis "
+                                      "changed, not by a crossing: no Hopf point reported")
                 else:
                     low, high = facts["eigenvalues"]
                     self.notes.append(f"neutral saddle (real eigenvalues {low:.6g} and {high:.6g}) at "
@@ -804,7 +811,10 @@ class _Run:
                 self.special.append(self.special_point("branch_point", "branch point", index, located))
             elif kind == "hopf":
                 facts = {key: payload[key] for key in ("angular_frequency", "period")}
-                facts.update(lyapunov_facts(self.system, *self.extended.split(located.x)))
+                if self.extended.solver.sparse and self.extended.n > LYAPUNOV_SIZE:
+                    facts["first_lyapunov_coefficient"] = math.nan  # needs dense eigenvectors and solves
+                else:
+                    facts.update(lyapunov_facts(self.system, *self.extended.split(located.x)))
                 self.special.append(self.special_point("hopf", "Hopf point", index, located, facts))
             elif kind == "event":
                 event = payload
