@@ -120,8 +120,12 @@ def bratu_fold(system, **keywords) -> tuple[contin.Branch, contin.SpecialPoint]:
 
 
 def test_the_sparse_path_reproduces_the_one_dimensional_bratu_fold():
-    dense_branch, dense_fold = bratu_fold(bratu_system(39))
-    sparse_branch, sparse_fold = bratu_fold(sparse_bratu(39))
+    # Requested values on both sides of the fold: the inside-step examination splits steps at turns.
+    dense_branch, dense_fold = bratu_fold(bratu_system(39), at={"lambda": [1.0, 3.5]})
+    sparse_branch, sparse_fold = bratu_fold(sparse_bratu(39), at={"lambda": [1.0, 3.5]})
+    assert [p.values["lambda"] for p in sparse_branch.at] == [1.0, 3.5, 3.5]  # up, then down past the fold
+    for ours, theirs in zip(sparse_branch.at, dense_branch.at, strict=True):
+        assert ours.point == pytest.approx(theirs.point, abs=1e-9)
     assert sparse_branch.stats["linear_solver"] == "sparse_lu"
     assert dense_branch.stats["linear_solver"] == "dense_lu"
     assert sparse_fold.values["lambda"] == pytest.approx(dense_fold.values["lambda"], abs=1e-10)
@@ -315,3 +319,82 @@ def test_ten_thousand_unknowns_trace_where_one_dense_matrix_would_not_fit():
     assert result["dense"] == "MemoryError"  # the limit is real: the dense path could not even hold dF/du
     assert (result["success"], result["points"], result["solver"]) == (True, 4, "sparse_lu")  # max_points reached
     assert 0.0 < result["lam"] < 6.81  # climbing the lower branch, below the fold
+
+
+def test_a_branch_point_by_the_sign_of_the_sparse_determinant():
+    # u0 (p - u0^2) = 0 (the pitchfork normal form; Kuznetsov 2004, ch. 7) with a chain u_k = u_{k-1} / 2
+    # behind it: the zero branch meets u0^2 = p at the branch point p = 0, u = 0.
+    size = 50
+    chain = (sparse.eye_array(size) - 0.5 * sparse.eye_array(size, k=-1)).tolil()
+    chain[0, 0] = 0.0
+
+    def residual(u, p):
+        f = chain @ u
+        f[0] = u[0] * (p[0] - u[0] ** 2)
+        return f
+
+    def jacobian(u, p):
+        j = chain.copy()
+        j[0, 0] = p[0] - 3 * u[0] ** 2
+        return j.tocsr()
+
+    system = contin.CallableSystem(residual, size, {"p": -1.0}, jacobian=jacobian,
+                                   parameter_jacobian=lambda u, p: np.eye(size, 1) * u[0], start=np.zeros(size))
+    branch = contin.trace(system, free="p", step=0.1, bounds={"p": (-1.0, 1.0)})
+    assert branch.stats["linear_solver"] == "sparse_lu"
+    (point,) = branch.special("branch_point")
+    assert point.values["p"] == pytest.approx(0.0, abs=1e-9)
+    assert np.max(np.abs(point.point[:-1])) <= 1e-9
+
+
+# -- the two-dimensional Bratu problem ----------------------------------------------------------------
+# lambda* = 6.808124 for the continuum problem on the unit square (the value reported in the literature
+# on the Bratu problem, from memory); the tests confirm it from their own grid sequence.
+BRATU_2D_CRITICAL = 6.808124
+
+
+def bratu2d_fold(grid: int, solver: str = "auto") -> contin.SpecialPoint:
+    branch = bratu2d.trace_bratu2d(grid, down_to=6.0, solver=solver)  # through the fold, a little way down
+    assert branch.success, branch.message
+    assert branch.stats["linear_solver"] == ("dense_lu" if solver == "dense" else "sparse_lu")
+    (fold,) = branch.special("fold")
+    return fold
+
+
+def test_the_2d_bratu_fold_converges_at_second_order_to_the_reported_value():
+    # Interior grids 7, 15, 31: h = 1/8, 1/16, 1/32 halves exactly, so the O(h^2) error of the
+    # 5-point Laplacian shrinks by 4 per grid and Richardson extrapolation removes it.
+    folds = [bratu2d_fold(grid).values["lam"] for grid in (7, 15, 31)]
+    differences = [coarse - fine for coarse, fine in zip(folds, folds[1:])]
+    assert all(difference < 0.0 for difference in differences)  # the discrete fold rises towards lambda*
+    assert 3.9 < differences[0] / differences[1] < 4.3  # measured 4.21 (h = 1/8 is not yet asymptotic)
+    once = [fine + (fine - coarse) / 3.0 for coarse, fine in zip(folds, folds[1:])]  # O(h^2) removed
+    twice = once[1] + (once[1] - once[0]) / 15.0  # and O(h^4) (Romberg)
+    assert once[1] == pytest.approx(BRATU_2D_CRITICAL, abs=1e-4)
+    assert twice == pytest.approx(BRATU_2D_CRITICAL, abs=1e-5)
+
+
+def test_dense_and_sparse_paths_agree_on_the_2d_bratu_fold():
+    grid = 31  # 961 unknowns: the dense path is still quick
+    dense_fold, sparse_fold = bratu2d_fold(grid, "dense"), bratu2d_fold(grid, "sparse")
+    assert sparse_fold.values["lam"] == pytest.approx(dense_fold.values["lam"], abs=1e-8)
+    assert sparse_fold.point == pytest.approx(dense_fold.point, abs=1e-8)
+
+
+def test_the_benchmark_prints_the_branch_with_lam_u_max_the_fold_and_stats(capsys):
+    assert bratu2d.main(["--grid", "6", "--json"]) == 0
+    document = json.loads(capsys.readouterr().out)
+    assert document["columns"][:2] == ["lam", "u_max"]
+    lam = [row[0] for row in document["points"]]
+    assert lam[0] == 0.0 and document["points"][0][1] == 0.0 and lam[-1] == pytest.approx(1.0, abs=1e-9)
+    (fold,) = [point for point in document["special_points"] if point["kind"] == "fold"]
+    assert fold["values"]["lam"] == pytest.approx(max(lam), abs=1e-12)  # the fold is the largest lambda
+    assert document["stats"]["linear_solver"] == "sparse_lu" and document["stats"]["points"] == len(lam)
+    assert document["case"]["unknowns"] == 36
+
+
+def test_the_benchmark_refuses_a_grid_too_small(capsys):
+    with pytest.raises(SystemExit) as stopped:
+        bratu2d.main(["--grid", "1"])
+    assert stopped.value.code == 2
+    assert capsys.readouterr().err.strip().splitlines()[-1].endswith("--grid 1: give at least 2 interior points per side")

@@ -211,17 +211,21 @@ def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: flo
     1980; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, section 5.5).
     The Hessian of phi . G is taken by central differences of the exact Jacobian. On the sparse path
     (a Jacobian given as a scipy.sparse matrix) there is no refinement: that Hessian costs 2 (n + 1)
-    Jacobians and a dense system of 2n + 2 rows, so the bracket's point stands.
+    Jacobians and a dense system of 2n + 2 rows, so the bracket's point stands, known to the reach of
+    the residual test there, sqrt(tolerance) (1 + max |x|).
 
     Returns:
         (the refined point with ``located_to`` the length of the last Newton correction of x, or None
         if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch, or the Jacobian is
         sparse), and the length of the first correction of x: an estimate of how far x itself is from
-        the branch point (inf when not known).
+        the branch point (inf when not known; on the sparse path that reach of the residual test).
     """
     n = extended.n
     residual, jacobian = extended.linearise(x)
-    if is_sparse(jacobian) or not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+    if is_sparse(jacobian):
+        # What the bracket's residual test allows: |G| grows quadratically away from a crossing.
+        return None, math.sqrt(options.tolerance) * (1.0 + float(np.abs(x).max()))
+    if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
         return None, math.inf
     try:
         left = np.linalg.svd(jacobian)[0]
