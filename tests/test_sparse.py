@@ -130,8 +130,12 @@ def test_the_sparse_path_reproduces_the_one_dimensional_bratu_fold():
     assert dense_branch.stats["linear_solver"] == "dense_lu"
     assert sparse_fold.values["lambda"] == pytest.approx(dense_fold.values["lambda"], abs=1e-10)
     assert sparse_fold.point == pytest.approx(dense_fold.point, abs=1e-8)
-    # Same steps, same points: the two factorisations differ only by rounding.
-    assert len(sparse_branch.points) == len(dense_branch.points)
+    # Without chord steps, the same steps and points: the two factorisations differ only by rounding.
+    newton_branch, _ = bratu_fold(sparse_bratu(39), at={"lambda": [1.0, 3.5]}, linear_solver=contin.SparseLU(chord=False))
+    assert len(newton_branch.points) == len(dense_branch.points)
+    assert newton_branch.points == pytest.approx(dense_branch.points, abs=1e-9)
+    # Chord steps re-use factors: fewer Jacobians than Newton's method for the same branch.
+    assert sparse_branch.stats["jacobian_evaluations"] < newton_branch.stats["jacobian_evaluations"]
     # h = 1/40: the O(h^2) discretisation error of the fold (Boundary Value Problems 2013:142 for λc).
     assert abs(sparse_fold.values["lambda"] - BRATU_CRITICAL_LAMBDA) < 2e-3
     for row in sparse_branch.points:  # the driver's residual test holds on the sparse path

@@ -12,6 +12,11 @@ from ._linear import SingularMatrix, all_finite
 
 __all__ = ["Correction", "correct", "residual_converged", "term_sizes"]
 
+# Chord steps (a solver with ``chord = True``) keep the factors of the iteration while each Newton step
+# is at most this fraction of the one before: linear convergence that fast reaches the tolerance within
+# the iteration limit from a predictor error of 1e-4; slower contraction refreshes the Jacobian.
+CHORD_CONTRACTION = 0.2
+
 # The stall diagnosis: a residual within this fraction of its equation's term sizes is at (or near)
 # the rounding level of the evaluation, so more Newton iterations cannot bring it down.
 _NEAR_ROUNDING = 1e-9
@@ -139,7 +144,10 @@ def correct(
     options to raise.
 
     Each iteration evaluates only the residual at the new iterate; the Jacobian there is evaluated
-    only if another iteration is needed (or an exact one was asked for).
+    only if another iteration is needed (or an exact one was asked for). With a linear solver that
+    sets ``chord = True`` (the sparse LU), an iteration re-uses the factors of the one before (a chord
+    step: no Jacobian, no factorisation) while each step is at most :data:`CHORD_CONTRACTION` of the
+    previous one, and the Jacobian returned is evaluated at the corrected point.
     """
     x = np.array(guess, dtype=float)
     if relative_tolerance is None:
@@ -162,11 +170,14 @@ def correct(
     last_step = math.inf
     previous_norm = math.inf
     counters = extended.counters
+    chord = bool(getattr(solver, "chord", False))
+    factors = None
     for iteration in range(1, max_iterations + 1):
-        try:
-            factors = solver.factorise(jacobian, row)
-        except SingularMatrix:
-            return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
+        if factors is None:
+            try:
+                factors = solver.factorise(jacobian, row)
+            except SingularMatrix:
+                return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
         rhs[:-1] = -residual
         rhs[-1] = target - row @ x
         dx = factors.solve(rhs)
@@ -197,6 +208,13 @@ def correct(
         if converged and jacobian_here and not exact_jacobian:
             # The Jacobian kept is the one just factorised with this row: its LU serves the tangent.
             return Correction(True, x, residual, jacobian, iteration, norm, factors=factors)
+        if chord and not converged and (iteration == 1 or step <= CHORD_CONTRACTION * last_step):
+            # A chord step: the same factors again, while they still contract the step fast enough
+            # (they are no longer those of the latest iterate, so a converged point gets its own Jacobian).
+            last_step = step
+            jacobian_here = False
+            continue
+        factors = None
         residual, jacobian = extended.linearise(x)
         jacobian_here = True
         # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).

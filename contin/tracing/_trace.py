@@ -522,6 +522,7 @@ class _Run:
                 target = float(predicted[j])
             else:
                 row, target = t, float(t @ predicted)
+            jacobians_before = self.extended.counters.jacobian_evaluations
             if passage is not None:
                 # Near the singular point Newton is ill-conditioned: the exact Jacobian, more
                 # iterations, no divergence guard (the fixed coordinate keeps it off the second family).
@@ -534,6 +535,7 @@ class _Run:
                 correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
                                      max_iterations=options.max_iterations, jacobian=self.jacobian,
                                      max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
+            jacobians_used = self.extended.counters.jacobian_evaluations - jacobians_before
             accepted = False
             if correction.converged and not jump and _length(correction.x - predicted) > options.max_correction * step_now:
                 last_reason = (f"corrector moved too far from the predictor (more than max_correction = "
@@ -609,7 +611,9 @@ class _Run:
             travelled = _length(x_new - x)
             curvature = (t_new - t) / travelled if travelled > 0.0 and self.rows[-2] is x else None
             x, t = x_new, t_new
-            h = self.controller.after_success(h, correction.iterations, turn)
+            # With chord steps an iteration costs a solve, not a Jacobian: the effort is the Jacobians.
+            effort = jacobians_used if self.extended.solver.chord else correction.iterations
+            h = self.controller.after_success(h, effort, turn)
 
     def _next_requested_value(self, x: np.ndarray, t: np.ndarray, h: float) -> tuple[float, int, float] | None:
         """(step, coordinate, value) of the nearest requested value the next step would pass, if the
