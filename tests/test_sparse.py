@@ -402,3 +402,28 @@ def test_the_benchmark_refuses_a_grid_too_small(capsys):
         bratu2d.main(["--grid", "1"])
     assert stopped.value.code == 2
     assert capsys.readouterr().err.strip().splitlines()[-1].endswith("--grid 1: give at least 2 interior points per side")
+
+
+def test_a_large_point_is_described_by_a_few_coordinates():
+    branch = bratu2d.trace_bratu2d(8)
+    assert branch.message.startswith("completed: stopped by a terminal event 'lam = 1 on the upper branch' at "
+                                     "u0 = 0.313832, u1 = 0.619215, u2 = 0.893837, ... of 64 unknowns, the largest ")
+    assert branch.message.endswith(", lam = 1")
+
+
+def test_a_used_sparse_solver_still_pickles_for_a_process_pool():
+    import pickle
+
+    solver = contin.SparseLU()
+    contin.trace(sparse_bratu(9), free="lambda", max_points=5, linear_solver=solver)
+    copy = pickle.loads(pickle.dumps(solver))
+    assert (copy.ordering, copy.block, copy.chord) == (None, True, True)
+
+
+def test_bad_sparse_choices_are_named(tmp_path):
+    with pytest.raises(contin.InputError, match=r"^sparse='yes' must be True, False or None \(decide by size\)$"):
+        contin.SymbolicSystem({"e": "x - p"}, {"x": 0.0}, {"p": 0.0}, sparse="yes")
+    path = write_bratu(tmp_path, solver="sparce")
+    with pytest.raises(contin.InputError, match=r"line 18: linear_solver = 'sparce'; use \"auto\", \"dense\" or "
+                                                r"\"sparse\"; did you mean 'sparse'\?$"):
+        contin.load_problem(path)

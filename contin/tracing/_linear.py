@@ -232,6 +232,10 @@ class SparseLU(LinearSolver):
         column = sparse.csr_array(np.asarray(jp, dtype=float).reshape(n, 1))
         return sparse.hstack([block, column], format="csr")
 
+    def __getstate__(self) -> dict:
+        # The kept factors are SuperLU objects, which do not pickle (and are only a cache).
+        return {**self.__dict__, "_last": None}
+
     def _bordered(self, jacobian, row: np.ndarray):
         from scipy import sparse
 

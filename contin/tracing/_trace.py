@@ -27,6 +27,9 @@ from ._tangent import SingularMatrix, factorise_bordered, one_blas_thread, tange
 
 __all__ = ["trace", "start_vector"]
 
+#: Points of more coordinates than this are described by a few of them in messages.
+DESCRIBED_COORDINATES = 50
+
 #: Largest sparse system whose Hopf points get a first Lyapunov coefficient (it is computed densely).
 LYAPUNOV_SIZE = 1000
 
@@ -345,7 +348,16 @@ class _Run:
             self.status, self.message, self.cause = status, message, cause
 
     def describe(self, x: np.ndarray) -> str:
-        return ", ".join(f"{name} = {value:.6g}" for name, value in zip(self.columns, x))
+        """The point in words; a large system (more than DESCRIBED_COORDINATES coordinates) shows its first
+        unknowns, the largest in size, and the free parameter, so a message stays one readable line."""
+        pairs = list(zip(self.columns, x))
+        if len(pairs) > DESCRIBED_COORDINATES:
+            largest = int(np.argmax(np.abs(x[:-1])))
+            text = [f"{name} = {value:.6g}" for name, value in pairs[:3]] + [f"... of {len(pairs) - 1} unknowns"]
+            if largest >= 3:
+                text.append(f"the largest {pairs[largest][0]} = {pairs[largest][1]:.6g}")
+            return ", ".join(text + [f"{pairs[-1][0]} = {pairs[-1][1]:.6g}"])
+        return ", ".join(f"{name} = {value:.6g}" for name, value in pairs)
 
     def append(self, x: np.ndarray, t: np.ndarray, iterations: int, residual_norm: float) -> int:
         step = _length(x - self.rows[-1]) if self.rows else 0.0
