@@ -68,7 +68,7 @@ def test_public_keys_are_exactly_those_of_the_format():
     # The keys of the published format (issue 3), unchanged, then the optional ones added since.
     assert TRACE_KEYS[:9] == ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at")
     assert TRACE_KEYS[9:] == ("folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction",
-                              "follow", "start_at", "explore", "max_branches")
+                              "follow", "start_at", "explore", "max_branches", "linear_solver")
     assert EVENT_KEYS == ("name", "expression", "terminal", "direction")
 
 

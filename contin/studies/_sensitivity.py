@@ -9,6 +9,7 @@ import numpy as np
 from ..results._branch import Branch
 from ..base._errors import InputError
 from ..systems._system import System
+from ..tracing._linear import dense
 
 __all__ = ["Sensitivities", "sensitivities"]
 
@@ -72,6 +73,7 @@ def sensitivities(branch: Branch, system: System) -> Sensitivities:
         p[free] = row[-1]
         u = row[:-1]
         _, ju, jf = system.linearise(u, p, free)
+        ju = dense(ju)
         jp = system.parameter_jacobian(u, p)[:, fixed]
         # Singular relative to the whole Jacobian [dF/du, dF/dλ] (a 1 x 1 dF/du has condition number 1).
         smallest = np.linalg.svd(ju, compute_uv=False)[-1]
@@ -85,6 +87,7 @@ def sensitivities(branch: Branch, system: System) -> Sensitivities:
         p[free] = point.point[-1]
         u = point.point[:-1]
         _, ju, jf = system.linearise(u, p, free)
+        ju = dense(ju)
         jp = system.parameter_jacobian(u, p)[:, fixed]
         psi = np.linalg.svd(ju)[0][:, -1]  # left singular vector of the smallest singular value
         denominator = float(psi @ jf)

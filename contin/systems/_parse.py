@@ -3,7 +3,12 @@
 The text is read by Python's :mod:`ast` module and every node is checked against an allow-list:
 numbers, declared names, ``+ - * / **``, unary minus and plus, and calls of a fixed set of
 mathematical functions. Nothing is ever evaluated by Python: no ``eval``, ``exec``, ``sympify`` on
-text, no attribute access, no subscripts. The sympy expression is then built node by node.
+text, no attribute access. The sympy expression is then built node by node.
+
+Indexed families: when ``names`` declares ``u[0]``, ``u[1]``, ... (an unknown family of a problem
+file), ``u[k]`` names one of them. The index is an integer expression of whole numbers and index
+variables (``indices``, e.g. ``i`` of an equation family) with ``+ - *`` only, computed here in Python
+integers; an index outside the family is refused with the family's range. Any other subscript is refused.
 
 Work is bounded before sympy sees a number: the input length, the nesting depth, and the size of
 constant powers (``9**9**9**9`` is refused at once instead of being computed).
@@ -30,6 +35,8 @@ __all__ = [
     "MAX_MINMAX_ARGUMENTS",
     "MAX_FACTORS",
     "MAX_POWER_CHAIN",
+    "element_name",
+    "expand_indices",
     "parse_expression",
 ]
 
@@ -188,6 +195,7 @@ def parse_expression(
     *,
     label: str = "expression",
     library: str = "sympy",
+    indices: Mapping[str, int] | None = None,
     _cache_format: bool = False,
 ) -> sympy.Expr:
     """Parse expression text into a sympy expression, allowing only arithmetic on declared names.
@@ -200,6 +208,8 @@ def parse_expression(
             ``"reactor.toml: equation 'balance' (line 12)"``.
         library: ``"sympy"`` (default) or ``"symengine"``: which library builds the expression
             (``names`` must hold that library's objects).
+        indices: index variables and their values for subscripts, e.g. ``{"i": 3}`` makes ``u[i+1]``
+            the declared name ``u[4]``.
 
     Returns:
         The expression (a sympy or a symengine object).
@@ -238,7 +248,7 @@ def parse_expression(
         from ..base._output import describe_value_error
 
         raise InputError(f"{label}: cannot read the expression: {describe_value_error(error)}") from None
-    builder = _Builder(text.strip(), names, _cache_format, _library(library))
+    builder = _Builder(text.strip(), names, _cache_format, _library(library), indices or {})
     try:
         if not _cache_format:
             _check_size(tree.body)
@@ -252,6 +262,78 @@ def parse_expression(
     if builder.library.is_undefined(result):
         raise InputError(f"{label}: the expression is infinite or undefined (a division by zero?)")
     return result
+
+
+def element_name(family: str, index: int) -> str:
+    """The declared name of entry ``index`` of an indexed family: ``u[3]``."""
+    return f"{family}[{index}]"
+
+
+_LARGEST_INDEX = 10**12
+
+
+def _index_value(node: ast.AST, indices: Mapping[str, int]) -> int:
+    """An index: whole numbers, index variables, + - * and parentheses, computed in Python integers."""
+    if isinstance(node, ast.Constant) and isinstance(node.value, int) and not isinstance(node.value, bool):
+        value = node.value
+    elif isinstance(node, ast.Name):
+        if node.id not in indices:
+            known = ", ".join(sorted(indices)) or "none here"
+            raise _Refused(f"{node.id!r} is not an index variable (index variables: {known})", node)
+        value = int(indices[node.id])
+    elif isinstance(node, ast.UnaryOp) and isinstance(node.op, (ast.USub, ast.UAdd)):
+        value = _index_value(node.operand, indices)
+        value = -value if isinstance(node.op, ast.USub) else value
+    elif isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub, ast.Mult)):
+        left, right = _index_value(node.left, indices), _index_value(node.right, indices)
+        value = left + right if isinstance(node.op, ast.Add) else left - right if isinstance(node.op, ast.Sub) else left * right
+    else:
+        raise _Refused("an index is whole numbers and index variables with + - * only, e.g. u[i+1]", node)
+    if abs(value) > _LARGEST_INDEX:
+        raise _Refused(f"the index {value} is too large", node)
+    return value
+
+
+def expand_indices(text: str, indices: Mapping[str, int], families: Mapping[str, int], *, label: str) -> str:
+    """One member of an equation family: ``text`` with every index variable replaced by its value.
+
+    Each subscript of a family (``u[i+1]``) becomes its entry (``u[5]`` at i = 4), checked against the
+    family's size (``families``: name -> count); a bare index variable becomes its value as a number.
+    The result is text for :func:`parse_expression`, which applies the whole allow-list to it; text
+    that does not parse is returned unchanged, so that function reports it.
+
+    Raises:
+        InputError: ``"<label>, column <c>: u[i+1] is u[100] at i = 99, outside u[0..99]; ..."``, or
+            an index that is not whole numbers and index variables.
+    """
+    try:
+        tree = ast.parse(text.strip(), mode="eval")
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return text
+    source = text.strip()
+    at = ", ".join(f"{name} = {value}" for name, value in sorted(indices.items()))
+
+    class Substitute(ast.NodeTransformer):
+        def visit_Subscript(self, node: ast.Subscript) -> ast.AST:
+            if not (isinstance(node.value, ast.Name) and node.value.id in families):
+                return self.generic_visit(node)
+            family = node.value.id
+            index = _index_value(node.slice, indices)
+            if not 0 <= index < families[family]:
+                shown = ast.get_source_segment(source, node) or f"{family}[...]"
+                raise _Refused(f"{shown} is {element_name(family, index)} at {at}, outside "
+                               f"{family}[0..{families[family] - 1}]; change the index or the range", node)
+            return ast.copy_location(ast.Subscript(node.value, ast.Constant(index), node.ctx), node)
+
+        def visit_Name(self, node: ast.Name) -> ast.AST:
+            return ast.copy_location(ast.Constant(int(indices[node.id])), node) if node.id in indices else node
+
+    try:
+        return ast.unparse(Substitute().visit(tree))
+    except _Refused as refusal:
+        offset = getattr(refusal.node, "col_offset", None)
+        column = None if offset is None else len(source.encode("utf-8")[:offset].decode("utf-8", errors="ignore")) + 1
+        raise InputError(f"{label}, column {column}: {refusal}" if column else f"{label}: {refusal}") from None
 
 
 def _factor_count(node: ast.AST, seen: set[int]) -> int:
@@ -321,9 +403,12 @@ def _check_size(root: ast.AST) -> None:
 class _Builder:
     """Walks an allow-listed ast and builds the sympy expression."""
 
-    def __init__(self, text: str, names: Mapping[str, sympy.Expr], cache_format: bool, library: _Library) -> None:
+    def __init__(self, text: str, names: Mapping[str, sympy.Expr], cache_format: bool, library: _Library,
+                 indices: Mapping[str, int]) -> None:
         self.text = text
         self.names = names
+        self.indices = indices
+        self._families: dict[str, int] | None = None
         self.library = library
         self.functions = {**FUNCTIONS, **_CACHE_FUNCTIONS} if cache_format else FUNCTIONS
 
@@ -359,6 +444,8 @@ class _Builder:
             raise _Refused(f"the operator '{symbol}' is not allowed; use + - * / **", node)
         if isinstance(node, ast.Call):
             return self.call(node, depth)
+        if isinstance(node, ast.Subscript) and self.families:
+            return self.element(node)
         for kind, message in _REFUSED.items():
             if isinstance(node, kind):
                 raise _Refused(message, node)
@@ -428,9 +515,45 @@ class _Builder:
             return self.library.constants[node.id]
         if node.id in self.functions:
             raise _Refused(f"{node.id!r} is a function: call it, e.g. {node.id}(x)", node)
-        hint = suggest(node.id, self.names) or suggest(node.id, CONSTANTS)
-        known = ", ".join(sorted(self.names)) or "none"
-        raise _Refused(f"name {node.id!r} is not declared (declared names: {known}){hint}", node)
+        if node.id in self.families:
+            raise _Refused(f"{node.id!r} is an indexed family: name one entry, e.g. {node.id}[0]", node)
+        if node.id in self.indices:
+            raise _Refused(f"{node.id!r} is an index: use it inside brackets, e.g. u[{node.id}]", node)
+        plain = [name for name in self.names if "[" not in name]
+        hint = suggest(node.id, [*plain, *self.families]) or suggest(node.id, CONSTANTS)
+        known = ", ".join(sorted(plain) + [f"{family}[0..{count - 1}]" for family, count in sorted(self.families.items())])
+        raise _Refused(f"name {node.id!r} is not declared (declared names: {known or 'none'}){hint}", node)
+
+    @property
+    def families(self) -> dict[str, int]:
+        """Indexed families among the names: family -> number of entries (``u[0]`` .. ``u[count - 1]``)."""
+        if self._families is None:
+            counts: dict[str, int] = {}
+            for name in self.names:
+                if name.endswith("]") and "[" in name:
+                    family = name[: name.index("[")]
+                    counts[family] = counts.get(family, 0) + 1
+            self._families = counts
+        return self._families
+
+    def element(self, node: ast.Subscript) -> sympy.Expr:
+        """``u[k]``: the declared name ``u[k]``, with k computed from whole numbers and index variables."""
+        if not isinstance(node.value, ast.Name):
+            raise _Refused("only a family name can be subscripted, e.g. u[i]", node)
+        family = node.value.id
+        if family not in self.families:
+            known = ", ".join(sorted(self.families))
+            raise _Refused(f"{family!r} is not an indexed family (families: {known}){suggest(family, self.families)}",
+                           node.value)
+        index = _index_value(node.slice, self.indices)
+        key = element_name(family, index)
+        if key not in self.names:
+            values = ", ".join(f"{name} = {value}" for name, value in sorted(self.indices.items()))
+            at = f" at {values}" if values else ""
+            raise _Refused(f"{ast.get_source_segment(self.text, node) or family + '[...]'} is {key}{at}, outside "
+                           f"{family}[0..{self.families[family] - 1}]; change the index or the range", node)
+        return self.names[key]
+
 
     def call(self, node: ast.Call, depth: int) -> sympy.Expr:
         if not isinstance(node.func, ast.Name):

@@ -21,11 +21,25 @@ The format (public; keep it stable)::
     tolerance = 1e-10             # Newton: every |residual_i| <= tolerance + relative_tolerance * w_i
     relative_tolerance = 1e-13    # w_i: size of equation i's terms (0: the absolute test alone)
     at = { p = [0.1, 0.2] }       # optional: output exactly at these values of a coordinate
+    linear_solver = "auto"        # "dense" or "sparse" LU of the bordered matrix (auto: by size)
     [[events]]                    # optional, repeatable
     name = "u_zero"
     expression = "u"
     terminal = false
     direction = 0                 # 0 any crossing, 1 increasing, -1 decreasing
+
+Indexed families, for discretised problems with many unknowns::
+
+    [unknowns]
+    u = { count = 100, start = 0.0 }  # u[0] .. u[99]; start is one number or a list of count numbers
+    [equations]
+    left = "u[0]"
+    row = { for = "i in 1..99", expression = "u[i-1] - 2*u[i] + u[i+1] + h**2*lam*exp(u[i])" }
+    right = "u[99]"
+
+``for = "i in a..b"`` runs i from a to b - 1 (``a..=b``: to b), giving equations ``row[a]`` ..; an
+index is whole numbers and index variables with + - *, and a bare index variable is its value as a
+number. An index outside its family is refused with the file, key, line and the value of i.
 
 A problem file is untrusted input: expressions go through the allow-list parser of
 :mod:`contin.systems._parse`, and every mistake is reported with the file, the key and its line.
@@ -46,6 +60,7 @@ from typing import Any
 
 from ..base._errors import InputError
 from ..base._names import suggest
+from ._parse import element_name, expand_indices
 from ._symbolic import SymbolicSystem, compile_expression
 
 __all__ = ["Problem", "load_problem", "problem_from_text", "TOP_KEYS", "TRACE_KEYS",
@@ -55,8 +70,13 @@ TOP_KEYS = ("kind", "unknowns", "parameters", "constants", "equations", "trace",
 SWEEP_KEYS = ("over", "output")
 TRACE_KEYS = ("free", "direction", "bounds", "max_points", "step", "min_step", "max_step", "tolerance", "at",
               "folds", "detect", "corrector", "relative_tolerance", "max_turn", "max_correction", "follow",
-              "start_at", "explore", "max_branches")
+              "start_at", "explore", "max_branches", "linear_solver")
 EVENT_KEYS = ("name", "expression", "terminal", "direction")
+FAMILY_KEYS = ("count", "start")
+EQUATION_FAMILY_KEYS = ("for", "expression")
+#: Most entries of one indexed family (and most equations of one equation family).
+MAX_FAMILY = 10**6
+_RANGE = re.compile(r"\s*([A-Za-z_][A-Za-z_0-9]*)\s+in\s+(-?[0-9]+)\s*\.\.(=?)\s*(-?[0-9]+)\s*")
 _REQUIRED = ("unknowns", "parameters", "equations", "trace")
 
 
@@ -222,20 +242,20 @@ class _Reader:
         kind = self.data.get("kind", "algebraic")
         if kind not in ("algebraic", "ode"):
             raise self.fail(None, "kind", f"kind = {kind!r} is not known; use \"algebraic\" or \"ode\"{suggest(str(kind), ('algebraic', 'ode'))}")
-        unknowns = self.values("unknowns", "start value")
+        unknowns, families = self.unknowns()
         parameters = self.values("parameters", "parameter value")
         constants = self.values("constants", "constant value", required=False)
-        equations = self.section("equations")
-        for name, value in equations.items():
-            if not isinstance(value, str):
-                raise self.fail("equations", name, f"equations.{name} must be the expression as text in quotes, e.g. {name} = \"u**2 - p\"")
+        for name in families:
+            if name in parameters or name in constants:
+                raise self.fail("unknowns", name, f"{name!r} is an indexed family of unknowns and also a parameter or "
+                                "constant; use one name once")
+        equations, labels = self.equations(families)
         if len(equations) != len(unknowns):
             raise self.fail(
                 "equations", None,
                 f"[equations] has {len(equations)} equations but [unknowns] has {len(unknowns)} unknowns; "
                 "a problem needs exactly one equation per unknown",
             )
-        labels = {name: f"{self.where('equations', name)}: equation {name!r}" for name in equations}
         system = self.build(equations, unknowns, parameters, constants, kind, labels)
         options = self.trace_options(system)
         curves = options.pop("curves", None)
@@ -273,24 +293,109 @@ class _Reader:
             raise self.fail("sweep", "output", f"output = {output!r}; give a folder name as text, e.g. output = \"sweep-out\"")
         return MappingProxyType({"over": MappingProxyType(grid), "output": output})
 
-    def values(self, name: str, what: str, required: bool = True) -> dict[str, float]:
-        table = self.section(name, required)
+    def unknowns(self) -> tuple[dict[str, float], dict[str, int]]:
+        """``[unknowns]``: name -> start value, with each family ``u = { count, start }`` as u[0] .. u[count-1];
+        and the families' sizes."""
+        table = self.section("unknowns")
+        if not table:
+            raise self.fail("unknowns", None, "[unknowns] is empty; declare at least one name = value")
+        plain = {key: value for key, value in table.items() if not isinstance(value, dict)}
+        values = self.values("unknowns", "start value", required=False, table=plain)
+        families: dict[str, int] = {}
+        result: dict[str, float] = {}
+        for key, value in table.items():
+            if not isinstance(value, dict):
+                result[key] = values[key]
+                continue
+            self.check_name("unknowns", key)
+            self.check_inline("unknowns", key, value, FAMILY_KEYS)
+            count = value.get("count")
+            if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= MAX_FAMILY:
+                raise self.fail("unknowns", key, f"unknowns.{key}: count = {count!r}; give the number of entries as a "
+                                f"whole number from 1 to {MAX_FAMILY}, e.g. {key} = {{ count = 100, start = 0.0 }}")
+            start = value.get("start", 0.0)
+            starts = start if isinstance(start, list) else [start] * count
+            if len(starts) != count:
+                raise self.fail("unknowns", key, f"unknowns.{key}: start has {len(starts)} values but count = {count}; "
+                                "give one number, or count numbers")
+            for index, number in enumerate(starts):
+                result[element_name(key, index)] = self.number("unknowns", key, number, "start value")
+            families[key] = count
+        return result, families
+
+    def equations(self, families: Mapping[str, int]) -> tuple[dict[str, str], dict[str, str]]:
+        """``[equations]``: name -> expression text, each family ``row = { for, expression }`` expanded into
+        row[a] .., with every index checked against its family; and each equation's label for messages."""
+        table = self.section("equations")
+        equations: dict[str, str] = {}
+        labels: dict[str, str] = {}
+        for name, value in table.items():
+            where = self.where("equations", name)
+            if isinstance(value, str):
+                equations[name], labels[name] = value, f"{where}: equation {name!r}"
+                continue
+            if not isinstance(value, dict):
+                raise self.fail("equations", name, f"equations.{name} must be the expression as text in quotes, e.g. "
+                                f"{name} = \"u**2 - p\", or a family {name} = {{ for = \"i in 1..99\", expression = \"...\" }}")
+            self.check_inline("equations", name, value, EQUATION_FAMILY_KEYS)
+            variable, first, last = self.index_range(name, value.get("for"), families)
+            text = value.get("expression")
+            if not isinstance(text, str):
+                raise self.fail("equations", name, f"equations.{name} needs expression = \"...\" (text in quotes)")
+            for index in range(first, last):
+                member = element_name(name, index)
+                label = f"{where}: equation {member!r}"
+                equations[member] = expand_indices(text, {variable: index}, families, label=f"{where}: equations.{name}")
+                labels[member] = label
+        return equations, labels
+
+    def index_range(self, name: str, text: object, families: Mapping[str, int]) -> tuple[str, int, int]:
+        """(variable, first, one past the last) of ``for = "i in a..b"`` (b excluded) or ``"i in a..=b"``."""
+        example = "for = \"i in 1..99\" (i = 1 to 98) or \"i in 1..=98\""
+        match = _RANGE.fullmatch(text) if isinstance(text, str) else None
+        if match is None:
+            raise self.fail("equations", name, f"equations.{name}: for = {text!r} is not a range; write {example}")
+        variable, first, inclusive, last = match.group(1), int(match.group(2)), match.group(3), int(match.group(4))
+        if variable in families:
+            raise self.fail("equations", name, f"equations.{name}: the index {variable!r} is also a family of unknowns; "
+                            "call it i, j or k")
+        stop = last + 1 if inclusive else last
+        if not first < stop:
+            raise self.fail("equations", name, f"equations.{name}: for = {text!r} is empty ({first} to {stop - 1}); the "
+                            f"first index must come before the last, e.g. {example}")
+        if stop - first > MAX_FAMILY:
+            raise self.fail("equations", name, f"equations.{name}: for = {text!r} makes {stop - first} equations; the "
+                            f"limit is {MAX_FAMILY}")
+        return variable, first, stop
+
+    def check_inline(self, table: str, key: str, found: Mapping, allowed: tuple[str, ...]) -> None:
+        """The keys of an inline table ``key = { ... }`` of ``[table]`` (reported at the line of ``key``)."""
+        for inner in found:
+            if inner not in allowed:
+                raise self.fail(table, key, f"unknown key {inner!r} in {table}.{key} (allowed: {', '.join(allowed)})"
+                                f"{suggest(inner, allowed)}")
+
+    def check_name(self, name: str, key: str) -> None:
+        if not key.isidentifier() or keyword.iskeyword(key):
+            raise self.fail(
+                name, key,
+                f"{name}.{key!r} cannot be used in equations: names are letters, digits and underscores, "
+                "starting with a letter (e.g. T_wall)",
+            )
+        normal = unicodedata.normalize("NFKC", key)
+        if normal != key:
+            raise self.fail(
+                name, key,
+                f"{name}.{key!r} changes under Unicode normalisation to {normal!r}, which is how "
+                f"expressions read it; write it as {normal!r}",
+            )
+
+    def values(self, name: str, what: str, required: bool = True, table: Mapping | None = None) -> dict[str, float]:
+        table = self.section(name, required) if table is None else table
         if required and not table:
             raise self.fail(name, None, f"[{name}] is empty; declare at least one name = value")
         for key in table:
-            if not key.isidentifier() or keyword.iskeyword(key):
-                raise self.fail(
-                    name, key,
-                    f"{name}.{key!r} cannot be used in equations: names are letters, digits and underscores, "
-                    "starting with a letter (e.g. T_wall)",
-                )
-            normal = unicodedata.normalize("NFKC", key)
-            if normal != key:
-                raise self.fail(
-                    name, key,
-                    f"{name}.{key!r} changes under Unicode normalisation to {normal!r}, which is how "
-                    f"expressions read it; write it as {normal!r}",
-                )
+            self.check_name(name, key)
         return {key: self.number(name, key, value, what) for key, value in table.items()}
 
     def build(self, equations, unknowns, parameters, constants, kind, labels) -> SymbolicSystem:
@@ -357,6 +462,12 @@ class _Reader:
                         raise self.fail("trace", key, f"{key} names {name!r} (choose from {', '.join(choices)})"
                                                       f"{suggest(name, choices)}")
                 options[key] = tuple(names)
+        if "linear_solver" in table:
+            solver = table["linear_solver"]
+            if solver not in ("auto", "dense", "sparse"):
+                raise self.fail("trace", "linear_solver", f"linear_solver = {solver!r}; use \"auto\", \"dense\" or "
+                                                          f"\"sparse\"{suggest(str(solver), ('auto', 'dense', 'sparse'))}")
+            options["linear_solver"] = solver
         if "corrector" in table:
             corrector = table["corrector"]
             if corrector not in ("arclength", "local"):

@@ -150,6 +150,23 @@ class _Layout:
         self.p_slice = slice(self.u_slice.stop, self.u_slice.stop + int((~in_u).sum()))
         # The compiled outputs are ordered u-entries first, then p-entries (see _derivatives).
         assert np.all(in_u[: int(in_u.sum())])
+        # dF/du as CSR: the outputs taken in row-major order fill ``data`` directly.
+        self.csr_order = np.lexsort((self.u_cols, self.u_rows))
+        self.csr_indices = self.u_cols[self.csr_order]
+        self.csr_indptr = np.concatenate(([0], np.cumsum(np.bincount(self.u_rows, minlength=n)))).astype(np.intp)
+
+    def sparse_jacobian(self, out: np.ndarray):
+        """dF/du from the compiled outputs as a scipy.sparse CSR array (only the non-zeros stored)."""
+        from scipy.sparse import csr_array
+
+        data = out[self.u_slice][self.csr_order]
+        return csr_array((data, self.csr_indices.copy(), self.csr_indptr.copy()), shape=(self.n, self.n))
+
+
+#: From this many unknowns a SymbolicSystem whose dF/du has at most :data:`SPARSE_DENSITY` non-zeros
+#: per entry returns dF/du as a sparse matrix by default (the trace then uses sparse LU).
+SPARSE_SIZE = 400
+SPARSE_DENSITY = 0.05
 
 
 #: Longest symbolic set-up (parsing, differentiation, compilation) of one system, in seconds. The
@@ -392,8 +409,14 @@ def _load(kind: str, payload: bytes, variables):
     return _SympyFunctions(variables, residual_plan, full_plan), [tuple(e) for e in document["entries"]]
 
 
+_ELEMENT = re.compile(r"([^\[\]]+)\[(0|[1-9][0-9]*)\]")
+
+
 def _check_declared_names(names: Sequence[str], argument: str) -> None:
-    for name in names:
+    """Names usable in equations: identifiers, or entries ``u[3]`` of an indexed family ``u``."""
+    for declared in names:
+        element = _ELEMENT.fullmatch(declared)
+        name = element.group(1) if element else declared
         if not name.isidentifier() or keyword.iskeyword(name):
             raise InputError(
                 f"{argument} name {name!r} is not usable in equations: use letters, digits and "
@@ -425,6 +448,10 @@ class SymbolicSystem(System):
             False for none.
         labels: optional equation name -> where it comes from, put in front of parse messages
             (e.g. ``"reactor.toml: equation 'heat' (line 12)"``).
+        sparse: return dF/du from :meth:`linearise` as a scipy.sparse CSR matrix (True), dense (False),
+            or decide by size (None: sparse from :data:`SPARSE_SIZE` unknowns when at most
+            :data:`SPARSE_DENSITY` of the entries are non-zero). The pattern is the structure graph's:
+            only the derivatives of an equation by the symbols in it are compiled.
 
     Raises:
         InputError: bad names, a text expression outside the allow-list (with the equation name and
@@ -448,8 +475,11 @@ class SymbolicSystem(System):
         backend: str = "auto",
         cache: CompileCache | bool | None = None,
         labels: Mapping[str, str] | None = None,
+        sparse: bool | None = None,
     ) -> None:
         began = time.perf_counter()
+        if sparse not in (None, True, False):
+            raise InputError(f"sparse={sparse!r} must be True, False or None (decide by size)")
         if not isinstance(equations, Mapping):
             raise InputError("equations must be a mapping of equation name -> expression")
         if isinstance(unknowns, Mapping):
@@ -505,6 +535,10 @@ class SymbolicSystem(System):
         self._cache = default_cache() if cache is None or cache is True else (cache or None)
         with _time_limit():
             self._compile()
+        nonzeros = int(self._layout.u_rows.size)
+        n = len(unknown_names)
+        self.sparse = bool(sparse) if sparse is not None else (
+            n >= SPARSE_SIZE and nonzeros <= SPARSE_DENSITY * n * n)
         self.setup_seconds = time.perf_counter() - began
 
     @property
@@ -675,11 +709,15 @@ class SymbolicSystem(System):
         return out[: layout.n].copy(), jacobian, parameter_jacobian
 
     def linearise(self, u: np.ndarray, p: np.ndarray, free: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(F, dF/du, dF/dp[free]) at (u, p), exact, from one compiled call."""
+        """(F, dF/du, dF/dp[free]) at (u, p), exact, from one compiled call; dF/du is a CSR matrix when
+        the system is ``sparse``."""
         out = self._functions.full(self._inputs(u, p))
         layout = self._layout
-        jacobian = np.zeros((layout.n, layout.n))
-        jacobian[layout.u_rows, layout.u_cols] = out[layout.u_slice]
+        if self.sparse:
+            jacobian = layout.sparse_jacobian(out)
+        else:
+            jacobian = np.zeros((layout.n, layout.n))
+            jacobian[layout.u_rows, layout.u_cols] = out[layout.u_slice]
         column = np.zeros(layout.n)
         chosen = layout.p_cols == free
         column[layout.p_rows[chosen]] = out[layout.p_slice][chosen]
@@ -723,6 +761,7 @@ class SymbolicSystem(System):
             "compiled_from": self.cache_source,
             "jacobian_nonzeros": int(self._layout.u_rows.size),
             "parameter_jacobian_nonzeros": int(self._layout.p_rows.size),
+            "jacobian_format": "sparse" if self.sparse else "dense",
         }
 
     def __getstate__(self) -> dict:

@@ -19,7 +19,12 @@ import numpy as np
 from ..base._errors import InputError
 from ..base._names import check_names, suggest
 
-__all__ = ["System", "CallableSystem", "finite_difference_step"]
+__all__ = ["System", "CallableSystem", "finite_difference_step", "is_sparse"]
+
+
+def is_sparse(matrix) -> bool:
+    """Whether ``matrix`` is a scipy.sparse matrix or array (without importing scipy.sparse for dense ones)."""
+    return hasattr(matrix, "tocsc") and hasattr(matrix, "nnz")
 
 
 def finite_difference_step(x: np.ndarray) -> np.ndarray:
@@ -130,7 +135,9 @@ class CallableSystem(System):
         residual: ``f(u, p) -> array (n,)`` with ``u`` (n,) and ``p`` (m,) float arrays.
         unknowns: names of the unknowns, or their number (named ``u0``, ``u1``, ...).
         parameters: mapping of parameter name to default value (order is kept).
-        jacobian: optional ``j(u, p) -> array (n, n)``, dF/du; forward differences otherwise.
+        jacobian: optional ``j(u, p) -> array (n, n)``, dF/du, dense or a scipy.sparse matrix (a
+            sparse one makes the trace factorise with sparse LU, see docs/linear-solvers.md); central
+            differences otherwise.
         parameter_jacobian: optional ``jp(u, p) -> array (n, m)``, dF/dp; forward differences otherwise.
         start: optional default start values of the unknowns.
         equations: optional names of the equations (default ``f0``, ``f1``, ...).
@@ -200,11 +207,18 @@ class CallableSystem(System):
     def parameter_jacobian(self, u: np.ndarray, p: np.ndarray) -> np.ndarray:
         if self.parameter_jacobian_function is None:
             return super().parameter_jacobian(u, p)
-        return _shaped(self.parameter_jacobian_function(u, p), (len(self.unknowns), p.size), "parameter_jacobian")
+        matrix = _shaped(self.parameter_jacobian_function(u, p), (len(self.unknowns), p.size), "parameter_jacobian")
+        return matrix.toarray() if is_sparse(matrix) else matrix  # n x m: small whatever n is
 
 
-def _shaped(value, shape: tuple[int, int], argument: str) -> np.ndarray:
-    """A user's matrix as floats: exactly ``shape``, or flat with that many entries (row by row)."""
+def _shaped(value, shape: tuple[int, int], argument: str):
+    """A user's matrix as floats: exactly ``shape``, or flat with that many entries (row by row); a
+    scipy.sparse matrix of that shape is kept sparse (as CSR)."""
+    if is_sparse(value):
+        if tuple(value.shape) != shape:
+            raise InputError(f"{argument} returned a sparse matrix of shape {tuple(value.shape)}; it must have shape "
+                             f"{shape} (equations x {'unknowns' if argument == 'jacobian' else 'parameters'})")
+        return value.tocsr().astype(float, copy=False)
     array = np.asarray(value, dtype=float)
     if array.shape == shape:
         return array

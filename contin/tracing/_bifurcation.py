@@ -6,7 +6,9 @@ tangent) changes sign there, and does not at a fold when the tangent is oriented
 (Keller 1977; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, ch. 5).
 
 Hopf points are equilibria of du/dt = F(u, p) where a complex-conjugate pair of eigenvalues of dF/du
-crosses the imaginary axis. The test function is the product over eigenvalue pairs i < j of
+crosses the imaginary axis. On the sparse path (dF/du a scipy.sparse matrix) no full eigen-decomposition
+is made: see :func:`nearest_eigenvalues` and :func:`sparse_hopf_value` for what is computed instead
+and its limits. The test function is the product over eigenvalue pairs i < j of
 (lambda_i + lambda_j) — the determinant of the bialternate product 2 dF/du (.) I, a polynomial in the
 entries of dF/du, so it is smooth where the eigenvalues are not. It also vanishes at neutral saddles
 (real lambda_i = -lambda_j), which are told apart by the eigenvalues at the located zero
@@ -27,7 +29,8 @@ from ._extended import Extended
 from ._locate import IllinoisBracket, Located, locate_zero
 from ..base._names import suggest
 from ..systems._system import finite_difference_step
-from ._tangent import Bordered, SingularMatrix, tangent
+from ._linear import LinearSolver, is_sparse, solver_for
+from ._tangent import SingularMatrix, factorise_bordered, tangent
 
 __all__ = [
     "DETECTABLE",
@@ -39,6 +42,8 @@ __all__ = [
     "hopf_signature",
     "locate_branch_point",
     "locate_hopf",
+    "nearest_eigenvalues",
+    "sparse_hopf_value",
 ]
 
 # The special points a trace can look for by test functions (user events and requested values aside).
@@ -90,46 +95,46 @@ def check_detect(detect, system, folds: Sequence[str]) -> frozenset[str]:
 
 
 # -- branch points ---------------------------------------------------------------------------------
-def bordered_sign(factors: tuple, along: float, index: np.ndarray) -> int:
-    """Sign of det [dG/dx; t] from LAPACK LU factors ``(lu, piv)`` of [dG/dx; row].
+def bordered_sign(factors, along: float) -> int:
+    """Sign of det [dG/dx; t] from the linear solver's factors of [dG/dx; row].
 
     The determinant is linear in the last row and vanishes for rows orthogonal to the tangent, so
-    det [dG/dx; row] = det [dG/dx; t] (row . t): the sign needs only the signs of diag(U), the parity
-    of the row swaps and the sign of row . t — about two microseconds on top of the corrector's
-    factorisation, which is why it can run at every step.
+    det [dG/dx; row] = det [dG/dx; t] (row . t): the sign needs only the sign of the factors'
+    determinant (the signs of the pivots and the parity of the permutations, counted exactly in
+    integers) and the sign of row . t — microseconds on top of the corrector's factorisation for a
+    dense LU, one pass over the pivots for a sparse one, which is why it can run at every step.
 
     Args:
-        factors: ``(lu, piv)`` from LAPACK getrf of [dG/dx; row].
+        factors: the solver's factors of [dG/dx; row] (their ``sign()``).
         along: row . t (for the pseudo-arclength row, the cosine of the turn between the tangents).
-        index: ``numpy.arange(n + 1)``, made once per trace.
 
     Returns:
         +1 or -1; 0 when ``row`` is orthogonal to ``t`` (then the caller computes the determinant).
     """
     if along == 0.0:
         return 0
-    lu, piv = factors
-    # The parity of (negative pivots) + (row swaps) is the parity of their exclusive or: one count.
-    odd = np.count_nonzero(np.signbit(lu.diagonal()) ^ (piv != index)) & 1
-    return (-1 if odd else 1) * (1 if along > 0.0 else -1)
+    return factors.sign() * (1 if along > 0.0 else -1)
 
 
-def determinant_sign(jacobian: np.ndarray, t: np.ndarray) -> int:
+def determinant_sign(jacobian, t: np.ndarray, solver: LinearSolver | None = None) -> int:
     """Sign of det [dG/dx; t] computed directly (the rare path: no usable factors)."""
-    sign, _ = np.linalg.slogdet(np.vstack([jacobian, t]))
+    sign, _ = (solver or solver_for(jacobian)).log_determinant(jacobian, t)
     return int(sign)
 
 
-def _log_scale(jacobian: np.ndarray) -> float:
+def _log_scale(jacobian) -> float:
     """log of the product of the Jacobian's row lengths (Hadamard's bound on the bordered determinant)."""
-    lengths = np.sqrt(np.einsum("ij,ij->i", jacobian, jacobian))
+    if is_sparse(jacobian):
+        lengths = np.sqrt(np.asarray(jacobian.multiply(jacobian).sum(axis=1)).reshape(-1))
+    else:
+        lengths = np.sqrt(np.einsum("ij,ij->i", jacobian, jacobian))
     lengths = lengths[lengths > 0.0]
     return float(np.log(lengths).sum())
 
 
-def _scaled_determinant(jacobian: np.ndarray, row: np.ndarray, log_scale: float) -> float:
+def _scaled_determinant(jacobian, row: np.ndarray, log_scale: float) -> float:
     """det [dG/dx; row] divided by a scale fixed over the bracket, so it is smooth (and of order one)."""
-    sign, logarithm = np.linalg.slogdet(np.vstack([jacobian, row]))
+    sign, logarithm = solver_for(jacobian).log_determinant(jacobian, row)
     if sign == 0.0:
         return 0.0
     return float(sign) * math.exp(min(logarithm - log_scale, 700.0))
@@ -156,9 +161,14 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
     norm = float(abs(residual).max()) if residual.size else 0.0
     if residual_converged(residual, jacobian, guess, options.tolerance, extended.relative_tolerance, False):
         return Correction(True, guess.copy(), residual, jacobian, 0, norm), jacobian
-    matrix = np.vstack([jacobian, unit])
     rhs = np.append(-residual, 0.0)
-    step = np.linalg.lstsq(matrix, rhs, rcond=None)[0]
+    if is_sparse(jacobian):
+        from scipy.sparse import csr_array, vstack
+        from scipy.sparse.linalg import lsqr
+
+        step = lsqr(vstack([jacobian, csr_array(unit[None, :])]), rhs, atol=1e-14, btol=1e-14)[0]
+    else:
+        step = np.linalg.lstsq(np.vstack([jacobian, unit]), rhs, rcond=None)[0]
     nudged = guess + step
     correction = correct(extended, nudged, unit, float(unit @ guess), **keywords)
     if correction.converged:
@@ -168,7 +178,7 @@ def _settle(extended: Extended, guess: np.ndarray, unit: np.ndarray, options) ->
 
 def _tangent_or(jacobian: np.ndarray, row: np.ndarray, reference: np.ndarray) -> np.ndarray:
     try:
-        return tangent(Bordered(jacobian, row), reference)
+        return tangent(factorise_bordered(jacobian, row), reference)
     except SingularMatrix:
         return reference.copy()
 
@@ -199,15 +209,22 @@ def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: flo
     Jacobian of this system is regular, so Newton converges quadratically from the located bracket
     (Moore, The numerical treatment of non-trivial bifurcation points, Numer. Funct. Anal. Optim. 2,
     1980; Seydel, Practical Bifurcation and Stability Analysis, 3rd ed., Springer 2010, section 5.5).
-    The Hessian of phi . G is taken by central differences of the exact Jacobian.
+    The Hessian of phi . G is taken by central differences of the exact Jacobian. On the sparse path
+    (a Jacobian given as a scipy.sparse matrix) there is no refinement: that Hessian costs 2 (n + 1)
+    Jacobians and a dense system of 2n + 2 rows, so the bracket's point stands, known to the reach of
+    the residual test there, sqrt(tolerance) (1 + max |x|).
 
     Returns:
         (the refined point with ``located_to`` the length of the last Newton correction of x, or None
-        if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch), and the length
-        of the first correction of x: an estimate of how far x itself is from the branch point.
+        if Newton fails, leaves the ball of ``radius`` round x, or ends off the branch, or the Jacobian is
+        sparse), and the length of the first correction of x: an estimate of how far x itself is from
+        the branch point (inf when not known; on the sparse path that reach of the residual test).
     """
     n = extended.n
     residual, jacobian = extended.linearise(x)
+    if is_sparse(jacobian):
+        # What the bracket's residual test allows: |G| grows quadratically away from a crossing.
+        return None, math.sqrt(options.tolerance) * (1.0 + float(np.abs(x).max()))
     if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
         return None, math.inf
     try:
@@ -316,7 +333,7 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
     if best is None:
         return None
     refined, first = _refine_branch_point(extended, best.x, options, length)
-    if refined is None and strict:
+    if refined is None and strict and not is_sparse(jacobian_a):  # (the sparse path never refines)
         return None
     if refined is None:
         located_to = max(bracket.located_to, first if math.isfinite(first) else length)
@@ -328,6 +345,68 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
 
 
 # -- Hopf points -----------------------------------------------------------------------------------
+#: How many eigenvalues of dF/du the sparse Hopf test computes (those nearest 0).
+SPARSE_EIGENVALUES = 6
+
+
+def nearest_eigenvalues(state_jacobian, count: int = SPARSE_EIGENVALUES) -> np.ndarray:
+    """The ``count`` eigenvalues of a sparse dF/du nearest 0, by shift-invert Arnoldi (ARPACK through
+    ``scipy.sparse.linalg.eigs`` with sigma = 0: the eigenvalues of largest modulus of (dF/du)^-1, from
+    one sparse LU of dF/du; Lehoucq, Sorensen & Yang, ARPACK Users' Guide, SIAM 1998).
+
+    The start vector is fixed (seeded), so the answer does not change from run to run. Where dF/du is
+    exactly singular (sigma = 0 cannot be factorised) the shift moves to 1e-8 of the largest entry.
+
+    Limits: these are the eigenvalues nearest 0, which are those nearest the imaginary axis only when
+    the critical pair's frequency is small next to the distance of the other eigenvalues from 0. A pair
+    crossing the axis far from 0 (|Im| large) is not among them and its Hopf point is missed; a pair
+    entering or leaving the computed set makes the test jump, which the location catches (see
+    :func:`classify_sparse_zero`).
+    """
+    from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, eigs
+
+    matrix = state_jacobian.tocsc()
+    n = matrix.shape[0]
+    k = min(count, n - 2)
+    if k < 1:
+        return np.linalg.eigvals(matrix.toarray())
+    start = np.random.default_rng(16).standard_normal(n)
+    largest = float(abs(matrix).max()) if matrix.nnz else 1.0
+    for shift in (0.0, 1e-8 * max(1.0, largest)):
+        try:
+            return eigs(matrix, k=k, sigma=shift, which="LM", v0=start, return_eigenvectors=False, tol=1e-13)
+        except (RuntimeError, ArpackError, ArpackNoConvergence):
+            continue
+    raise np.linalg.LinAlgError("the eigenvalues of dF/du nearest 0 could not be computed (shift-invert Arnoldi failed)")
+
+
+def _nearest_pair(eigenvalues: np.ndarray) -> complex | None:
+    """Of the complex pairs among ``eigenvalues``, the member with Im > 0 nearest the imaginary axis."""
+    scale = max(1.0, float(np.abs(eigenvalues).max())) if eigenvalues.size else 1.0
+    upper = eigenvalues[eigenvalues.imag > 1e-8 * scale]
+    if upper.size == 0:
+        return None
+    return complex(upper[int(np.argmin(np.abs(upper.real)))])
+
+
+def sparse_hopf_value(state_jacobian) -> float:
+    """The sparse Hopf test function: Re(lambda) of the complex pair nearest the imaginary axis among the
+    eigenvalues of dF/du nearest 0 (:func:`nearest_eigenvalues`); 0.0 when there is no complex pair
+    among them (no sign, so nothing is detected). It changes sign where that pair crosses the axis."""
+    pair = _nearest_pair(nearest_eigenvalues(state_jacobian))
+    return 0.0 if pair is None else float(pair.real)
+
+
+def classify_sparse_zero(state_jacobian) -> dict:
+    """A located zero of :func:`sparse_hopf_value`: a Hopf point when a complex pair lies on the
+    imaginary axis (|Re| <= 1e-6 |lambda|), else the test jumped because the pair nearest the axis
+    changed (``{"kind": "jump", ...}``), which is not a Hopf point."""
+    pair = _nearest_pair(nearest_eigenvalues(state_jacobian))
+    if pair is not None and abs(pair.real) <= 1e-6 * abs(pair):
+        return {"kind": "hopf", "angular_frequency": float(pair.imag), "period": float(2.0 * math.pi / pair.imag)}
+    return {"kind": "jump", "eigenvalue": None if pair is None else (float(pair.real), float(pair.imag))}
+
+
 def hopf_sign(state_jacobian: np.ndarray) -> int:
     """Sign of the product over eigenvalue pairs i < j of (lambda_i + lambda_j) of dF/du.
 
@@ -345,7 +424,13 @@ def hopf_sign(state_jacobian: np.ndarray) -> int:
 def hopf_signature(state_jacobian: np.ndarray) -> tuple[int, int]:
     """(:func:`hopf_sign`, the number of eigenvalues of dF/du with positive real part), from one
     eigen-decomposition. The count changes by two at a Hopf point and by one at a fold or a branch
-    point, so comparing it between two points tells whether every crossing between them was found."""
+    point, so comparing it between two points tells whether every crossing between them was found.
+
+    For a sparse dF/du: (the sign of :func:`sparse_hopf_value`, -1): the count is not known (only a few
+    eigenvalues are computed), so that check is off."""
+    if is_sparse(state_jacobian):
+        value = sparse_hopf_value(state_jacobian)
+        return (0 if value == 0.0 else 1 if value > 0.0 else -1), -1
     eigenvalues = np.linalg.eigvals(state_jacobian)
     return _pair_product_sign(eigenvalues), int(np.count_nonzero(eigenvalues.real > 0.0))
 
@@ -411,7 +496,9 @@ def locate_hopf(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[n
 
     Located by :func:`contin.tracing._locate.locate_zero` (Illinois method, every trial on the branch) on the
     product of (lambda_i + lambda_j) of dF/du evaluated exactly at each trial, scaled by its
-    magnitude at ``a``; the eigenvalues at the zero then tell a Hopf point from a neutral saddle.
+    magnitude at ``a``; the eigenvalues at the zero then tell a Hopf point from a neutral saddle. On
+    the sparse path the test is :func:`sparse_hopf_value` and the zero is told apart from a jump of
+    that test by :func:`classify_sparse_zero`.
 
     Returns:
         (located point, :func:`classify_pair_zero` of it), or None if the exact Jacobians at a and b
@@ -421,17 +508,25 @@ def locate_hopf(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[n
     n = extended.n
     _, jacobian_a = extended.linearise(xa)
     _, jacobian_b = extended.linearise(xb)
-    f_a, log_scale = _hopf_test(jacobian_a[:, :n], None)
-    f_b, _ = _hopf_test(jacobian_b[:, :n], log_scale)
+    if is_sparse(jacobian_a):
+        value, classify = sparse_hopf_value, classify_sparse_zero
+    else:
+        log_scale = _hopf_test(jacobian_a[:, :n], None)[1]
+
+        def value(matrix: np.ndarray) -> float:
+            return _hopf_test(matrix, log_scale)[0]
+
+        classify = classify_pair_zero
+    f_a, f_b = value(jacobian_a[:, :n]), value(jacobian_b[:, :n])
     if not (f_a * f_b < 0.0):
         return None
 
     def test(x: np.ndarray, t: np.ndarray) -> float:
         _, jacobian = extended.linearise(x)
-        return _hopf_test(jacobian[:, :n], log_scale)[0]
+        return value(jacobian[:, :n])
 
     located = locate_zero(extended, (xa, ta, f_a), (xb, tb, f_b), test, options)
     if located is None:
         return None
     _, jacobian = extended.linearise(located.x)
-    return located, classify_pair_zero(jacobian[:, :n])
+    return located, classify(jacobian[:, :n])

@@ -6,11 +6,16 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg.lapack import dgetrf, dgetrs
 
 from ._extended import Extended
+from ._linear import SingularMatrix, all_finite
 
 __all__ = ["Correction", "correct", "residual_converged", "term_sizes"]
+
+# Chord steps (a solver with ``chord = True``) keep the factors of the iteration while each Newton step
+# is at most this fraction of the one before: linear convergence that fast reaches the tolerance within
+# the iteration limit from a predictor error of 1e-4; slower contraction refreshes the Jacobian.
+CHORD_CONTRACTION = 0.2
 
 # The stall diagnosis: a residual within this fraction of its equation's term sizes is at (or near)
 # the rounding level of the evaluation, so more Newton iterations cannot bring it down.
@@ -24,7 +29,7 @@ def term_sizes(jacobian: np.ndarray, x: np.ndarray) -> np.ndarray:
     counted at least at unit size), so the rounding error of G_i is a small multiple of
     machine epsilon times w_i; it scales with the equation (multiplying G_i by c multiplies w_i by |c|).
     """
-    return np.abs(jacobian) @ np.maximum(1.0, np.abs(x))
+    return abs(jacobian) @ np.maximum(1.0, np.abs(x))
 
 
 def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
@@ -46,7 +51,7 @@ def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray
 def _stalled_reason(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
                     relative_tolerance: float, norm: float) -> str | None:
     """The failure reason when the residual is already near the rounding level of its terms, else None."""
-    if not residual.size or not math.isfinite(norm) or jacobian is None or not np.all(np.isfinite(jacobian)):
+    if not residual.size or not math.isfinite(norm) or jacobian is None or not all_finite(jacobian):
         return None
     sizes = term_sizes(jacobian, x)
     worst = int(np.argmax(abs(residual) / np.maximum(sizes, 1e-300)))
@@ -78,7 +83,7 @@ class Correction:
     iterations: int
     residual_norm: float
     reason: str = ""
-    factors: tuple | None = None  # LAPACK LU of [jacobian; row] when the last iteration factorised exactly that
+    factors: object | None = None  # the solver's factors of [jacobian; row] when the last iteration made exactly those
 
 
 def correct(
@@ -139,7 +144,10 @@ def correct(
     options to raise.
 
     Each iteration evaluates only the residual at the new iterate; the Jacobian there is evaluated
-    only if another iteration is needed (or an exact one was asked for).
+    only if another iteration is needed (or an exact one was asked for). With a linear solver that
+    sets ``chord = True`` (the sparse LU), an iteration re-uses the factors of the one before (a chord
+    step: no Jacobian, no factorisation) while each step is at most :data:`CHORD_CONTRACTION` of the
+    previous one, and the Jacobian returned is evaluated at the corrected point.
     """
     x = np.array(guess, dtype=float)
     if relative_tolerance is None:
@@ -157,23 +165,22 @@ def correct(
     scale = 1.0 + float(abs(x).max())
     step_tolerance = max(math.sqrt(tolerance), 1e-8) * scale
     size = row.size
-    matrix = np.empty((size, size))
+    solver = extended.solver
     rhs = np.empty(size)
     last_step = math.inf
     previous_norm = math.inf
     counters = extended.counters
+    chord = bool(getattr(solver, "chord", False))
+    factors = None
     for iteration in range(1, max_iterations + 1):
-        # Factorise [dG/dx; row] in place with LAPACK (the scipy.linalg wrappers cost more than the
-        # factorisation itself at these sizes).
-        matrix[:-1] = jacobian
-        matrix[-1] = row
-        lu, piv, info = dgetrf(matrix, overwrite_a=True)
-        pivots = abs(lu.diagonal())
-        if info != 0 or not pivots.min() > 1e-13 * max(1.0, float(pivots.max())):
-            return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
+        if factors is None:
+            try:
+                factors = solver.factorise(jacobian, row)
+            except SingularMatrix:
+                return Correction(False, x, residual, jacobian, iteration - 1, norm, "singular bordered Jacobian")
         rhs[:-1] = -residual
         rhs[-1] = target - row @ x
-        dx, _ = dgetrs(lu, piv, rhs)
+        dx = factors.solve(rhs)
         step = float(abs(dx).max())
         counters.newton_iterations += 1
         if not math.isfinite(step):
@@ -184,7 +191,7 @@ def correct(
             if jacobian_here and last_step <= step_tolerance and residual_converged(
                     residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm):
                 return Correction(True, x, residual, jacobian, iteration - 1, norm,
-                                  factors=None if exact_jacobian else (lu, piv))
+                                  factors=None if exact_jacobian else factors)
             reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm)
             return Correction(False, x, residual, jacobian, iteration, norm, reason or "Newton diverged")
         x = x + dx
@@ -200,7 +207,14 @@ def correct(
             residual, jacobian, x, tolerance, relative_tolerance, norm > 0.5 * previous_norm)
         if converged and jacobian_here and not exact_jacobian:
             # The Jacobian kept is the one just factorised with this row: its LU serves the tangent.
-            return Correction(True, x, residual, jacobian, iteration, norm, factors=(lu, piv))
+            return Correction(True, x, residual, jacobian, iteration, norm, factors=factors)
+        if chord and not converged and (iteration == 1 or step <= CHORD_CONTRACTION * last_step):
+            # A chord step: the same factors again, while they still contract the step fast enough
+            # (they are no longer those of the latest iterate, so a converged point gets its own Jacobian).
+            last_step = step
+            jacobian_here = False
+            continue
+        factors = None
         residual, jacobian = extended.linearise(x)
         jacobian_here = True
         # One reduction finds any NaN or infinity in the Jacobian (their sum is not finite).

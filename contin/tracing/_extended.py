@@ -11,6 +11,7 @@ import numpy as np
 
 from ..base._errors import InputError
 from ..systems._system import System
+from ._linear import LinearSolver, choose_solver, is_sparse
 
 __all__ = ["CallbackFailure", "Counters", "Extended", "describe_non_finite"]
 
@@ -48,16 +49,27 @@ class Extended:
         counters: where evaluations are counted.
         relative_tolerance: the scaled part of Newton's residual test for every correction of this
             system (see :func:`contin.tracing._corrector.correct`); 0 keeps the absolute test alone.
+        linear_solver: ``"auto"``, ``"dense"``, ``"sparse"`` or a
+            :class:`~contin.tracing._linear.LinearSolver`; "auto" is decided by the format of the first
+            dF/du the system returns (see :func:`contin.tracing._linear.choose_solver`).
     """
 
     def __init__(self, system: System, parameters: np.ndarray, free: int, counters: Counters,
-                 relative_tolerance: float = 0.0) -> None:
+                 relative_tolerance: float = 0.0, linear_solver: LinearSolver | str = "auto") -> None:
         self.system = system
         self.parameters = np.array(parameters, dtype=float)
         self.free = free
         self.n = system.size
         self.counters = counters
         self.relative_tolerance = float(relative_tolerance)
+        self._choice = linear_solver
+        self._solver: LinearSolver | None = None if linear_solver == "auto" else choose_solver(linear_solver, None)
+
+    @property
+    def solver(self) -> LinearSolver:
+        """The linear solver of this system's bordered matrices ("auto" decides at the first linearisation,
+        which comes before any factorisation)."""
+        return self._solver if self._solver is not None else choose_solver("dense", None)
 
     def split(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(u, p) for coordinates x."""
@@ -87,10 +99,9 @@ class Extended:
             raise
         except Exception as error:  # noqa: BLE001
             raise CallbackFailure(f"the Jacobian raised {type(error).__name__}: {error}") from error
-        jacobian = np.empty((self.n, self.n + 1))
-        jacobian[:, : self.n] = ju
-        jacobian[:, self.n] = jp
-        return np.asarray(f, dtype=float), jacobian
+        if self._solver is None:
+            self._solver = choose_solver(self._choice, ju)
+        return np.asarray(f, dtype=float), self._solver.assemble(ju, np.asarray(jp, dtype=float).reshape(-1))
 
 
 # -- what made an evaluation non-finite ------------------------------------------------------------
@@ -154,6 +165,15 @@ def _numeric_culprit(system: System, u: np.ndarray, p: np.ndarray) -> str | None
     return None
 
 
+def _non_finite_entries(jacobian) -> list[tuple[int, int]]:
+    """(row, column) of every entry of a dense or sparse Jacobian that is not finite, in row order."""
+    if is_sparse(jacobian):
+        coo = jacobian.tocoo()
+        bad = ~np.isfinite(coo.data)
+        return sorted(zip(coo.row[bad].tolist(), coo.col[bad].tolist()))
+    return [(int(i), int(j)) for i, j in np.argwhere(~np.isfinite(jacobian))]
+
+
 def describe_non_finite(extended: Extended, x: np.ndarray, residual: np.ndarray, jacobian: np.ndarray) -> str:
     """One line saying which equation (by name) is not finite at x, and what made it so where that
     can be told (an overflowing exp, a log of a negative number, a division by zero)."""
@@ -169,7 +189,7 @@ def describe_non_finite(extended: Extended, x: np.ndarray, residual: np.ndarray,
     if bad:
         entries = [(i, None) for i in bad]
     else:
-        entries = [(int(i), int(j)) for i, j in np.argwhere(~np.isfinite(jacobian))]
+        entries = _non_finite_entries(jacobian)
     rows = sorted({i for i, _ in entries})
     expressions = getattr(system, "expressions", None) if isinstance(getattr(system, "symbols", None), dict) else None
     culprit = None

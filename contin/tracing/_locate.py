@@ -9,7 +9,7 @@ import numpy as np
 
 from ._corrector import Correction, correct
 from ._extended import Extended
-from ._tangent import Bordered, SingularMatrix, tangent
+from ._tangent import SingularMatrix, factorise_bordered, tangent
 
 __all__ = ["IllinoisBracket", "Located", "locate_zero", "locate_level"]
 
@@ -54,7 +54,7 @@ def _point_at(extended: Extended, xa: np.ndarray, chord: np.ndarray, fraction: f
 
 def _tangent_at(correction: Correction, row: np.ndarray, reference: np.ndarray) -> np.ndarray:
     try:
-        return tangent(Bordered(correction.jacobian, row), reference)
+        return tangent(factorise_bordered(correction.jacobian, row), reference)
     except SingularMatrix:
         return reference.copy()
 

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..base._errors import InputError
 from ..systems._system import System
+from ._linear import dense
 
 __all__ = ["JacobianCalculus", "first_lyapunov_coefficient", "hopf_eigenpair", "lyapunov_facts"]
 
@@ -50,9 +51,9 @@ class JacobianCalculus:
         evaluate = getattr(self.system, "evaluate", None)
         if callable(evaluate) and self.columns:
             f, ju, jp = evaluate(u, p)
-            return np.asarray(f, dtype=float), np.hstack([ju, jp[:, list(self.columns)]])
+            return np.asarray(f, dtype=float), np.hstack([dense(ju), jp[:, list(self.columns)]])
         f, ju, jp = self.system.linearise(u, p, self.columns[0] if self.columns else 0)
-        blocks = [np.asarray(ju, dtype=float)]
+        blocks = [np.asarray(dense(ju), dtype=float)]
         if self.columns:
             blocks.append(np.asarray(jp, dtype=float).reshape(-1, 1))
             if len(self.columns) > 1:  # the other columns without a second Jacobian of the unknowns

@@ -14,7 +14,7 @@ from ..base._errors import InputError, TraceError
 from ._extended import CallbackFailure, Counters, Extended
 from ..results._status import Status
 from ..systems._system import System
-from ._tangent import Bordered, SingularMatrix, tangent
+from ._tangent import SingularMatrix, factorise_bordered, tangent
 from ._trace import start_vector
 
 __all__ = ["sweep"]
@@ -84,7 +84,7 @@ def sweep(
                            f"largest residual {correction.residual_norm:.3g})")
                 break
             try:
-                t = tangent(Bordered(correction.jacobian, row), reference)
+                t = tangent(factorise_bordered(correction.jacobian, row), reference)
             except SingularMatrix:
                 t = np.full(n + 1, np.nan)
             else:

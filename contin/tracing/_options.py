@@ -6,6 +6,7 @@ import math
 from dataclasses import dataclass, fields
 
 from ..base._errors import InputError
+from ._linear import SOLVER_NAMES, LinearSolver
 
 __all__ = ["TraceOptions", "CORRECTORS"]
 
@@ -40,6 +41,10 @@ class TraceOptions:
         max_correction: largest distance of the corrected point from the predicted one, as a fraction
             of the step length; a step whose corrector moved farther is retried shorter. Together with
             ``max_turn`` it keeps a step from jumping over a tight turn or onto a nearby branch.
+        linear_solver: how the bordered matrix [dF/du, dF/dp; row] is factorised: ``"auto"`` (sparse
+            LU when the system returns dF/du as a scipy.sparse matrix, dense LU otherwise),
+            ``"dense"``, ``"sparse"``, or a :class:`contin.LinearSolver` object (see
+            docs/linear-solvers.md).
 
     Raises:
         InputError: an option is not finite, not positive where it must be, or inconsistent.
@@ -57,6 +62,7 @@ class TraceOptions:
     max_turn: float = 0.5
     location_tolerance: float = 1e-10
     max_correction: float = 0.5
+    linear_solver: str | LinearSolver = "auto"
 
     def __post_init__(self) -> None:
         for name in ("step", "min_step", "max_step", "tolerance", "max_turn", "location_tolerance", "max_correction"):
@@ -88,6 +94,9 @@ class TraceOptions:
             raise InputError(f"direction={self.direction!r} must be 1 or -1")
         if self.corrector not in CORRECTORS:
             raise InputError(f"corrector={self.corrector!r} is not known; use one of {', '.join(CORRECTORS)}")
+        if not isinstance(self.linear_solver, LinearSolver) and self.linear_solver not in SOLVER_NAMES:
+            raise InputError(f"linear_solver={self.linear_solver!r} is not known; use one of "
+                             f"{', '.join(SOLVER_NAMES)} or a contin.LinearSolver object")
         if self.max_turn >= math.pi:
             raise InputError(f"max_turn={self.max_turn} must be below pi radians")
 

@@ -162,7 +162,8 @@ def switch_branch(branch, point, system, *, direction: int = 1, guess: str = "bi
     free_index = system.parameters.index(branch.free)
     parameters = dict(branch.parameters)
     parameters[branch.free] = float(x_star[n])
-    extended = Extended(system, system.parameter_vector(parameters), free_index, Counters())
+    # The bifurcation equation needs the singular vectors of dG/dx: a dense decomposition.
+    extended = Extended(system, system.parameter_vector(parameters), free_index, Counters(), linear_solver="dense")
     _, jacobian = extended.linearise(x_star)
     if not np.all(np.isfinite(jacobian)):
         raise InputError("the Jacobian dF/dx is not finite at the given branch point: it is not a branch point "

@@ -1,4 +1,4 @@
-"""Bordered linear algebra: the tangent of the solution curve, from one LU factorisation."""
+"""Bordered linear algebra: the tangent of the solution curve, from one factorisation (see _linear)."""
 
 from __future__ import annotations
 
@@ -8,9 +8,10 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 
 import numpy as np
-from scipy.linalg.lapack import dgetrf, dgetrs
 
-__all__ = ["Bordered", "SingularMatrix", "from_factors", "one_blas_thread", "tangent"]
+from ._linear import LinearSolver, SingularMatrix, solver_for
+
+__all__ = ["SingularMatrix", "factorise_bordered", "one_blas_thread", "tangent"]
 
 _blas_lock = threading.Lock()
 _blas_state: dict = {"depth": 0, "limiter": None, "controller": None}
@@ -53,65 +54,26 @@ def one_blas_thread() -> Iterator[None]:
                 _blas_state["limiter"] = None
 
 
-class SingularMatrix(Exception):
-    """The bordered matrix is (numerically) singular."""
+def factorise_bordered(jacobian, row: np.ndarray, solver: LinearSolver | None = None):
+    """Factors of the bordered matrix [dG/dx; row], shape (n + 1, n + 1), by ``solver`` (by default the
+    one the Jacobian's format calls for: dense LU for an array, sparse LU for a scipy.sparse matrix).
 
-
-class _Factored:
-    """A bordered factorisation made elsewhere (the corrector's last iteration), for :func:`tangent`."""
-
-    __slots__ = ("row", "_lu")
-
-    def __init__(self, factors: tuple, row: np.ndarray) -> None:
-        self.row = row
-        self._lu = factors
-
-    def solve(self, rhs: np.ndarray) -> np.ndarray:
-        solution, info = dgetrs(self._lu[0], self._lu[1], rhs)
-        return solution
-
-    @property
-    def factors(self) -> tuple:
-        """The LAPACK LU factors ``(lu, piv)`` (e.g. for the sign of the determinant)."""
-        return self._lu
-
-
-def from_factors(factors: tuple, row: np.ndarray) -> "_Factored":
-    """Wrap LAPACK LU factors ``(lu, piv)`` of [dG/dx; row] so :func:`tangent` can use them."""
-    return _Factored(factors, row)
-
-
-class Bordered(_Factored):
-    """LU factorisation of the bordered matrix [dG/dx; row], shape (n + 1, n + 1).
-
-    The same factorisation serves a Newton correction (right-hand side [-G; -c]) and the tangent
-    (right-hand side [0; 1]); re-using it is why the tangent of an accepted point costs no new
+    The same factors serve a Newton correction (right-hand side [-G; -c]) and the tangent
+    (right-hand side [0; 1]); re-using them is why the tangent of an accepted point costs no new
     Jacobian (Keller 1977).
+
+    Raises:
+        SingularMatrix: a pivot is at or below 1e-13 of the largest.
     """
-
-    __slots__ = ("jacobian",)
-
-    def __init__(self, jacobian: np.ndarray, row: np.ndarray) -> None:
-        self.jacobian = jacobian
-        self.row = row
-        size = row.size
-        matrix = np.empty((size, size))
-        matrix[:-1] = jacobian
-        matrix[-1] = row
-        # LAPACK directly: the scipy.linalg wrappers cost more than the factorisation at these sizes.
-        lu, piv, info = dgetrf(matrix, overwrite_a=True)
-        pivots = np.abs(lu.diagonal())
-        largest = pivots.max()
-        if info != 0 or not np.isfinite(largest) or pivots.min() <= 1e-13 * max(1.0, largest):
-            raise SingularMatrix("the bordered Jacobian is singular")
-        super().__init__((lu, piv), row)
+    return (solver or solver_for(jacobian)).factorise(jacobian, row)
 
 
-def tangent(bordered: Bordered, previous: np.ndarray) -> np.ndarray:
+def tangent(bordered, previous: np.ndarray) -> np.ndarray:
     """Unit tangent in the null space of dG/dx, oriented to agree with ``previous``.
 
     Args:
-        bordered: factorisation of [dG/dx; row] with any row not orthogonal to the tangent.
+        bordered: factors of [dG/dx; row] (:func:`factorise_bordered`) with any row not orthogonal to
+            the tangent.
         previous: the previous tangent (orientation reference).
     """
     rhs = np.zeros(bordered.row.size)

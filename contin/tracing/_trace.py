@@ -22,9 +22,16 @@ from ._options import TraceOptions
 from ..results._status import Status
 from ._stepsize import StepController
 from ..systems._system import System
-from ._tangent import Bordered, SingularMatrix, from_factors, one_blas_thread, tangent
+from ._linear import LinearSolver, all_finite
+from ._tangent import SingularMatrix, factorise_bordered, one_blas_thread, tangent
 
 __all__ = ["trace", "start_vector"]
+
+#: Points of more coordinates than this are described by a few of them in messages.
+DESCRIBED_COORDINATES = 50
+
+#: Largest sparse system whose Hopf points get a first Lyapunov coefficient (it is computed densely).
+LYAPUNOV_SIZE = 1000
 
 # _special_points' answer when the trace goes on from its last row rather than from the step's end.
 RESUME = "resume"
@@ -147,6 +154,7 @@ def trace(
     max_turn: float = 0.5,
     max_correction: float = 0.5,
     max_iterations: int = 8,
+    linear_solver: str | LinearSolver = "auto",
     bounds: Mapping[str, Sequence[float]] | None = None,
     events: Sequence[Event] = (),
     at: Mapping[str, Sequence[float]] | None = None,
@@ -187,7 +195,8 @@ def trace(
         parameters: values overriding the system's parameter values (the free one's is the start).
         direction, step, min_step, max_step, max_points, tolerance, relative_tolerance, max_iterations,
             corrector, max_turn, max_correction: see :class:`TraceOptions` (which also states Newton's
-            convergence test exactly); or pass ``options`` instead (not both). ``max_turn`` (radians
+            convergence test exactly), and ``linear_solver`` (dense or sparse LU of the bordered matrix,
+            or a solver of your own: docs/linear-solvers.md); or pass ``options`` instead (not both). ``max_turn`` (radians
             between successive tangents) and ``max_correction`` (the corrector's distance from the
             predictor, as a fraction of the step) make a step shorter before it can jump over a tight
             turn or onto a nearby branch.
@@ -227,7 +236,8 @@ def trace(
         raise InputError(f"system must be a contin System, got {type(system).__name__}")
     keywords = dict(step=step, min_step=min_step, max_step=max_step, max_points=max_points, tolerance=tolerance,
                     relative_tolerance=relative_tolerance, max_iterations=max_iterations, direction=direction,
-                    corrector=corrector, max_turn=max_turn, max_correction=max_correction)
+                    corrector=corrector, max_turn=max_turn, max_correction=max_correction,
+                    linear_solver=linear_solver)
     if options is None:
         options = TraceOptions(**keywords)
     elif any(keywords[k] != getattr(TraceOptions, k) for k in keywords):
@@ -252,7 +262,8 @@ def trace(
         raise InputError("two events share one name; give each event its own name")
 
     counters = Counters()
-    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance)
+    extended = Extended(system, parameter_values, free_index, counters, options.relative_tolerance,
+                        options.linear_solver)
     x0 = np.append(u0, parameter_values[free_index])
     for index, low, high in bound_list:
         if not low <= x0[index] <= high:
@@ -327,7 +338,6 @@ class _Run:
         self.initial_tangent: np.ndarray | None = None
         self.branch_points = False  # look for simple branch points
         self.hopf = False  # look for Hopf points (ODE systems only)
-        self.index = np.arange(0)  # 0 .. n, for the parity of LU row swaps
         # (sign of det [dF/dx; t], sign of the Hopf test, eigenvalues of dF/du with positive real part
         # or -1 when not counted) at the last accepted point
         self.signs = (0, 0, -1, math.nan)
@@ -351,7 +361,16 @@ class _Run:
             self.status, self.message, self.cause = status, message, cause
 
     def describe(self, x: np.ndarray) -> str:
-        return ", ".join(f"{name} = {value:.6g}" for name, value in zip(self.columns, x))
+        """The point in words; a large system (more than DESCRIBED_COORDINATES coordinates) shows its first
+        unknowns, the largest in size, and the free parameter, so a message stays one readable line."""
+        pairs = list(zip(self.columns, x))
+        if len(pairs) > DESCRIBED_COORDINATES:
+            largest = int(np.argmax(np.abs(x[:-1])))
+            text = [f"{name} = {value:.6g}" for name, value in pairs[:3]] + [f"... of {len(pairs) - 1} unknowns"]
+            if largest >= 3:
+                text.append(f"the largest {pairs[largest][0]} = {pairs[largest][1]:.6g}")
+            return ", ".join(text + [f"{pairs[-1][0]} = {pairs[-1][1]:.6g}"])
+        return ", ".join(f"{name} = {value:.6g}" for name, value in pairs)
 
     def append(self, x: np.ndarray, t: np.ndarray, iterations: int, residual_norm: float) -> int:
         step = _length(x - self.rows[-1]) if self.rows else 0.0
@@ -405,7 +424,7 @@ class _Run:
             return
         residual, jacobian = checked
         try:
-            Bordered(jacobian, row)
+            factorise_bordered(jacobian, row, self.extended.solver)
         except SingularMatrix:
             raise InputError(
                 f"{where} is singular at the start point ("
@@ -424,7 +443,7 @@ class _Run:
             )
             return
         try:
-            bordered = Bordered(correction.jacobian, row)
+            bordered = factorise_bordered(correction.jacobian, row, self.extended.solver)
         except SingularMatrix:
             raise InputError(
                 f"the Jacobian dF/du is singular at the corrected start point ({self.describe(correction.x)})"
@@ -434,8 +453,7 @@ class _Run:
         if self.initial_tangent is None and t[n] == 0.0:
             t = reference.copy()
         self.jacobian = correction.jacobian
-        self.index = np.arange(n + 1)
-        self.signs = self.test_signs(bordered.factors, float(row @ t), t, correction.jacobian)
+        self.signs = self.test_signs(bordered, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
         self.event_slopes = [self.event_slope(event, correction.x, t) for event in self.events]
         index = self.append(correction.x, t, correction.iterations, correction.residual_norm)
@@ -465,7 +483,7 @@ class _Run:
                              "give one equation per unknown")
         with np.errstate(all="ignore"):  # a non-finite value is reported below, in words
             residual, jacobian = self.extended.linearise(x0)  # the system checks the shapes of its Jacobians
-        if not (np.all(np.isfinite(residual)) and np.all(np.isfinite(jacobian))):
+        if not (np.all(np.isfinite(residual)) and all_finite(jacobian)):
             detail = describe_non_finite(self.extended, x0, residual, jacobian)
             self.finish(Status.NON_FINITE, f"{Status.NON_FINITE.message}: {detail}")
             return None
@@ -529,6 +547,7 @@ class _Run:
                 target = float(predicted[j])
             else:
                 row, target = t, float(t @ predicted)
+            jacobians_before = self.extended.counters.jacobian_evaluations
             if passage is not None:
                 # Near the singular point Newton is ill-conditioned: the exact Jacobian, more
                 # iterations, no divergence guard (the fixed coordinate keeps it off the second family).
@@ -541,14 +560,15 @@ class _Run:
                 correction = correct(self.extended, predicted, row, target, tolerance=options.tolerance,
                                      max_iterations=options.max_iterations, jacobian=self.jacobian,
                                      max_distance=max(step_now, 1e-12) * 2.0, exact_jacobian=False)
+            jacobians_used = self.extended.counters.jacobian_evaluations - jacobians_before
             accepted = False
             if correction.converged and not jump and _length(correction.x - predicted) > options.max_correction * step_now:
                 last_reason = (f"corrector moved too far from the predictor (more than max_correction = "
                                f"{options.max_correction:g} of the step)")
             elif correction.converged:
                 try:
-                    factored = (from_factors(correction.factors, row) if correction.factors is not None
-                                else Bordered(correction.jacobian, row))
+                    factored = (correction.factors if correction.factors is not None
+                                else factorise_bordered(correction.jacobian, row, self.extended.solver))
                     t_new = tangent(factored, t)
                     cosine = float(t_new @ t)
                     turn = math.acos(min(1.0, max(-1.0, cosine)))
@@ -583,7 +603,7 @@ class _Run:
                 h = shorter
                 continue
             x_new = correction.x
-            signs = self.test_signs(factored.factors, cosine if row is t else float(row @ t_new), t_new,
+            signs = self.test_signs(factored, cosine if row is t else float(row @ t_new), t_new,
                                     correction.jacobian)
             at_min_step = step_now <= options.min_step * (1.0 + 1e-12)
             if jump:
@@ -616,7 +636,9 @@ class _Run:
             travelled = _length(x_new - x)
             curvature = (t_new - t) / travelled if travelled > 0.0 and self.rows[-2] is x else None
             x, t = x_new, t_new
-            h = self.controller.after_success(h, correction.iterations, turn)
+            # With chord steps an iteration costs a solve, not a Jacobian: the effort is the Jacobians.
+            effort = jacobians_used if self.extended.solver.chord else correction.iterations
+            h = self.controller.after_success(h, effort, turn)
 
     def _next_requested_value(self, x: np.ndarray, t: np.ndarray, h: float) -> tuple[float, int, float] | None:
         """(step, coordinate, value) of the nearest requested value the next step would pass, if the
@@ -645,20 +667,19 @@ class _Run:
         return best
 
     # -- special points between two accepted points ---------------------------------------------
-    def test_signs(self, factors: tuple, along: float, t: np.ndarray,
-                   jacobian: np.ndarray) -> tuple[int, int, int, float]:
+    def test_signs(self, factors, along: float, t: np.ndarray, jacobian) -> tuple[int, int, int, float]:
         """Signs of the branch-point and Hopf test functions at a point (0 for a test that is off), the
         number of eigenvalues of dF/du with positive real part (-1 when Hopf points are not looked
-        for), and log |det [dF/dx; t]| (nan when branch points are not looked for); ``factors`` are the
-        LU factors of [jacobian; row] and ``along`` is row . t."""
+        for, or not counted: on the sparse path), and log |det [dF/dx; t]| (nan when branch points
+        are not looked for); ``factors`` are the linear solver's factors of [jacobian; row] and
+        ``along`` is row . t."""
         branch_sign, magnitude = 0, math.nan
         if self.branch_points:
-            branch_sign = bordered_sign(factors, along, self.index)
+            branch_sign = bordered_sign(factors, along)
             if branch_sign == 0:
-                branch_sign = determinant_sign(jacobian, t)
+                branch_sign = determinant_sign(jacobian, t, self.extended.solver)
             else:
-                with np.errstate(divide="ignore"):
-                    magnitude = float(np.log(np.abs(factors[0].diagonal())).sum()) - math.log(abs(along))
+                magnitude = factors.log_abs_determinant() - math.log(abs(along))
         hopf, unstable = hopf_signature(jacobian[:, : self.extended.n]) if self.hopf else (0, -1)
         return branch_sign, hopf, unstable, magnitude
 
@@ -756,6 +777,10 @@ class _Run:
                 if facts["kind"] == "hopf":
                     found.append((fraction_of(located.x), "hopf", facts, located))
                     hopf_crossings += 1
+                elif facts["kind"] == "jump":
+                    self.notes.append(f"the sparse Hopf test changed sign between {self.describe(xa)} and "
+                                      f"{self.describe(xb)} because the eigenvalue pair nearest the imaginary axis "
+                                      "changed, not by a crossing: no Hopf point reported")
                 else:
                     low, high = facts["eigenvalues"]
                     self.notes.append(f"neutral saddle (real eigenvalues {low:.6g} and {high:.6g}) at "
@@ -857,7 +882,10 @@ class _Run:
                 self.special.append(self.special_point("branch_point", "branch point", index, located))
             elif kind == "hopf":
                 facts = {key: payload[key] for key in ("angular_frequency", "period")}
-                facts.update(lyapunov_facts(self.system, *self.extended.split(located.x)))
+                if self.extended.solver.sparse and self.extended.n > LYAPUNOV_SIZE:
+                    facts["first_lyapunov_coefficient"] = math.nan  # needs dense eigenvectors and solves
+                else:
+                    facts.update(lyapunov_facts(self.system, *self.extended.split(located.x)))
                 self.special.append(self.special_point("hopf", "Hopf point", index, located, facts))
             elif kind == "event":
                 event = payload
@@ -1116,6 +1144,7 @@ class _Run:
             "rejected_steps": counters.rejected_steps,
             "rejections": dict(sorted(counters.rejections.items())),
             "points": len(self.rows),
+            "linear_solver": self.extended.solver.name,
         }
         if self.notes:
             stats["notes"] = list(self.notes)
