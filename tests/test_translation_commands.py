@@ -16,7 +16,8 @@ import pytest
 from contin.commands._cli import main
 from contin_thermo.models._characterise import characterise, molar_mass_of
 from contin_thermo.models._components import lookup
-from contin_thermo.models._translation import volume_shifts
+from contin_thermo.curves._envelope import trace_envelope
+from contin_thermo.models._translation import translate_mixture_result, volume_shifts
 
 # An invented analysis whose envelope closes with the default kij.
 FEED = pathlib.Path(__file__).parent / "data" / "light_analysis.csv"
@@ -54,22 +55,37 @@ def test_saturation_keeps_pressures_and_moves_liquid_densities_towards_measured(
     assert "volume_translation" in moved["stats"] and "volume_translation" not in plain["stats"]
 
 
-def test_envelope_of_a_feed_keeps_t_p_and_k_and_moves_volumes_by_each_phase_shift(tmp_path, capsys):
-    plain, moved = _both(capsys, ["thermo", "envelope", "--feed", str(FEED), "--eos", "pr", "--quiet"])
-    k_names = [c for c in plain["columns"] if c.startswith("K_")]
-    assert np.array_equal(_columns(plain, ["T", "P", *k_names]), _columns(moved, ["T", "P", *k_names]))
-    assert [sp["values"] for sp in plain["special_points"]] == [sp["values"] for sp in moved["special_points"]]
-    assert {"critical", "cricondenbar", "cricondentherm"} <= {sp["kind"] for sp in moved["special_points"]}
+def test_envelope_of_a_feed_keeps_t_p_and_k_and_moves_volumes_by_each_phase_shift():
     result = characterise(ROWS)
+    envelope = trace_envelope(result.mixture("pr", kij="defaults"), result.z, check_stability=False)
+    moved = translate_mixture_result(envelope, result.z, molar_masses=result.molar_masses)
+    plain_doc, moved_doc = envelope.to_dict(), moved.to_dict()
+    k_names = [c for c in envelope.columns if c.startswith("K_")]
+    assert np.array_equal(_columns(plain_doc, ["T", "P", *k_names]), _columns(moved_doc, ["T", "P", *k_names]))
+    assert {"critical", "cricondenbar", "cricondentherm"} <= {sp["kind"] for sp in moved.special_points}
     shifts = volume_shifts(result.components, "pr", molar_masses=result.molar_masses)
-    assert moved["stats"]["volume_translation"]["c"] == [float(c) for c in shifts.c]
-    assert any("Jhaveri" in s and "M = " in s for s in moved["stats"]["volume_translation"]["sources"])
-    z = np.array(moved["feed"])
-    K = _columns(plain, k_names)
-    before, after = _columns(plain, ["v_feed", "v_incipient"]), _columns(moved, ["v_feed", "v_incipient"])
+    assert moved.stats["volume_translation"]["c"] == [float(c) for c in shifts.c]
+    assert any("Jhaveri" in s and "M = " in s for s in moved.stats["volume_translation"]["sources"])
+    z, K = result.z, _columns(plain_doc, k_names)
+    before, after = _columns(plain_doc, ["v_feed", "v_incipient"]), _columns(moved_doc, ["v_feed", "v_incipient"])
     assert after[:, 0] == pytest.approx(before[:, 0] - shifts.c @ z, rel=1e-12)
     incipient = K * z / (K @ z)[:, None]
     assert after[:, 1] == pytest.approx(before[:, 1] - incipient @ shifts.c, rel=1e-12)
+
+
+def test_the_envelope_and_critical_commands_translate_with_the_feed_molar_masses(capsys):
+    plain, moved = _both(capsys, ["thermo", "envelope", "--mixture", "methane=0.9,propane=0.1", "--eos", "pr",
+                                  "--quiet"])
+    columns = ["T", "P", "K_methane", "K_propane"]
+    assert np.array_equal(_columns(plain, columns), _columns(moved, columns))
+    assert [sp["values"] for sp in plain["special_points"]] == [sp["values"] for sp in moved["special_points"]]
+    assert not np.array_equal(_columns(plain, ["v_feed"]), _columns(moved, ["v_feed"]))
+    plain, moved = _both(capsys, ["thermo", "critical", "--feed", str(FEED), "--eos", "pr"])
+    assert plain["points"][0][:2] == moved["points"][0][:2]
+    result = characterise(ROWS)
+    shifts = volume_shifts(result.components, "pr", molar_masses=result.molar_masses)
+    assert moved["stats"]["volume_translation"]["sources"] == list(shifts.sources)
+    assert moved["points"][0][2] == pytest.approx(plain["points"][0][2] - shifts.of(result.z), rel=1e-12)
 
 
 def test_binary_diagram_and_mixture_critical_point(capsys):

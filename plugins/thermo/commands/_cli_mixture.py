@@ -106,13 +106,13 @@ def parse_kij(text: str | None, names, extra=()) -> np.ndarray:
 
 def _feed_components(args, extra, *, fractions: bool):
     """(components, z) of ``--feed``: its plus fraction characterised, or its named components as they are."""
-    from ..models._characterise import _PLUS, characterise
+    from ..models._characterise import characterise, is_plus_fraction
     from ..models._components import lookup
     from ..models._feed import read_feed
 
     rows = read_feed(args.feed)
     normalise = bool(getattr(args, "normalise", False))
-    plus = [row for row in rows if _PLUS.match(row["name"])]
+    plus = [row for row in rows if is_plus_fraction(row["name"])]
     if plus and not fractions:
         raise InputError(f"--feed {args.feed!r}: {args.diagram} needs a binary of two named components, but the feed "
                          f"holds the plus fraction {plus[0]['name']!r} ({plus[0]['line']}); trace its envelope with "

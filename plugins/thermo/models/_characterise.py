@@ -87,6 +87,7 @@ __all__ = [
     "correlate",
     "exponential_split",
     "gamma_split",
+    "is_plus_fraction",
     "katz_firoozabadi_table",
     "lump",
     "molar_mass_of",
@@ -128,6 +129,11 @@ _LUMP_SHARED = ("z: sum; molar mass: mole-fraction average; specific gravity: vo
 # Standard atomic weights (IUPAC, conventional values), for the molar masses of the table's fluids.
 _ATOMS = {"C": 12.011, "H": 1.008, "N": 14.007, "O": 15.999, "S": 32.06, "Ar": 39.948, "He": 4.002602}
 _PLUS = re.compile(r"^\s*C(\d+)\s*\+\s*$", re.IGNORECASE)
+
+
+def is_plus_fraction(name: str) -> bool:
+    """Whether ``name`` names a plus fraction (``C7+``, ``c10 +``)."""
+    return bool(_PLUS.match(str(name)))
 
 
 def molar_mass_of(name: str) -> float | None:
