@@ -191,10 +191,13 @@ def chains(grid: Sequence[dict]) -> list[int | None]:
         if index == first:
             parents.append(None)
             continue
-        def distance(other: int) -> float:
-            return sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name])) for name in grid[index])
-        parents.append(min(range(first, index), key=lambda other: (distance(other), -other)))
+        parents.append(min(range(first, index), key=lambda other, index=index: (_distance(grid, index, other), -other)))
     return parents
+
+
+def _distance(grid: Sequence[dict], index: int, other: int) -> float:
+    """How far apart two runs' values are, each parameter scaled by 1 + its size."""
+    return sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name])) for name in grid[index])
 
 
 class _Progress:
@@ -366,8 +369,8 @@ def sweep_report(runs: Sequence[SweepRun], title: str, folder: str | Path) -> st
     """What a sweep command prints: the counts, then one line per failed run with its values and reason."""
     failed = [run for run in runs if not run.success]
     reused = sum(run.reused for run in runs)
-    lines = [f"sweep of {title}: {len(runs)} runs ({reused} reused from an earlier sweep), "
-             f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}"]
+    lines = [(f"sweep of {title}: {len(runs)} runs ({reused} reused from an earlier sweep), "
+              f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}")]
     for run in failed:
         values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
         reason = run.error if run.error is not None else str(run.document.get("message"))

@@ -18,7 +18,7 @@ from collections.abc import Sequence
 from contin import InputError
 from contin.base import add_sweep_options as _add_executor_options
 
-__all__ = ["add_sweep_options", "parse_sweeps", "sweep_command", "run_one", "KINDS"]
+__all__ = ["KINDS", "add_sweep_options", "parse_sweeps", "run_one", "sweep_command"]
 
 #: What ``--sweep`` can vary: kind -> what it is.
 KINDS = {"kij": "binary interaction parameter", "Tc": "critical temperature", "Pc": "critical pressure",
