@@ -177,3 +177,33 @@ def test_a_sweep_on_a_real_local_dask_cluster_gives_the_same_runs(tmp_path, caps
         code, out, _ = run(capsys, path, "--out", "dask", "--scheduler", cluster.scheduler_address)
     assert code == 0 and "2 succeeded" in out
     assert rows(tmp_path / "serial") == rows(tmp_path / "dask")
+
+
+def shifted_cubic_folds(description, values, start):
+    """A sweep task of u^3 - u + p + c = 0 (folds at p = -c -+ 2/(3 sqrt 3), exact) that reports its start."""
+    import contin
+
+    c = values["c"]
+    system = contin.CallableSystem(lambda u, p: [u[0] ** 3 - u[0] + p[0] + p[1]], ["u"], {"p": 0.0, "c": c})
+    u0 = description["u0"] if start is None else start
+    branch = contin.trace(system, {"u": u0}, free="p", parameters={"p": u0 - u0 ** 3 - c, "c": c}, step=0.05,
+                          bounds={"p": (-1.5 - c, 1.0 - c)})
+    document = branch.to_dict()
+    document["success"], document["started_from"] = branch.success, start
+    return document
+
+
+def test_a_task_of_ones_own_runs_through_run_sweep_with_starts_from_its_chain(tmp_path):
+    import contin
+
+    task = contin.SweepTask(shifted_cubic_folds, {"u0": 1.3247179572447460}, {"model": "shifted cubic"},
+                            start_of=lambda document: document["points"][0][0])
+    runs = contin.run_sweep(task, {"c": [0.0, 0.1, 0.2, 0.3]}, tmp_path / "cubic")
+    fold = 2 / (3 * math.sqrt(3))
+    for run in runs:
+        folds = sorted(sp["values"]["p"] for sp in run.document["special_points"] if sp["kind"] == "fold")
+        assert folds == pytest.approx([-fold - run.values["c"], fold - run.values["c"]], abs=1e-10)
+    # Chains [0, 1] and [2, 3]: the second run of each starts from the first's start point.
+    assert [run.document["started_from"] for run in runs] == [None, 1.3247179572447460, None, 1.3247179572447460]
+    assert rows(tmp_path / "cubic")[0].keys() >= {"run", "c", "status", "kind", "u", "p"}
+    assert "4 runs (0 reused from an earlier sweep), 4 succeeded" in contin.sweep_report(runs, "cubic", tmp_path)

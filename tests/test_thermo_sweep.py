@@ -100,6 +100,9 @@ def test_a_second_sweep_recomputes_only_missing_or_corrupt_runs_and_refuses_a_ch
     assert code == 2 and 'the sweep there has --eos = "pr", this one "srk"' in err
     code, _, err = run(capsys, *words, "--from-pressure", "2 bar")
     assert code == 2 and "the sweep there has --from-pressure = 100000.0, this one 200000.0" in err
+    changed = [w.replace("propane=0.08", "blend-P=0.08") for w in words]
+    code, _, err = run(capsys, *changed, "--component", "blend-P,369.83,4.3e6,0.152")
+    assert code == 2 and "the sweep there has components[2].Pc = 4248000.0, this one 4300000.0" in err
 
 
 def test_a_process_pool_and_a_local_dask_cluster_give_the_same_runs(tmp_path, capsys, monkeypatch):

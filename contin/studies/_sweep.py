@@ -102,6 +102,25 @@ def _render(value) -> str:
     return text if len(text) <= 80 else text[:77] + "..."
 
 
+def _difference(old, new, path: str) -> tuple[str, object, object] | None:
+    """The first place where two JSON values differ: (path such as ``components[1].Tc``, old, new)."""
+    if isinstance(old, dict) and isinstance(new, dict):
+        for key in sorted(set(old) | set(new), key=str):
+            if key not in old or key not in new:
+                return f"{path}.{key}", old.get(key, "nothing"), new.get(key, "nothing")
+            found = _difference(old[key], new[key], f"{path}.{key}")
+            if found is not None:
+                return found
+        return None
+    if isinstance(old, list) and isinstance(new, list) and len(old) == len(new):
+        for index, (a, b) in enumerate(zip(old, new)):
+            found = _difference(a, b, f"{path}[{index}]")
+            if found is not None:
+                return found
+        return None
+    return None if old == new else (path, old, new)
+
+
 def _check_definition(folder: Path, definition: dict) -> None:
     """Refuse to resume a sweep whose definition changed, naming what differs."""
     path = folder / DEFINITION
@@ -115,15 +134,17 @@ def _check_definition(folder: Path, definition: dict) -> None:
     if not isinstance(saved, dict):
         raise InputError(f"{path}: not a sweep definition; choose another output folder")
     for section, prefix in (("over", "over."), ("task", "")):
-        old, new = saved.get(section) or {}, definition[section]
-        if not isinstance(old, dict):
-            old = {}
+        old, new = saved.get(section), definition[section]
+        old = old if isinstance(old, dict) else {}
         for name in sorted(set(old) | set(new)):
-            if old.get(name) != new.get(name):
-                said = "nothing" if name not in old else _render(old[name])
-                raise InputError(f"{folder}: the sweep there has {prefix}{name} = {said}, this one "
-                                 f"{'nothing' if name not in new else _render(new[name])}; resume with the same "
-                                 "definition, or choose another output folder")
+            before, after = old.get(name, "nothing"), new.get(name, "nothing")
+            # A list of values is shown whole; a model is shown at its first difference.
+            found = (_difference(before, after, name) if section == "task"
+                     else None if before == after else (f"{prefix}{name}", before, after))
+            if found is not None:
+                where, before, after = found
+                raise InputError(f"{folder}: the sweep there has {where} = {_render(before)}, this one "
+                                 f"{_render(after)}; resume with the same definition, or choose another output folder")
 
 
 def _saved(folder: Path, index: int, values: dict) -> dict | None:
@@ -170,10 +191,13 @@ def chains(grid: Sequence[dict]) -> list[int | None]:
         if index == first:
             parents.append(None)
             continue
-        def distance(other: int) -> float:
-            return sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name])) for name in grid[index])
-        parents.append(min(range(first, index), key=lambda other: (distance(other), -other)))
+        parents.append(min(range(first, index), key=lambda other, index=index: (_distance(grid, index, other), -other)))
     return parents
+
+
+def _distance(grid: Sequence[dict], index: int, other: int) -> float:
+    """How far apart two runs' values are, each parameter scaled by 1 + its size."""
+    return sum(abs(grid[index][name] - grid[other][name]) / (1.0 + abs(grid[other][name])) for name in grid[index])
 
 
 class _Progress:
@@ -345,8 +369,8 @@ def sweep_report(runs: Sequence[SweepRun], title: str, folder: str | Path) -> st
     """What a sweep command prints: the counts, then one line per failed run with its values and reason."""
     failed = [run for run in runs if not run.success]
     reused = sum(run.reused for run in runs)
-    lines = [f"sweep of {title}: {len(runs)} runs ({reused} reused from an earlier sweep), "
-             f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}"]
+    lines = [(f"sweep of {title}: {len(runs)} runs ({reused} reused from an earlier sweep), "
+              f"{len(runs) - len(failed)} succeeded, {len(failed)} failed; files in {folder}")]
     for run in failed:
         values = ", ".join(f"{name} = {value:g}" for name, value in run.values.items())
         reason = run.error if run.error is not None else str(run.document.get("message"))

@@ -11,13 +11,14 @@ the values of the run), from which :func:`run_one` rebuilds the model; nothing c
 from __future__ import annotations
 
 import argparse
+import io
 import json
 from collections.abc import Sequence
 
 from contin import InputError
 from contin.base import add_sweep_options as _add_executor_options
 
-__all__ = ["add_sweep_options", "parse_sweeps", "sweep_command", "run_one", "KINDS"]
+__all__ = ["KINDS", "add_sweep_options", "parse_sweeps", "run_one", "sweep_command"]
 
 #: What ``--sweep`` can vary: kind -> what it is.
 KINDS = {"kij": "binary interaction parameter", "Tc": "critical temperature", "Pc": "critical pressure",
@@ -43,12 +44,10 @@ def _check_options(args: argparse.Namespace) -> None:
         if given:
             raise InputError(f"{given[0]} applies to a sweep only; add --sweep KIND:TARGET=V1,V2,... or drop {given[0]}")
         return
-    for option in ("csv", "plot", "record", "quality" if args.thermo_command != "envelope" else "",
-                   "at_temperatures" if args.thermo_command != "saturation" else ""):
-        if option and getattr(args, option, None) is not None:
-            flag = f"--{option.replace('_', '-')}"
-            raise InputError(f"{flag} writes one run's result; with --sweep every run is written to the sweep "
-                             f"folder (--out): drop {flag}")
+    for option in ("csv", "plot", "record"):
+        if getattr(args, option, None) is not None:
+            raise InputError(f"--{option} writes one run's result; with --sweep every run is written to the sweep "
+                             f"folder (--out): drop --{option}")
 
 
 def parse_sweeps(texts: Sequence[str], names: Sequence[str], kinds: Sequence[str], extra=()) -> dict[str, list[float]]:
@@ -186,8 +185,9 @@ def sweep_command(args: argparse.Namespace, description: dict) -> int | None:
                 for key, value in description.items()}
     task = contin.SweepTask(run_one, description, identity, _start_of if description["command"] == "envelope" else None)
     folder = args.out if args.out is not None else f"{description['command']}-sweep"
+    quiet = bool(getattr(args, "quiet", False) or getattr(args, "json", False))
     runs = contin.run_sweep(task, over, folder, workers=args.workers, scheduler=args.scheduler,
-                            timeout=args.timeout, warm=not args.cold)
+                            timeout=args.timeout, warm=not args.cold, stream=io.StringIO() if quiet else None)
     if getattr(args, "json", False):
         print(json.dumps({"folder": str(folder), "runs": [
             {"run": run.index, "sweep_values": run.values, "status": run.status, "success": run.success,
