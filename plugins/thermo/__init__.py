@@ -46,6 +46,10 @@ _EXPORTS = {
     "VolumeShifts": ".models._translation",
     "translate_curve": ".models._translation",
     "volume_shifts": ".models._translation",
+    "EnvelopeSensitivities": ".curves._corner_sensitivity",
+    "envelope_sensitivities": ".curves._corner_sensitivity",
+    "ModelParameter": ".models._parameters",
+    "parse_parameters": ".models._parameters",
 }
 
 __all__ = sorted(_EXPORTS)

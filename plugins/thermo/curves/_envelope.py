@@ -153,6 +153,38 @@ class EnvelopeSystem(contin.CallableSystem):
         dp[n + 1] = -Py / P
         return r, J, dp
 
+    def constant_derivative(self, u: np.ndarray, lnP: float, parameter) -> np.ndarray:
+        """dF/dq at (u, ln P) for one model constant q (a :class:`~contin_thermo.models._parameters.ModelParameter`).
+
+        Exact: a kij, Tc, Pc or omega changes a_ij(T) and b_i (``constant_derivatives``), which enter
+        F_n and P through ``Mixture.constant_state``; a feed fraction changes the phases' amounts
+        (``feed_derivative``), which enter through the composition Hessians F_nn and dP/dn.
+        """
+        from ..models._parameters import constant_derivatives, feed_derivative
+
+        n, mixture = self.n, self.mixture
+        T, Vx, Vy, P = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2]), math.exp(lnP)
+        K = np.exp(u[:n])
+        denominator = 1.0 + self.beta * (K - 1.0)
+        x = self.z / denominator
+        y = K * x
+        A, slope = mixture.attraction_roots(T)
+        d = np.zeros(n + 3)
+        if parameter.kind == "z":
+            dx = feed_derivative(self.z, parameter) / denominator
+            dy = K * dx
+            _, _, _, _, Pnx, _, _, Fnnx = mixture.linear_state(T, Vx, x, A, slope)
+            _, _, _, _, Pny, _, _, Fnny = mixture.linear_state(T, Vy, y, A, slope)
+            d[:n] = Fnny @ dy - Fnnx @ dx
+            d[n], d[n + 1], d[n + 2] = Pnx @ dx / P, Pny @ dy / P, dy.sum() - dx.sum()
+            return d
+        dA, db = constant_derivatives(mixture, parameter, T)
+        dFx, dPx = mixture.constant_state(T, Vx, x, A, dA, db)
+        dFy, dPy = mixture.constant_state(T, Vy, y, A, dA, db)
+        d[:n] = dFy - dFx
+        d[n], d[n + 1] = dPx / P, dPy / P
+        return d
+
     # contin's System interface ------------------------------------------------------------------
     def _residual_only(self, u, p):
         return self.evaluate(np.asarray(u, dtype=float), float(p[0]), with_jacobian=False)[0]

@@ -1,0 +1,198 @@
+"""Model constants as parameters: kij of a pair, a component's Tc, Pc or omega, and a feed mole fraction.
+
+A :class:`ModelParameter` names one constant q of a mixture model. :func:`constant_derivatives` gives
+the exact derivatives of the model's attraction matrix a_ij(T) and co-volumes b_i with respect to q,
+by the chain rule through the cubic's expressions (``_eos``):
+
+    a_c,i = Omega_a R^2 Tc_i^2 / Pc_i,   b_i = Omega_b R Tc_i / Pc_i,   a_i = a_c,i alpha_i(T),
+    a_ij = (1 - k_ij) sqrt(a_i a_j),
+
+with alpha of Soave's form (1 + m(omega)(1 - sqrt(T/Tc)))^2 (Soave, Chem. Eng. Sci. 27 (1972) 1197;
+Peng & Robinson, Ind. Eng. Chem. Fundam. 15 (1976) 59), Redlich-Kwong's (T/Tc)^-1/2 or 1. A feed mole
+fraction ``z:NAME`` moves z_NAME by dq and scales every other fraction by the same factor so that the
+sum stays 1: dz_NAME/dq = 1, dz_j/dq = -z_j / (1 - z_NAME) for j != NAME.
+
+:func:`perturbed` returns the model with one constant changed, for checks by finite differences
+and for loci in a constant.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from collections.abc import Sequence
+
+import numpy as np
+
+from contin import InputError
+from contin.base import suggest
+
+from ._components import lookup
+from ._kij import split_pair
+
+__all__ = ["KINDS", "ModelParameter", "parse_parameter", "parse_parameters", "constant_derivatives",
+           "feed_derivative", "parameter_value", "perturbed"]
+
+#: The kinds of model constant, with what each is in plain words.
+KINDS = {"kij": "interaction parameter of a pair", "Tc": "critical temperature (K)",
+         "Pc": "critical pressure (Pa)", "omega": "acentric factor", "z": "feed mole fraction"}
+
+
+@dataclass(frozen=True)
+class ModelParameter:
+    """One constant of a mixture model.
+
+    Attributes:
+        kind: ``kij``, ``Tc``, ``Pc``, ``omega`` or ``z``.
+        indices: position(s) in the mixture of the component (one) or the pair (two, for ``kij``).
+        label: the text it was given as (``"kij:methane-n-heptane"``).
+    """
+
+    kind: str
+    indices: tuple[int, ...]
+    label: str
+
+
+def parse_parameter(text: str, names: Sequence[str], extra=(), *, argument: str = "--sensitivities") -> ModelParameter:
+    """A :class:`ModelParameter` from ``"kij:methane-n-heptane"``, ``"Tc:methane"``, ``"z:ethane"``, ...
+
+    Raises:
+        InputError: no ``KIND:NAME``, an unknown kind (with a suggestion), an unknown component, a
+            component or pair not in the mixture, a component paired with itself.
+    """
+    label = str(text).strip()
+    kind, colon, target = label.partition(":")
+    kind, target = kind.strip(), target.strip()
+    if not colon or not target:
+        raise InputError(f"{argument} entry {label!r} must be KIND:NAME, e.g. 'Tc:methane' or 'kij:methane-ethane'")
+    if kind not in KINDS:
+        raise InputError(f"{argument} entry {label!r}: unknown constant {kind!r}; use one of "
+                         f"{', '.join(KINDS)}{suggest(kind, KINDS)}")
+    names = list(names)
+    if kind == "kij":
+        i, j = split_pair(target, names, extra, argument)
+        if i == j:
+            raise InputError(f"{argument} entry {label!r} pairs a component with itself; kij is zero on the diagonal")
+        return ModelParameter(kind, (min(i, j), max(i, j)), label)
+    component = lookup(target, extra, argument=argument)
+    if component.name not in names:
+        raise InputError(f"{argument} entry {label!r}: {component.name!r} is not a component of the mixture "
+                         f"({', '.join(names)})")
+    return ModelParameter(kind, (names.index(component.name),), label)
+
+
+def parse_parameters(text: str, names: Sequence[str], extra=(), *, argument: str = "--sensitivities") -> tuple[ModelParameter, ...]:
+    """Comma-separated :func:`parse_parameter` entries; refuses an empty list and repeats."""
+    entries = [part for part in str(text or "").split(",") if part.strip()]
+    if not entries:
+        raise InputError(f"{argument} is empty; give constants such as 'kij:methane-ethane,Tc:methane'")
+    parameters = tuple(parse_parameter(entry, names, extra, argument=argument) for entry in entries)
+    seen = {}
+    for parameter in parameters:
+        key = (parameter.kind, parameter.indices)
+        if key in seen:
+            raise InputError(f"{argument} names one constant twice ({seen[key]!r} and {parameter.label!r})")
+        seen[key] = parameter.label
+    return parameters
+
+
+def parameter_value(mixture, z: np.ndarray, parameter: ModelParameter) -> float:
+    """The present value of the constant."""
+    if parameter.kind == "kij":
+        return float(mixture.kij[parameter.indices])
+    if parameter.kind == "z":
+        return float(z[parameter.indices[0]])
+    return float(getattr(mixture, parameter.kind)[parameter.indices[0]])
+
+
+def feed_derivative(z: np.ndarray, parameter: ModelParameter) -> np.ndarray:
+    """dz/dq: the fraction named moves by dq, the others shrink in proportion (the sum stays 1)."""
+    k = parameter.indices[0]
+    dz = -np.asarray(z, dtype=float) / (1.0 - z[k])
+    dz[k] = 1.0
+    return dz
+
+
+def perturbed(mixture, z: np.ndarray, parameter: ModelParameter, value: float):
+    """(mixture, z) with the constant set to ``value`` (the feed renormalised as in :func:`feed_derivative`).
+
+    Raises:
+        InputError: a value the model cannot take (kij outside (-1, 1), Tc or Pc not positive, a feed
+            fraction outside (0, 1)).
+    """
+    from ._mixture import Mixture
+
+    i = parameter.indices[0]
+    if parameter.kind == "z":
+        if not 0.0 < value < 1.0:
+            raise InputError(f"{parameter.label} = {value:g}: a feed mole fraction must lie strictly between 0 and 1")
+        z = np.asarray(z, dtype=float) * (1.0 - value) / (1.0 - z[i])
+        z[i] = value
+        return mixture, z
+    if parameter.kind == "kij":
+        kij = np.array(mixture.kij)
+        j = parameter.indices[1]
+        kij[i, j] = kij[j, i] = value
+        return Mixture(mixture.components, mixture.family, kij), z
+    components = list(mixture.components)
+    components[i] = replace(components[i], **{parameter.kind: float(value)})
+    return Mixture(tuple(components), mixture.family, mixture.kij), z
+
+
+def _root_alpha_derivatives(family, T: float, Tc: np.ndarray, omega: np.ndarray):
+    """(s, ds/dTc, ds/domega) with s = sqrt(alpha(T)) per component."""
+    if family.alpha_form == "constant":
+        one = np.ones_like(Tc)
+        return one, 0.0 * one, 0.0 * one
+    root_tr = np.sqrt(T / Tc)
+    if family.alpha_form == "inverse_root":
+        s = root_tr**-0.5
+        return s, 0.25 * s / Tc, 0.0 * s
+    m = family.m(omega)
+    s = 1.0 + m * (1.0 - root_tr)
+    return s, 0.5 * m * root_tr / Tc, _m_slope(family, omega) * (1.0 - root_tr)
+
+
+def _m_slope(family, omega: np.ndarray) -> np.ndarray:
+    """dm/domega of the family's m(omega) (the polynomials of ``_eos``), by numpy's polynomial derivative."""
+    from numpy.polynomial import Polynomial
+
+    from . import _eos
+
+    w = np.asarray(omega, dtype=float)
+    if family.name == "srk":
+        return Polynomial(_eos._SRK).deriv()(w)
+    early = Polynomial(_eos._PR1976).deriv()(w)
+    late = Polynomial(_eos._PR1978).deriv()(w)
+    return np.where(w > _eos._PR1978_FROM_OMEGA, late, early)
+
+
+def constant_derivatives(mixture, parameter: ModelParameter, T: float) -> tuple[np.ndarray, np.ndarray]:
+    """(da_ij/dq at T, array (N, N); db_i/dq, array (N,)): exact, by the chain rule of the module docstring.
+
+    A feed fraction changes neither (both zero); see :func:`feed_derivative`.
+    """
+    n = mixture.size
+    dA, db = np.zeros((n, n)), np.zeros(n)
+    if parameter.kind == "z":
+        return dA, db
+    s, ds_dTc, ds_domega = _root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
+    root_ac = np.sqrt(mixture.a_critical)
+    root = root_ac * s  # sqrt(a_i(T))
+    i = parameter.indices[0]
+    if parameter.kind == "kij":
+        j = parameter.indices[1]
+        dA[i, j] = dA[j, i] = -root[i] * root[j]
+        return dA, db
+    droot = np.zeros(n)
+    if parameter.kind == "Tc":
+        droot[i] = root_ac[i] / mixture.Tc[i] * s[i] + root_ac[i] * ds_dTc[i]
+        db[i] = mixture.b[i] / mixture.Tc[i]
+    elif parameter.kind == "Pc":
+        droot[i] = -0.5 * root[i] / mixture.Pc[i]
+        db[i] = -mixture.b[i] / mixture.Pc[i]
+    else:  # omega
+        droot[i] = root_ac[i] * ds_domega[i]
+    one_minus_k = 1.0 - mixture.kij
+    dA = one_minus_k * (np.outer(droot, root) + np.outer(root, droot))
+    return dA, db
+
