@@ -156,6 +156,7 @@ def register(thermo_subparsers) -> None:
     """Add ``envelope``, ``pxy`` and ``txy`` to the ``contin thermo`` subcommands."""
     from ..models._caution import CAUTION
     from ._cli_common import add_output_options
+    from ._cli_sensitivity import add_sensitivity_options
 
     envelope = thermo_subparsers.add_parser(
         "envelope", help="phase envelope of a mixture", epilog=_EXAMPLES["envelope"],
@@ -169,6 +170,7 @@ def register(thermo_subparsers) -> None:
                                "such as '1 bar' or '100 kPa' allowed)")
     envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
+    add_sensitivity_options(envelope)
     envelope.set_defaults(handler=run_envelope)
     for name, option, unit, example in (("pxy", "--temperature", "K", "'30 degC' or '86 degF'"),
                                         ("txy", "--pressure", "PA", "'5 bar' or '2 MPa'")):
@@ -200,6 +202,7 @@ def _mixture_input(args, mixture, z=None) -> dict:
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
     from ._cli_common import check_destinations, emit, with_progress
+    from ._cli_sensitivity import sensitivity_plan
     from ..curves._envelope import trace_envelope
     from ..models._units import parse_pressure
 
@@ -215,6 +218,7 @@ def run_envelope(args) -> int:
         for q in parts:
             quality.append(parse_number(q, "--quality"))
     from_pressure = parse_pressure(args.from_pressure, "--from-pressure")
+    plan = sensitivity_plan(args, mixture, z)
     n = mixture.size
     envelope = with_progress(
         args, "envelope", lambda x: f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa",
@@ -222,7 +226,11 @@ def run_envelope(args) -> int:
     from ..curves._envelope import _MAX_STEP, _STEP, _TOLERANCE
     from ..reports._plot_envelope import plot_envelope
 
-    return emit(args, envelope, "\n".join(envelope.summary(args.units)), plot_envelope,
+    summary = envelope.summary(args.units)
+    if plan is not None:
+        envelope, lines = plan.apply(envelope)
+        summary = summary[:-1] + lines + summary[-1:]
+    return emit(args, envelope, "\n".join(summary), plot_envelope,
                 {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
                 {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP})
 

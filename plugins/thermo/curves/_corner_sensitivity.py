@@ -33,11 +33,11 @@ import numpy as np
 
 from contin import InputError
 
-from ..models._parameters import ModelParameter, feed_derivative, perturbed
-from ._envelope import Envelope, EnvelopeSystem
+from ..models._parameters import ModelParameter, constant_derivatives, feed_derivative, parameter_value, perturbed
+from ._envelope import Envelope, EnvelopeSystem, trace_envelope
 
-__all__ = ["EnvelopeSensitivities", "envelope_sensitivities", "fold_sensitivities", "row_sensitivities",
-           "critical_sensitivities"]
+__all__ = ["EnvelopeSensitivities", "annotate", "envelope_sensitivities", "fold_sensitivities", "monte_carlo",
+           "row_sensitivities", "critical_sensitivities"]
 
 # Step e of the central difference along a fold's unit null vector (coordinates are logarithms).
 _ALONG = 1e-5
@@ -52,22 +52,30 @@ def _derivatives(system: EnvelopeSystem, x: np.ndarray, parameters: Sequence[Mod
     return np.column_stack([J, dp]), F_q
 
 
-def row_sensitivities(system: EnvelopeSystem, points: np.ndarray, parameters: Sequence[ModelParameter],
-                      skip: Sequence[int] = ()) -> np.ndarray:
-    """dP/dq (Pa per unit of q) at fixed T at each point (rows of ``points``); NaN at the rows ``skip``."""
+def row_sensitivities(system: EnvelopeSystem, points: np.ndarray, tangents: np.ndarray,
+                      parameters: Sequence[ModelParameter], skip: Sequence[int] = ()) -> tuple[np.ndarray, np.ndarray]:
+    """How each row moves: (dP/dq at fixed T, array (rows, Q); (dT/dq, dP/dq) across the curve, (rows, 2, Q)).
+
+    The move across the curve solves [F_x; t^T] dx/dq = [-F_q; 0] with t the branch's unit tangent (no
+    component along the curve, well posed at folds too); at fixed T, d ln P/dq = dx_lnP - (t_lnP / t_lnT)
+    dx_lnT, which grows without bound at the cricondentherm, where the curve is vertical. NaN at ``skip``.
+    """
     n = system.n
-    out = np.full((len(points), len(parameters)), np.nan)
-    for i, x in enumerate(points):
+    at_T = np.full((len(points), len(parameters)), np.nan)
+    across = np.full((len(points), 2, len(parameters)), np.nan)
+    for i, (x, t) in enumerate(zip(points, tangents)):
         if i in skip:
             continue
         F_x, F_q = _derivatives(system, x, parameters)
         with np.errstate(all="ignore"):
             try:
-                dx = np.linalg.solve(np.delete(F_x, n, axis=1), -F_q)
+                dx = np.linalg.solve(np.vstack([F_x, t]), np.vstack([-F_q, np.zeros(len(parameters))]))
             except np.linalg.LinAlgError:
                 continue
-        out[i] = math.exp(x[-1]) * dx[-1]
-    return out
+            T, P = math.exp(x[n]), math.exp(x[-1])
+            across[i] = [T * dx[n], P * dx[-1]]
+            at_T[i] = P * (dx[-1] - t[-1] / t[n] * dx[n])
+    return at_T, across
 
 
 def fold_sensitivities(system: EnvelopeSystem, x: np.ndarray, coordinate: int,
@@ -86,15 +94,9 @@ def fold_sensitivities(system: EnvelopeSystem, x: np.ndarray, coordinate: int,
 
 
 def _step(mixture, z, parameter: ModelParameter) -> float:
-    value = _value(mixture, z, parameter)
+    value = parameter_value(mixture, z, parameter)
     scale = abs(value) if parameter.kind in ("Tc", "Pc") else max(abs(value), 1.0)
     return _CRITICAL_STEP * scale * (0.01 if parameter.kind == "z" else 1.0)
-
-
-def _value(mixture, z, parameter):
-    from ..models._parameters import parameter_value
-
-    return parameter_value(mixture, z, parameter)
 
 
 def critical_sensitivities(mixture, z: np.ndarray, T: float, v: float,
@@ -113,15 +115,13 @@ def critical_sensitivities(mixture, z: np.ndarray, T: float, v: float,
     A, slope = mixture.attraction_roots(T)
     dT, dP = np.empty(len(parameters)), np.empty(len(parameters))
     for k, parameter in enumerate(parameters):
-        value, step = _value(mixture, z, parameter), _step(mixture, z, parameter)
+        value, step = parameter_value(mixture, z, parameter), _step(mixture, z, parameter)
         ahead, behind = perturbed(mixture, z, parameter, value + step), perturbed(mixture, z, parameter, value - step)
         g_q = (conditions(*ahead, lnT, lnv) - conditions(*behind, lnT, lnv)) / (2 * step)
         dlnT, dlnv = np.linalg.solve(G, -g_q)
         if parameter.kind == "z":
             P_q = float(state.P_n @ feed_derivative(z, parameter))
         else:
-            from ..models._parameters import constant_derivatives
-
             dA, db = constant_derivatives(mixture, parameter, T)
             P_q = mixture.constant_state(T, v, z, A, dA, db)[1]
         dT[k] = T * dlnT
@@ -138,20 +138,62 @@ class EnvelopeSensitivities:
         rows: dP/dq at fixed T at every row, array (rows, Q), Pa per unit of q.
         corners: kind (``critical``, ``cricondenbar``, ``cricondentherm``) -> (dT/dq (Q,), dP/dq (Q,)),
             for the corners the envelope found.
+        across: (dT/dq, dP/dq) of every row moved across the curve, array (rows, 2, Q).
+        along: the direction of the curve at every row in (T, P), array (rows, 2).
     """
 
     parameters: tuple[ModelParameter, ...]
     rows: np.ndarray
     corners: Mapping[str, tuple[np.ndarray, np.ndarray]]
+    across: np.ndarray
+    along: np.ndarray
 
     def labels(self) -> list[str]:
         """The parameters' labels as given."""
         return [p.label for p in self.parameters]
 
-    def corner(self, kind: str) -> dict[str, dict[str, float]]:
-        """label -> {"T": dT/dq, "P": dP/dq} at the corner ``kind``."""
+    def corner(self, kind: str, only: Sequence[str] | None = None) -> dict[str, dict[str, float]]:
+        """label -> {"T": dT/dq, "P": dP/dq} at the corner ``kind`` (for the labels ``only``, if given)."""
         dT, dP = self.corners[kind]
-        return {p.label: {"T": float(t), "P": float(q)} for p, t, q in zip(self.parameters, dT, dP)}
+        return {p.label: {"T": float(t), "P": float(q)} for p, t, q in zip(self.parameters, dT, dP)
+                if only is None or p.label in only}
+
+    def propagate(self, uncertainties: Sequence[tuple[ModelParameter, float]]):
+        """Linear propagation of independent standard uncertainties (GUM, JCGM 100:2008, section 5.1).
+
+        u(y)^2 = sum_k (dy/dq_k)^2 u(q_k)^2 for each corner's T and P and each row's P at fixed T.
+
+        Args:
+            uncertainties: (parameter, standard uncertainty) pairs; every parameter must be one of
+                :attr:`parameters` (matched by kind and component).
+
+        Returns:
+            (kind -> {"T": u(T), "P": u(P)}, u(P) at every row as an array).
+        """
+        where = {(p.kind, p.indices): k for k, p in enumerate(self.parameters)}
+        columns = [where[(p.kind, p.indices)] for p, _ in uncertainties]
+        sigma = np.array([s for _, s in uncertainties])
+        corners = {kind: {"T": float(np.linalg.norm(dT[columns] * sigma)), "P": float(np.linalg.norm(dP[columns] * sigma))}
+                   for kind, (dT, dP) in self.corners.items()}
+        return corners, np.linalg.norm(self.rows[:, columns] * sigma, axis=1)
+
+    def band(self, uncertainties: Sequence[tuple[ModelParameter, float]], T: np.ndarray, P: np.ndarray):
+        """The curve (T, P) moved +-1 standard uncertainty across itself: (T_upper, P_upper, T_lower, P_lower).
+
+        Across means along the normal in axes scaled by the ranges of T and P (as a plot shows them);
+        the linear propagation of :meth:`propagate` applies to the normal component of each row's move.
+        """
+        where = {(p.kind, p.indices): k for k, p in enumerate(self.parameters)}
+        columns = [where[(p.kind, p.indices)] for p, _ in uncertainties]
+        sigma = np.array([s for _, s in uncertainties])
+        scale = np.array([np.ptp(T) or 1.0, np.ptp(P) or 1.0])
+        tangent = self.along / scale
+        tangent /= np.linalg.norm(tangent, axis=1, keepdims=True)
+        normal = np.column_stack([-tangent[:, 1], tangent[:, 0]])
+        moves = self.across[:, :, columns] / scale[None, :, None]
+        spread = np.linalg.norm(np.einsum("rk,rkq->rq", normal, moves) * sigma, axis=1)
+        shift = spread[:, None] * normal * scale
+        return T + shift[:, 0], P + shift[:, 1], T - shift[:, 0], P - shift[:, 1]
 
 
 def envelope_sensitivities(envelope: Envelope, parameters: Sequence[ModelParameter]) -> EnvelopeSensitivities:
@@ -175,7 +217,7 @@ def envelope_sensitivities(envelope: Envelope, parameters: Sequence[ModelParamet
     points = branch.points
     critical = envelope.special("critical")
     skip = () if critical is None else (critical["index"],)
-    rows = row_sensitivities(system, points, parameters, skip)
+    rows, across = row_sensitivities(system, points, branch.tangents, parameters, skip)
     corners = {}
     for kind, coordinate in (("cricondenbar", n + 3), ("cricondentherm", n)):
         sp = envelope.special(kind)
@@ -194,23 +236,73 @@ def envelope_sensitivities(envelope: Envelope, parameters: Sequence[ModelParamet
             T_side, P_side = np.exp(points[[k - 1, k + 1], n]), np.exp(points[[k - 1, k + 1], -1])
             s = (P_side[1] - P_side[0]) / (T_side[1] - T_side[0])
             rows[k] = dP - s * dT
-    return EnvelopeSensitivities(tuple(parameters), rows, corners)
+            across[k] = [dT, dP]
+    T, P = np.exp(points[:, n]), np.exp(points[:, -1])
+    along = np.column_stack([T * branch.tangents[:, n], P * branch.tangents[:, -1]])
+    if critical is not None and 0 < critical["index"] < len(points) - 1:
+        k = critical["index"]
+        along[k] = [T[k + 1] - T[k - 1], P[k + 1] - P[k - 1]]  # the chord: the crossing has no tangent
+    return EnvelopeSensitivities(tuple(parameters), rows, corners, across, along)
 
 
-def annotate(envelope: Envelope, sensitivities: EnvelopeSensitivities, standard: dict | None = None,
-             row_standard: np.ndarray | None = None) -> Envelope:
-    """A copy of ``envelope`` whose corners carry ``info.sensitivities`` (and ``info.standard_uncertainty``
-    from ``standard``: kind -> {"T", "P"}), with a ``P_std`` column when ``row_standard`` is given."""
+def monte_carlo(envelope: Envelope, uncertainties: Sequence[tuple[ModelParameter, float]], samples: int,
+                seed: int) -> dict:
+    """Corners' standard deviations over ``samples`` envelopes with normally distributed constants.
+
+    Each sample draws every constant independently, q_k + u(q_k) N(0, 1) (numpy's default generator
+    seeded with ``seed``), and re-traces the envelope (without the stability check). Samples whose
+    model is not valid, or whose envelope does not complete or lacks a corner, are counted as failed.
+
+    Returns:
+        kind -> {"T": std, "P": std, "samples": the number used, "failed": the number that failed}.
+    """
+    random = np.random.default_rng(seed)
+    found = {kind: [] for kind in ("critical", "cricondenbar", "cricondentherm") if envelope.special(kind)}
+    failed = 0
+    from_pressure = float(envelope.rows[0][1])
+    for _ in range(samples):
+        mixture, z = envelope.mixture, envelope.z
+        draws = random.standard_normal(len(uncertainties))
+        try:
+            for (parameter, sigma), draw in zip(uncertainties, draws):
+                mixture, z = perturbed(mixture, z, parameter, parameter_value(mixture, z, parameter) + sigma * draw)
+            sample = trace_envelope(mixture, z, from_pressure=from_pressure, check_stability=False)
+        except InputError:
+            failed += 1
+            continue
+        if not sample.success or any(sample.special(kind) is None for kind in found):
+            failed += 1
+            continue
+        for kind, values in found.items():
+            values.append((sample.special(kind)["values"]["T"], sample.special(kind)["values"]["P"]))
+    out = {}
+    for kind, values in found.items():
+        values = np.array(values).reshape(-1, 2)
+        spread = np.std(values, axis=0, ddof=1) if len(values) > 1 else np.full(2, np.nan)
+        out[kind] = {"T": float(spread[0]), "P": float(spread[1]), "samples": len(values), "failed": failed}
+    return out
+
+
+def annotate(envelope: Envelope, sensitivities: EnvelopeSensitivities, shown: Sequence[str] | None = None,
+             standard: dict | None = None, row_standard: np.ndarray | None = None,
+             sampled: dict | None = None, band: tuple = ()) -> Envelope:
+    """A copy of ``envelope`` whose corners carry ``info.sensitivities`` (the labels ``shown``, if any),
+    ``info.standard_uncertainty`` from ``standard`` (kind -> {"T", "P"}) and
+    ``info.monte_carlo_uncertainty`` from ``sampled``, with a ``P_std`` column when ``row_standard`` is given
+    and the ``band`` of :meth:`EnvelopeSensitivities.band` to draw."""
     specials = []
     for sp in envelope.special_points:
         sp = dict(sp, info=dict(sp["info"]))
-        if sp["kind"] in sensitivities.corners:
-            sp["info"]["sensitivities"] = sensitivities.corner(sp["kind"])
-            if standard is not None:
-                sp["info"]["standard_uncertainty"] = standard[sp["kind"]]
+        kind = sp["kind"]
+        if kind in sensitivities.corners:
+            if shown is None or shown:
+                sp["info"]["sensitivities"] = sensitivities.corner(kind, shown)
+            for key, values in (("standard_uncertainty", standard), ("monte_carlo_uncertainty", sampled)):
+                if values is not None and kind in values:
+                    sp["info"][key] = values[kind]
         specials.append(sp)
     columns, rows = envelope.columns, envelope.rows
     if row_standard is not None:
         columns = (*columns, "P_std")
         rows = [[*row, float(s)] for row, s in zip(rows, row_standard)]
-    return replace(envelope, special_points=specials, columns=columns, rows=rows)
+    return replace(envelope, special_points=specials, columns=columns, rows=rows, band=tuple(band))

@@ -41,7 +41,8 @@ from ..models._mixture import Mixture
 __all__ = ["EnvelopeSystem", "Envelope", "QualityLine", "trace_envelope", "dew_point", "ENVELOPE_UNITS"]
 
 #: Units of the envelope columns (files and JSON are in SI units).
-ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": ""}
+ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": "",
+                  "P_std": "Pa"}
 
 # Tolerance on the residual (relative pressure, ln fugacity): far below any use of the numbers.
 _TOLERANCE = 1e-10
@@ -391,6 +392,8 @@ class Envelope:
         residual_norms: largest residual at each row.
         quality_lines: lines of constant vapour fraction, if asked for.
         branch: the engine's :class:`contin.Branch`.
+        band: the curve moved +-1 standard uncertainty across itself, (T_upper, P_upper, T_lower,
+            P_lower), when uncertainties were propagated (see ``_corner_sensitivity``); else empty.
     """
 
     mixture: Mixture
@@ -406,6 +409,7 @@ class Envelope:
     quality_lines: tuple = ()
     branch: object = None
     notes: tuple = ()
+    band: tuple = ()
 
     def column(self, name: str) -> np.ndarray:
         """One column as an array (``side`` as strings)."""

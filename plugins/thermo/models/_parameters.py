@@ -30,7 +30,7 @@ from ._components import lookup
 from ._kij import split_pair
 
 __all__ = ["KINDS", "ModelParameter", "parse_parameter", "parse_parameters", "constant_derivatives",
-           "feed_derivative", "parameter_value", "perturbed"]
+           "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed"]
 
 #: The kinds of model constant, with what each is in plain words.
 KINDS = {"kij": "interaction parameter of a pair", "Tc": "critical temperature (K)",
@@ -196,3 +196,70 @@ def constant_derivatives(mixture, parameter: ModelParameter, T: float) -> tuple[
     dA = one_minus_k * (np.outer(droot, root) + np.outer(root, droot))
     return dA, db
 
+
+
+def parse_uncertainties(text: str, mixture, z: np.ndarray, extra=(), *,
+                        argument: str = "--uncertainty") -> tuple[tuple[ModelParameter, float], ...]:
+    """Standard uncertainties of constants from ``"Tc=0.5%,Pc=1%,omega=3%,kij:methane-n-heptane=0.01"``.
+
+    A value with ``%`` is relative to the constant's value, one without is absolute (K, Pa or
+    dimensionless). A bare ``Tc``, ``Pc``, ``omega`` or ``kij`` applies to every component (every pair);
+    an entry naming one component or pair overrides it there. Constants with a zero uncertainty are
+    dropped.
+
+    Returns:
+        ((parameter, standard uncertainty in the constant's unit), ...), in the mixture's order.
+
+    Raises:
+        InputError: an entry without ``=``, a constant the model lacks, a negative or non-finite
+            uncertainty, a relative uncertainty of a kij that is zero, a constant given twice.
+    """
+    from ._units import parse_number
+
+    names = list(mixture.names)
+    entries = [part.strip() for part in str(text or "").split(",") if part.strip()]
+    if not entries:
+        raise InputError(f"{argument} is empty; give e.g. 'Tc=0.5%,kij:methane-ethane=0.01'")
+    bare, named = {}, {}
+    for entry in entries:
+        key, equals, value = entry.rpartition("=")
+        key = key.strip()
+        if not equals or not key:
+            raise InputError(f"{argument} entry {entry!r} must be CONSTANT=VALUE, e.g. 'Tc=0.5%' or 'Pc:methane=5e4'")
+        relative = value.strip().endswith("%")
+        number = parse_number(value.strip().removesuffix("%"), f"{argument} entry {entry!r}")
+        if not number >= 0.0:
+            raise InputError(f"{argument} entry {entry!r}: an uncertainty cannot be negative")
+        if ":" not in key:
+            if key not in KINDS or key == "z":
+                raise InputError(f"{argument} entry {entry!r}: the model has no constant {key!r} for every "
+                                 f"component; use Tc, Pc, omega or kij, or name one: 'z:NAME'{suggest(key, KINDS)}")
+            if key in bare:
+                raise InputError(f"{argument} gives {key!r} twice; give each constant once")
+            bare[key] = (number, relative, entry)
+            continue
+        parameter = parse_parameter(key, names, extra, argument=argument)
+        slot = (parameter.kind, parameter.indices)
+        if slot in named:
+            raise InputError(f"{argument} gives one constant twice ({named[slot][3].label!r} and {key!r})")
+        named[slot] = (number, relative, entry, parameter)
+    chosen = []
+    for kind in ("kij", "Tc", "Pc", "omega", "z"):
+        slots = ([(i, j) for i in range(len(names)) for j in range(i + 1, len(names))] if kind == "kij"
+                 else [(i,) for i in range(len(names))])
+        for indices in slots:
+            given = named.get((kind, indices)) or bare.get(kind)
+            if given is None:
+                continue
+            label = given[3].label if len(given) == 4 else (
+                f"{kind}:{names[indices[0]]}-{names[indices[1]]}" if kind == "kij" else f"{kind}:{names[indices[0]]}")
+            parameter = ModelParameter(kind, indices, label)
+            number, relative = given[0], given[1]
+            value = parameter_value(mixture, z, parameter)
+            if relative and value == 0.0 and number > 0.0 and len(given) == 4:
+                raise InputError(f"{argument} entry {given[2]!r}: {label} is 0, so a relative uncertainty of it is "
+                                 "zero; give an absolute one, e.g. 0.01")
+            sigma = number / 100.0 * abs(value) if relative else number
+            if sigma > 0.0:
+                chosen.append((parameter, sigma))
+    return tuple(chosen)

@@ -65,6 +65,8 @@ def draw_envelope(envelope, axes=None):
             continue
         xs, ys = smooth_curve(t_side, p_side)
         axes.plot(xs, ys, style, color="tab:blue", label=f"{name} curve")
+    if envelope.band:
+        _draw_band(axes, envelope.band)
     for line in envelope.quality_lines:
         axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
     for sp in envelope.special_points:
@@ -80,12 +82,22 @@ def draw_envelope(envelope, axes=None):
     axes.set_ylabel(axis_label("pressure P", "bar"))
     feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
     axes.set_title(f"Phase envelope ({envelope.mixture.family.label})", fontsize=11)
-    axes.legend(fontsize=8, loc="upper left")
+    # With a band the upper left is crowded (the critical point's label): the legend goes inside the envelope.
+    axes.legend(fontsize=8, **({"loc": "center", "bbox_to_anchor": (0.56, 0.55)} if envelope.band else {"loc": "upper left"}))
     axes.grid(alpha=0.3)
     caption = f"Feed: {feed}. " + CAUTION
     figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
     figure.subplots_adjust(bottom=0.2)
     return axes
+
+
+def _draw_band(axes, band) -> None:
+    """Shade the envelope's band of +-1 standard uncertainty (its two edges, ``Envelope.band``)."""
+    T_upper, P_upper, T_lower, P_lower = (np.asarray(edge, dtype=float) for edge in band)
+    T_upper, P_upper = smooth_curve(T_upper, P_upper)
+    T_lower, P_lower = smooth_curve(T_lower, P_lower)
+    axes.fill(np.concatenate([T_upper, T_lower[::-1]]), np.concatenate([P_upper, P_lower[::-1]]) / 1e5,
+              color="tab:blue", alpha=0.2, linewidth=0, label="+-1 standard uncertainty (linear)")
 
 
 def plot_binary(diagram, path):
