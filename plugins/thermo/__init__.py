@@ -50,6 +50,10 @@ _EXPORTS = {
     "envelope_sensitivities": ".curves._corner_sensitivity",
     "ModelParameter": ".models._parameters",
     "parse_parameters": ".models._parameters",
+    "parse_uncertainties": ".models._parameters",
+    "blend_parameter": ".models._parameters",
+    "CornerLoci": ".curves._corner_loci",
+    "corner_loci": ".curves._corner_loci",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -129,6 +129,9 @@ def register(subparsers) -> None:
     module = _mixture_module()
     if module is not None and hasattr(module, "register"):
         module.register(commands)
+        from ._cli_corners import register_corners
+
+        register_corners(commands)
     thermo.set_defaults(handler=lambda args: _no_subcommand(commands))
 
 

@@ -119,7 +119,7 @@ def critical_sensitivities(mixture, z: np.ndarray, T: float, v: float,
         ahead, behind = perturbed(mixture, z, parameter, value + step), perturbed(mixture, z, parameter, value - step)
         g_q = (conditions(*ahead, lnT, lnv) - conditions(*behind, lnT, lnv)) / (2 * step)
         dlnT, dlnv = np.linalg.solve(G, -g_q)
-        if parameter.kind == "z":
+        if parameter.moves_feed:
             P_q = float(state.P_n @ feed_derivative(z, parameter))
         else:
             dA, db = constant_derivatives(mixture, parameter, T)

@@ -171,7 +171,7 @@ class EnvelopeSystem(contin.CallableSystem):
         y = K * x
         A, slope = mixture.attraction_roots(T)
         d = np.zeros(n + 3)
-        if parameter.kind == "z":
+        if parameter.moves_feed:
             dx = feed_derivative(self.z, parameter) / denominator
             dy = K * dx
             _, _, _, _, Pnx, _, _, Fnnx = mixture.linear_state(T, Vx, x, A, slope)

@@ -29,7 +29,7 @@ from contin.base import suggest
 from ._components import lookup
 from ._kij import split_pair
 
-__all__ = ["KINDS", "ModelParameter", "parse_parameter", "parse_parameters", "constant_derivatives",
+__all__ = ["KINDS", "ModelParameter", "blend_parameter", "parse_parameter", "parse_parameters", "constant_derivatives",
            "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed"]
 
 #: The kinds of model constant, with what each is in plain words.
@@ -42,14 +42,29 @@ class ModelParameter:
     """One constant of a mixture model.
 
     Attributes:
-        kind: ``kij``, ``Tc``, ``Pc``, ``omega`` or ``z``.
+        kind: ``kij``, ``Tc``, ``Pc``, ``omega``, ``z`` or ``blend``.
         indices: position(s) in the mixture of the component (one) or the pair (two, for ``kij``).
         label: the text it was given as (``"kij:methane-n-heptane"``).
+        base, direction: for ``blend`` only, the feed z(lambda) = base + lambda direction (the first
+            feed and the second minus the first).
     """
 
     kind: str
     indices: tuple[int, ...]
     label: str
+    base: tuple = ()
+    direction: tuple = ()
+
+    @property
+    def moves_feed(self) -> bool:
+        """True for a feed fraction or a blend: the constant changes the amounts, not the model."""
+        return self.kind in ("z", "blend")
+
+
+def blend_parameter(z_first: np.ndarray, z_second: np.ndarray, label: str = "blend") -> ModelParameter:
+    """The blend z(lambda) = (1 - lambda) z_first + lambda z_second of two feeds of the same components."""
+    first, second = np.asarray(z_first, dtype=float), np.asarray(z_second, dtype=float)
+    return ModelParameter("blend", (), label, tuple(first), tuple(second - first))
 
 
 def parse_parameter(text: str, names: Sequence[str], extra=(), *, argument: str = "--sensitivities") -> ModelParameter:
@@ -101,11 +116,17 @@ def parameter_value(mixture, z: np.ndarray, parameter: ModelParameter) -> float:
         return float(mixture.kij[parameter.indices])
     if parameter.kind == "z":
         return float(z[parameter.indices[0]])
+    if parameter.kind == "blend":
+        direction = np.array(parameter.direction)
+        return float((np.asarray(z) - parameter.base) @ direction / (direction @ direction))
     return float(getattr(mixture, parameter.kind)[parameter.indices[0]])
 
 
 def feed_derivative(z: np.ndarray, parameter: ModelParameter) -> np.ndarray:
-    """dz/dq: the fraction named moves by dq, the others shrink in proportion (the sum stays 1)."""
+    """dz/dq: the fraction named moves by dq, the others shrink in proportion (the sum stays 1); for a
+    blend, the second feed minus the first."""
+    if parameter.kind == "blend":
+        return np.array(parameter.direction)
     k = parameter.indices[0]
     dz = -np.asarray(z, dtype=float) / (1.0 - z[k])
     dz[k] = 1.0
@@ -121,6 +142,11 @@ def perturbed(mixture, z: np.ndarray, parameter: ModelParameter, value: float):
     """
     from ._mixture import Mixture
 
+    if parameter.kind == "blend":
+        z = np.array(parameter.base) + value * np.array(parameter.direction)
+        if not np.all(z > 0):
+            raise InputError(f"blend = {value:g} gives a feed with a mole fraction of zero or below; keep it in [0, 1]")
+        return mixture, z
     i = parameter.indices[0]
     if parameter.kind == "z":
         if not 0.0 < value < 1.0:
@@ -129,6 +155,8 @@ def perturbed(mixture, z: np.ndarray, parameter: ModelParameter, value: float):
         z[i] = value
         return mixture, z
     if parameter.kind == "kij":
+        if not -1.0 < value < 1.0:
+            raise InputError(f"{parameter.label} = {value:g} lies outside (-1, 1), where a kij must be")
         kij = np.array(mixture.kij)
         j = parameter.indices[1]
         kij[i, j] = kij[j, i] = value
@@ -173,7 +201,7 @@ def constant_derivatives(mixture, parameter: ModelParameter, T: float) -> tuple[
     """
     n = mixture.size
     dA, db = np.zeros((n, n)), np.zeros(n)
-    if parameter.kind == "z":
+    if parameter.moves_feed:
         return dA, db
     s, ds_dTc, ds_domega = _root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
     root_ac = np.sqrt(mixture.a_critical)
