@@ -149,7 +149,8 @@ class CornerLoci:
         parameter: the constant; name: its column name (``kij``, ``Tc``, ... or ``blend``).
         span: (first, last) value of the constant.
         loci: corner -> (columns, rows, status, message, success, stats) of its traced curve.
-        envelopes: the envelopes traced at the first, middle and last value (for the picture).
+        envelopes: the envelopes traced at the first, middle and last value (only the first without
+            the picture).
     """
 
     parameter: ModelParameter
@@ -231,7 +232,7 @@ def _trace_locus(system, start, span, at, max_points):
 
 
 def corner_loci(mixture, z, parameter: ModelParameter, span: tuple[float, float], *, from_pressure: float = 1e5,
-                at: Sequence[float] = (), max_points: int = 200) -> CornerLoci:
+                at: Sequence[float] = (), max_points: int = 200, pictured: bool = True) -> CornerLoci:
     """Trace the critical point, cricondenbar and cricondentherm of the envelope as q runs over ``span``.
 
     Args:
@@ -241,6 +242,8 @@ def corner_loci(mixture, z, parameter: ModelParameter, span: tuple[float, float]
         from_pressure: the envelope's low pressure, for the envelopes traced at the first, middle
             and last value.
         at: values of q where each locus also reports an exact point (``Branch.at``).
+        pictured: also trace the envelopes at the middle and last value (for the picture); the one
+            at the first value is always traced (the loci start from its corners).
 
     Returns:
         A :class:`CornerLoci`; a corner the first envelope lacks gets an empty locus with a message.
@@ -252,8 +255,9 @@ def corner_loci(mixture, z, parameter: ModelParameter, span: tuple[float, float]
     if not (math.isfinite(first) and math.isfinite(last)) or first == last:
         raise InputError(f"the range of {parameter.label} must be two different finite values, e.g. 0:0.1")
     n = mixture.size
+    values = (first, 0.5 * (first + last), last) if pictured else (first,)
     envelopes = tuple(trace_envelope(*perturbed(mixture, z, parameter, q), from_pressure=from_pressure,
-                                     check_stability=False) for q in (first, 0.5 * (first + last), last))
+                                     check_stability=False) for q in values)
     start = envelopes[0]
     column = parameter.kind  # kij, Tc, Pc, omega, z or blend (kept in its own unit by --units)
     loci = {}

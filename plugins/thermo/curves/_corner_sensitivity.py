@@ -48,7 +48,7 @@ _CRITICAL_STEP = 1e-6
 def _derivatives(system: EnvelopeSystem, x: np.ndarray, parameters: Sequence[ModelParameter]):
     """(F_x (n+3, n+4), F_q (n+3, Q)) at x = (u, ln P)."""
     _, J, dp = system.evaluate(x[:-1], x[-1])
-    F_q = np.column_stack([system.constant_derivative(x[:-1], x[-1], p) for p in parameters])
+    F_q = system.constant_jacobian(x[:-1], x[-1], parameters)
     return np.column_stack([J, dp]), F_q
 
 
@@ -112,7 +112,7 @@ def critical_sensitivities(mixture, z: np.ndarray, T: float, v: float,
     G = np.column_stack([(conditions(mixture, z, lnT + h * e[0], lnv + h * e[1])
                           - conditions(mixture, z, lnT - h * e[0], lnv - h * e[1])) / (2 * h) for e in np.eye(2)])
     state = mixture.state(T, v, z)
-    A, slope = mixture.attraction_roots(T)
+    A, _ = mixture.attraction_roots(T)
     dT, dP = np.empty(len(parameters)), np.empty(len(parameters))
     for k, parameter in enumerate(parameters):
         value, step = parameter_value(mixture, z, parameter), _step(mixture, z, parameter)
@@ -123,7 +123,7 @@ def critical_sensitivities(mixture, z: np.ndarray, T: float, v: float,
             P_q = float(state.P_n @ feed_derivative(z, parameter))
         else:
             dA, db = constant_derivatives(mixture, parameter, T)
-            P_q = mixture.constant_state(T, v, z, A, dA, db)[1]
+            P_q = mixture.constant_state(mixture.constant_response(T, v, z, A), z, dA, db)[1]
         dT[k] = T * dlnT
         dP[k] = state.P_T * T * dlnT + state.P_V * v * dlnv + P_q
     return dT, dP

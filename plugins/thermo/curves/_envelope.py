@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 import time
+from operator import itemgetter
 from dataclasses import dataclass
 from collections.abc import Sequence
 
@@ -155,13 +156,18 @@ class EnvelopeSystem(contin.CallableSystem):
         return r, J, dp
 
     def constant_derivative(self, u: np.ndarray, lnP: float, parameter) -> np.ndarray:
-        """dF/dq at (u, ln P) for one model constant q (a :class:`~contin_thermo.models._parameters.ModelParameter`).
+        """dF/dq at (u, ln P) for one model constant q; see :meth:`constant_jacobian`."""
+        return self.constant_jacobian(u, lnP, (parameter,))[:, 0]
+
+    def constant_jacobian(self, u: np.ndarray, lnP: float, parameters) -> np.ndarray:
+        """dF/dq at (u, ln P) for model constants (:class:`~contin_thermo.models._parameters.ModelParameter`),
+        array (n + 3, Q).
 
         Exact: a kij, Tc, Pc or omega changes a_ij(T) and b_i (``constant_derivatives``), which enter
-        F_n and P through ``Mixture.constant_state``; a feed fraction changes the phases' amounts
-        (``feed_derivative``), which enter through the composition Hessians F_nn and dP/dn.
+        F_n and P through ``Mixture.constant_response``; a feed fraction or a blend changes the phases'
+        amounts (``feed_derivative``), which enter through the composition Hessians F_nn and dP/dn.
         """
-        from ..models._parameters import constant_derivatives, feed_derivative
+        from ..models._parameters import constant_derivatives, feed_derivative, root_alpha_derivatives
 
         n, mixture = self.n, self.mixture
         T, Vx, Vy, P = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2]), math.exp(lnP)
@@ -170,20 +176,26 @@ class EnvelopeSystem(contin.CallableSystem):
         x = self.z / denominator
         y = K * x
         A, slope = mixture.attraction_roots(T)
-        d = np.zeros(n + 3)
-        if parameter.moves_feed:
-            dx = feed_derivative(self.z, parameter) / denominator
-            dy = K * dx
-            _, _, _, _, Pnx, _, _, Fnnx = mixture.linear_state(T, Vx, x, A, slope)
-            _, _, _, _, Pny, _, _, Fnny = mixture.linear_state(T, Vy, y, A, slope)
-            d[:n] = Fnny @ dy - Fnnx @ dx
-            d[n], d[n + 1], d[n + 2] = Pnx @ dx / P, Pny @ dy / P, dy.sum() - dx.sum()
-            return d
-        dA, db = constant_derivatives(mixture, parameter, T)
-        dFx, dPx = mixture.constant_state(T, Vx, x, A, dA, db)
-        dFy, dPy = mixture.constant_state(T, Vy, y, A, dA, db)
-        d[:n] = dFy - dFx
-        d[n], d[n + 1] = dPx / P, dPy / P
+        d = np.zeros((n + 3, len(parameters)))
+        responses = feed_states = roots = None
+        for k, parameter in enumerate(parameters):
+            if parameter.moves_feed:
+                if feed_states is None:  # (dP/dn, F_nn) of each phase
+                    feed_states = [itemgetter(4, 7)(mixture.linear_state(T, V, w, A, slope)) for V, w in ((Vx, x), (Vy, y))]
+                (Pnx, Fnnx), (Pny, Fnny) = feed_states
+                dx = feed_derivative(self.z, parameter) / denominator
+                dy = K * dx
+                d[:n, k] = Fnny @ dy - Fnnx @ dx
+                d[n:, k] = Pnx @ dx / P, Pny @ dy / P, dy.sum() - dx.sum()
+                continue
+            if responses is None:
+                responses = [mixture.constant_response(T, V, w, A) for V, w in ((Vx, x), (Vy, y))]
+                roots = root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
+            dA, db = constant_derivatives(mixture, parameter, T, roots)
+            dFx, dPx = mixture.constant_state(responses[0], x, dA, db)
+            dFy, dPy = mixture.constant_state(responses[1], y, dA, db)
+            d[:n, k] = dFy - dFx
+            d[n, k], d[n + 1, k] = dPx / P, dPy / P
         return d
 
     # contin's System interface ------------------------------------------------------------------

@@ -26,11 +26,17 @@ import numpy as np
 from contin import InputError
 from contin.base import suggest
 
+from numpy.polynomial.polynomial import polyder, polyval
+
+from . import _eos
 from ._components import lookup
 from ._kij import split_pair
 
+# dm/domega of each m(omega) polynomial of _eos, in increasing powers.
+_SLOPES = {"srk": polyder(_eos._SRK), "pr1976": polyder(_eos._PR1976), "pr1978": polyder(_eos._PR1978)}
+
 __all__ = ["KINDS", "ModelParameter", "blend_parameter", "parse_parameter", "parse_parameters", "constant_derivatives",
-           "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed"]
+           "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed", "root_alpha_derivatives"]
 
 #: The kinds of model constant, with what each is in plain words.
 KINDS = {"kij": "interaction parameter of a pair", "Tc": "critical temperature (K)",
@@ -166,8 +172,8 @@ def perturbed(mixture, z: np.ndarray, parameter: ModelParameter, value: float):
     return Mixture(tuple(components), mixture.family, mixture.kij), z
 
 
-def _root_alpha_derivatives(family, T: float, Tc: np.ndarray, omega: np.ndarray):
-    """(s, ds/dTc, ds/domega) with s = sqrt(alpha(T)) per component."""
+def root_alpha_derivatives(family, T: float, Tc: np.ndarray, omega: np.ndarray):
+    """(s, ds/dTc, ds/domega) with s = sqrt(alpha(T)) per component: shared by every constant at one T."""
     if family.alpha_form == "constant":
         one = np.ones_like(Tc)
         return one, 0.0 * one, 0.0 * one
@@ -181,29 +187,24 @@ def _root_alpha_derivatives(family, T: float, Tc: np.ndarray, omega: np.ndarray)
 
 
 def _m_slope(family, omega: np.ndarray) -> np.ndarray:
-    """dm/domega of the family's m(omega) (the polynomials of ``_eos``), by numpy's polynomial derivative."""
-    from numpy.polynomial import Polynomial
-
-    from . import _eos
-
+    """dm/domega of the family's m(omega) (the polynomials of ``_eos``, differentiated once here)."""
     w = np.asarray(omega, dtype=float)
     if family.name == "srk":
-        return Polynomial(_eos._SRK).deriv()(w)
-    early = Polynomial(_eos._PR1976).deriv()(w)
-    late = Polynomial(_eos._PR1978).deriv()(w)
-    return np.where(w > _eos._PR1978_FROM_OMEGA, late, early)
+        return polyval(w, _SLOPES["srk"])
+    return np.where(w > _eos._PR1978_FROM_OMEGA, polyval(w, _SLOPES["pr1978"]), polyval(w, _SLOPES["pr1976"]))
 
 
-def constant_derivatives(mixture, parameter: ModelParameter, T: float) -> tuple[np.ndarray, np.ndarray]:
+def constant_derivatives(mixture, parameter: ModelParameter, T: float, roots=None) -> tuple[np.ndarray, np.ndarray]:
     """(da_ij/dq at T, array (N, N); db_i/dq, array (N,)): exact, by the chain rule of the module docstring.
 
-    A feed fraction changes neither (both zero); see :func:`feed_derivative`.
+    A feed fraction changes neither (both zero); see :func:`feed_derivative`. ``roots`` is
+    :func:`root_alpha_derivatives` at T, if already computed.
     """
     n = mixture.size
     dA, db = np.zeros((n, n)), np.zeros(n)
     if parameter.moves_feed:
         return dA, db
-    s, ds_dTc, ds_domega = _root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
+    s, ds_dTc, ds_domega = roots or root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
     root_ac = np.sqrt(mixture.a_critical)
     root = root_ac * s  # sqrt(a_i(T))
     i = parameter.indices[0]

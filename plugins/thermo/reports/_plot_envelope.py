@@ -119,7 +119,8 @@ def draw_corner_loci(loci, axes=None):
         figure, axes = plt.subplots(figsize=(7.5, 5.5))
     figure = axes.figure
     first, last = loci.span
-    for envelope, value, shade in zip(loci.envelopes, (first, 0.5 * (first + last), last), ("0.75", "0.55", "0.35")):
+    values = (first, 0.5 * (first + last), last) if len(loci.envelopes) == 3 else (first,)
+    for envelope, value, shade in zip(loci.envelopes, values, ("0.75", "0.55", "0.35")):
         xs, ys = smooth_curve(envelope.column("T"), envelope.column("P") / 1e5)
         axes.plot(xs, ys, "-", color=shade, linewidth=1.0, label=f"envelope at {loci.name} = {value:.4g}")
     for corner, colour in (("critical", "tab:red"), ("cricondenbar", "tab:blue"), ("cricondentherm", "tab:green")):
