@@ -10,10 +10,10 @@ from contin import InputError
 __all__ = ["register_corners", "parse_vary", "run_corners"]
 
 _EXAMPLES = ("examples:\n"
-             "  contin thermo corners --mixture 'methane=0.86,ethane=0.06,propane=0.04,n-octane=0.04' --eos pr "
-             "--vary 'kij:methane-n-octane=0:0.12' --plot corners.png\n"
-             "  contin thermo corners --mixture 'methane=0.9,ethane=0.06,n-heptane=0.04' --eos srk "
-             "--vary 'blend:methane=0.8,ethane=0.1,n-heptane=0.1=0:1' --json")
+             "  contin thermo corners --mixture 'methane=0.7,ethane=0.1,propane=0.1,n-butane=0.07,n-octane=0.03' "
+             "--eos pr --vary 'kij:methane-n-octane=0:0.12' --plot corners.png\n"
+             "  contin thermo corners --mixture 'methane=0.70,ethane=0.10,propane=0.08,n-butane=0.05,n-heptane=0.07' "
+             "--eos srk --vary 'blend:methane=0.80,ethane=0.08,propane=0.06,n-butane=0.04,n-heptane=0.02=0:1' --json")
 
 
 def register_corners(thermo_subparsers) -> None:

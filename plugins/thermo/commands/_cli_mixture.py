@@ -144,7 +144,9 @@ _EXAMPLES = {
                 "--eos pr --plot envelope.png\n"
                 "  contin thermo envelope --mixture 'methane=0.7,carbon dioxide=0.2,n-hexane=0.1' --kij "
                 "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units degC-bar --csv env.csv\n"
-                "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json",
+                "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json\n"
+                "  contin thermo envelope --mixture 'methane=0.7,ethane=0.1,propane=0.08,n-butane=0.05,n-heptane=0.07' "
+                "--eos pr --sensitivities 'kij:methane-n-heptane,Tc:methane' --uncertainty 'Tc=0.5%,omega=3%' --plot band.png",
     "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
            "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
     "txy": "examples:\n  contin thermo txy --mixture 'propane,n-butane' --pressure '5 bar' --eos pr --plot txy.png\n"
