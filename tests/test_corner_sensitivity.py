@@ -131,3 +131,56 @@ def test_every_row_has_a_finite_sensitivity_including_the_critical_one(traced):
 def test_bad_constants_are_refused_with_one_line(text, message):
     with pytest.raises(InputError, match=message):
         parse_parameters(text, NAMES)
+
+
+@pytest.mark.parametrize("eos", ["pr", "srk", "rk"])
+def test_saturation_pressure_sensitivities_match_central_differences_of_re_traced_curves(eos):
+    from dataclasses import replace
+
+    from contin_thermo.curves._corner_sensitivity import annotate_saturation
+    from contin_thermo.curves._pure import saturation_curve
+
+    propane = lookup("propane")
+    temperatures = [230.0, 300.0, 360.0]
+    curve = annotate_saturation(saturation_curve(propane, eos, at_temperatures=temperatures), ("Tc", "Pc", "omega"))
+    for k, constant in enumerate(("Tc", "Pc", "omega")):
+        value = getattr(propane, constant)
+        h = 1e-5 * value
+        ahead, behind = (saturation_curve(replace(propane, **{constant: value + s * h}), eos,
+                                          at_temperatures=temperatures).at[:, 1] for s in (1, -1))
+        difference = (ahead - behind) / (2 * h)
+        exact = curve.at[:, curve.columns.index(f"dP_d{constant}")]
+        # Central differences: O(h^2) ~ 1e-10 relative; the rows are solved to about 1e-12.
+        assert np.allclose(exact, difference, rtol=1e-7, atol=1e-9 * np.max(np.abs(ahead)) / h), constant
+
+
+def test_at_the_critical_row_the_saturation_pressure_moves_along_the_critical_isochore():
+    from dataclasses import replace
+
+    from contin_thermo.curves._corner_sensitivity import annotate_saturation
+    from contin_thermo.curves._pure import saturation_curve
+
+    propane = lookup("propane")
+    curve = annotate_saturation(saturation_curve(propane, "pr"), ("Tc", "Pc", "omega"))
+    critical = curve.special("critical")
+    row = curve.points[critical["index"]]
+    assert row[curve.columns.index("dP_dPc")] == 1.0 and row[curve.columns.index("dP_domega")] == 0.0
+    assert critical["info"]["sensitivities"] == {"Tc": {"T": 1.0, "P": 0.0}, "Pc": {"T": 0.0, "P": 1.0},
+                                                 "omega": {"T": 0.0, "P": 0.0}}
+    # One-sided (Tc can only grow for T = Tc to stay on the curve): error O(h), h = 1e-5 Tc.
+    h = 1e-5 * propane.Tc
+    raised = saturation_curve(replace(propane, Tc=propane.Tc + h), "pr", at_temperatures=[propane.Tc]).at[0, 1]
+    assert row[curve.columns.index("dP_dTc")] == pytest.approx((raised - propane.Pc) / h, rel=1e-4)
+
+
+def test_saturation_sensitivities_on_the_command_line_and_a_constant_a_fluid_lacks(capsys):
+    from contin.commands._cli import main
+
+    assert main(["thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--sensitivities", "omega,Tc", "--json"]) == 0
+    document = __import__("json").loads(capsys.readouterr().out)
+    assert document["columns"][-2:] == ["dP_domega", "dP_dTc"] and document["units"]["dP_dTc"] == "Pa/K"
+    critical = next(sp for sp in document["special_points"] if sp["kind"] == "critical")
+    assert list(critical["info"]["sensitivities"]) == ["omega", "Tc"]
+    assert main(["thermo", "saturation", "--fluid", "propane", "--eos", "pr", "--sensitivities", "Zc"]) == 2
+    err = capsys.readouterr().err
+    assert err == "contin: error: --sensitivities: a fluid has no constant 'Zc'; use Tc, Pc or omega; did you mean 'Pc'?\n"

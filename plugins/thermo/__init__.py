@@ -53,6 +53,7 @@ _EXPORTS = {
     "parse_uncertainties": ".models._parameters",
     "blend_parameter": ".models._parameters",
     "CornerLoci": ".curves._corner_loci",
+    "saturation_sensitivities": ".curves._corner_sensitivity",
     "corner_loci": ".curves._corner_loci",
 }
 

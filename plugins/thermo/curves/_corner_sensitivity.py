@@ -33,11 +33,13 @@ import numpy as np
 
 from contin import InputError
 
+from ..models._eos import GAS_CONSTANT
 from ..models._parameters import ModelParameter, constant_derivatives, feed_derivative, parameter_value, perturbed
 from ._envelope import Envelope, EnvelopeSystem, trace_envelope
 
-__all__ = ["EnvelopeSensitivities", "annotate", "envelope_sensitivities", "fold_sensitivities", "monte_carlo",
-           "row_sensitivities", "critical_sensitivities"]
+__all__ = ["EnvelopeSensitivities", "annotate", "annotate_saturation", "envelope_sensitivities", "fold_sensitivities",
+           "monte_carlo", "parse_fluid_constants", "row_sensitivities", "critical_sensitivities",
+           "saturation_sensitivities"]
 
 # Step e of the central difference along a fold's unit null vector (coordinates are logarithms).
 _ALONG = 1e-5
@@ -306,3 +308,106 @@ def annotate(envelope: Envelope, sensitivities: EnvelopeSensitivities, shown: Se
         columns = (*columns, "P_std")
         rows = [[*row, float(s)] for row, s in zip(rows, row_standard)]
     return replace(envelope, special_points=specials, columns=columns, rows=rows, band=tuple(band))
+
+
+#: The constants of one fluid that ``saturation_sensitivities`` knows.
+FLUID_CONSTANTS = ("Tc", "Pc", "omega")
+
+
+def saturation_sensitivities(curve, constants: Sequence[str]) -> tuple[np.ndarray, dict]:
+    """dP/dq at fixed T at every row of a pure saturation curve, and the critical point's dT/dq, dP/dq.
+
+    At a row (T, P, v_l, v_v) the two phases have equal molar Gibbs energies; at fixed T, changing q
+    moves P by (v_v - v_l) dP/dq = -(dA_v/dq - dA_l/dq) at fixed T and v (a Clapeyron-type relation:
+    dg/dP = v, and dg/dq at fixed T, P is dA/dq at fixed T, v at the stable volume). With A_res/RT =
+    F(1, T, v, b, a) of ``_helmholtz``, dA/dq = RT (F_D da/dq + F_B db/dq), exact through
+    a = Omega_a R^2 Tc^2 / Pc alpha(T/Tc, omega) and b = Omega_b R Tc / Pc. At the critical row the
+    phases merge and the relation is 0/0: there P_sat(Tc) = Pc whatever omega (alpha(1) = 1), so
+    dP/domega = 0, dP/dPc = 1, and dP/dTc = -(dP/dT)_sat, whose value at the critical point is the
+    slope of the critical isochore, (dP/dT)_v at (Tc, v_c) (common practice for analytic equations of
+    state). The critical point of a cubic is (Tc, Pc) by construction: dTc/dTc = dPc/dPc = 1, the rest 0.
+
+    Args:
+        curve: a saturation :class:`~contin_thermo.curves._pure.CurveResult`.
+        constants: any of ``Tc``, ``Pc``, ``omega``.
+
+    Returns:
+        (array (rows, Q) of dP/dq in Pa per unit of q; constant -> {"T": dT/dq, "P": dP/dq} at the
+        critical point).
+    """
+    critical = next((sp["index"] for sp in curve.special_points if sp["kind"] == "critical"), None)
+    out = _at_fixed_temperature(curve, curve.points, constants, critical)
+    point = {k: {"T": 1.0 if k == "Tc" else 0.0, "P": 1.0 if k == "Pc" else 0.0} for k in constants}
+    return out, point
+
+
+def _at_fixed_temperature(curve, rows: np.ndarray, constants: Sequence[str], critical: int | None) -> np.ndarray:
+    """dP/dq at fixed T for saturation rows (columns of ``curve``); row ``critical`` is the critical point."""
+    from ..models._helmholtz import derivatives
+    from ..models._parameters import root_alpha_derivatives
+
+    component, family = curve.component, curve.family
+    Tc, Pc, omega = (np.array([getattr(component, k)]) for k in FLUID_CONSTANTS)
+    a_c, b = (float(v[0]) for v in family.a_b(Tc, Pc))
+    helmholtz = derivatives(family.delta1, family.delta2, order=2)
+    T, v_l, v_v = (rows[:, curve.columns.index(name)] for name in ("T", "v_liquid", "v_vapour"))
+    out = np.empty((len(T), len(constants)))
+    for i, t in enumerate(T):
+        s, ds_dTc, ds_domega = (float(v[0]) for v in root_alpha_derivatives(family, float(t), Tc, omega))
+        a = a_c * s * s
+        changes = {"Tc": (2.0 * a / Tc[0] + 2.0 * a_c * s * ds_dTc, b / Tc[0]),
+                   "Pc": (-a / Pc[0], -b / Pc[0]), "omega": (2.0 * a_c * s * ds_domega, 0.0)}
+        if i == critical:
+            slope = _isochore_slope(family, float(t), float(v_l[i]), a_c, b, Tc, omega)
+            at_critical = {"Tc": -slope, "Pc": 1.0, "omega": 0.0}
+            out[i] = [at_critical[k] for k in constants]
+            continue
+        terms = [helmholtz.evaluate_scalar(1.0, float(t), float(v), b, a) for v in (v_l[i], v_v[i])]
+        for k, constant in enumerate(constants):
+            da, db = changes[constant]
+            dA = [GAS_CONSTANT * t * (d["F_D"] * da + d["F_B"] * db) for d in terms]
+            out[i, k] = -(dA[1] - dA[0]) / (v_v[i] - v_l[i])
+    return out
+
+
+def _isochore_slope(family, T: float, v: float, a_c: float, b: float, Tc, omega) -> float:
+    """(dP/dT)_v = R / (v - b) - a'(T) / ((v + delta1 b)(v + delta2 b)) of the cubic."""
+    _, dalpha, _ = family.alpha(T, Tc, omega)
+    return GAS_CONSTANT / (v - b) - a_c * float(np.asarray(dalpha).reshape(-1)[0]) / (
+        (v + family.delta1 * b) * (v + family.delta2 * b))
+
+
+def annotate_saturation(curve, constants: Sequence[str]):
+    """A copy of the saturation ``curve`` with columns ``dP_d<constant>`` and the critical point's
+    ``info.sensitivities``; constants as given (``Tc``, ``Pc``, ``omega``)."""
+    rows, point = saturation_sensitivities(curve, constants)
+    at = _at_fixed_temperature(curve, curve.at, constants, None) if len(curve.at) else np.empty((0, len(constants)))
+    units = {"Tc": "Pa/K", "Pc": "Pa/Pa", "omega": "Pa"}
+    names = tuple(f"dP_d{k}" for k in constants)
+    specials = tuple(dict(sp, info={**sp.get("info", {}), "sensitivities": point}) if sp["kind"] == "critical"
+                     else sp for sp in curve.special_points)
+    return replace(curve, columns=(*curve.columns, *names), units={**curve.units, **{n: units[k] for n, k in
+                                                                                        zip(names, constants)}},
+                   points=np.column_stack([curve.points, rows]), special_points=specials,
+                   at=np.hstack([curve.at.reshape(len(curve.at), -1), at]) if len(curve.at) else
+                   np.empty((0, len(curve.columns) + len(names))))
+
+
+def parse_fluid_constants(text: str, argument: str = "--sensitivities") -> tuple[str, ...]:
+    """``"Tc,Pc,omega"`` -> the constants (each once).
+
+    Raises:
+        InputError: an empty list, a constant one fluid does not have (with a suggestion), a repeat.
+    """
+    from contin.base import suggest
+
+    constants = [part.strip() for part in str(text or "").split(",") if part.strip()]
+    if not constants:
+        raise InputError(f"{argument} is empty; give the fluid's constants, e.g. 'Tc,Pc,omega'")
+    for constant in constants:
+        if constant not in FLUID_CONSTANTS:
+            raise InputError(f"{argument}: a fluid has no constant {constant!r}; use Tc, Pc or omega"
+                             f"{suggest(constant, FLUID_CONSTANTS)}")
+        if constants.count(constant) > 1:
+            raise InputError(f"{argument} names {constant!r} twice; give each constant once")
+    return tuple(constants)
