@@ -111,3 +111,19 @@ def test_bad_vary_is_one_line_and_exit_2(vary, message, capsys):
     code, out, err = run(["corners", "--mixture", GAS, "--eos", "pr", "--vary", vary], capsys)
     assert code == 2 and out == ""
     assert message in err and err.count("\n") == 1
+
+
+def test_a_cricondenbar_that_runs_into_the_critical_point_stops_there_and_says_so():
+    # More n-heptane moves the critical point up the bubble side until it meets the cricondenbar (K = 1).
+    names = ["methane", "ethane", "propane", "n-butane", "n-heptane"]
+    mixture = Mixture(tuple(lookup(n) for n in names), family("pr"))
+    z = np.array([0.70, 0.10, 0.08, 0.05, 0.07])
+    loci = corner_loci(mixture, z, parse_parameter("z:n-heptane", names), (0.07, 0.12), pictured=False)
+    columns, rows, status, message, success, _ = loci.loci["cricondenbar"]
+    assert status == "meets_critical" and not success
+    assert "where the cricondenbar meets the critical point (K = 1)" in message
+    critical = loci.curve("critical")
+    # Where it stops (|ln K| < 0.02, not at K = 1 itself), the critical locus passes nearly through the same state.
+    stop = rows[-1]
+    assert stop[1] == pytest.approx(np.interp(stop[0], critical[:, 0], critical[:, 1]), rel=2e-3)
+    assert stop[2] == pytest.approx(np.interp(stop[0], critical[:, 0], critical[:, 2]), rel=2e-3)

@@ -41,6 +41,8 @@ _WORDS = {"critical": "critical point", "cricondenbar": "cricondenbar", "cricond
 # Step along the fold's null vector of the central difference in g_z (coordinates are logarithms).
 _ALONG = 1e-5
 _TOLERANCE = 1e-10
+# A fold locus that stops with every |ln K| below this has run into the critical point (K = 1).
+_MEETS_CRITICAL = 0.02
 
 
 class _Models:
@@ -311,6 +313,12 @@ def _rows(corner, system, branch, column, seconds):
         message = (f"stopped at {column} = {branch.points[-1, -1]:.8g}, where the model's critical pressure "
                    "reaches zero: the envelope's critical point leaves the physical range")
         return columns, rows, "zero_pressure", message, True, stats
+    n = len(branch.points[-1]) - 5
+    if (turn is None and not branch.success and corner != "critical"
+            and float(np.max(np.abs(branch.points[-1][:n]))) < _MEETS_CRITICAL):
+        message = (f"stopped at {column} = {branch.points[-1, -1]:.6g}, where the {corner} meets the critical point "
+                   "(K = 1): the envelope's equations are singular there, and the locus is not continued across it")
+        return columns, rows, "meets_critical", message, False, stats
     if turn is None:
         message = branch.message.replace(" q = ", f" {column} = ")
         if branch.status == contin.Status.BOUND_REACHED:
