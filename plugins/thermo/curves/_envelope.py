@@ -175,7 +175,7 @@ class EnvelopeSystem(contin.CallableSystem):
         denominator = 1.0 + self.beta * (K - 1.0)
         x = self.z / denominator
         y = K * x
-        A, slope = mixture.attraction_roots(T)
+        A, slope = self._attraction(T)
         d = np.zeros((n + 3, len(parameters)))
         responses = feed_states = roots = None
         for k, parameter in enumerate(parameters):
