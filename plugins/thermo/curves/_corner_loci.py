@@ -41,7 +41,8 @@ _WORDS = {"critical": "critical point", "cricondenbar": "cricondenbar", "cricond
 # Step along the fold's null vector of the central difference in g_z (coordinates are logarithms).
 _ALONG = 1e-5
 _TOLERANCE = 1e-10
-# A fold locus that stops with every |ln K| below this has run into the critical point (K = 1).
+# |ln K| of the key component at which a fold locus stops short of the critical point (K = 1), where
+# the envelope's equations are singular (they stay well conditioned down to about 0.005; see _envelope).
 _MEETS_CRITICAL = 0.02
 
 
@@ -83,6 +84,14 @@ class FoldSystem(contin.CallableSystem):
         M = self._matrix(np.asarray(x, dtype=float), float(q))[0]
         U, _, Vt = np.linalg.svd(M)
         self.left, self.right = U[:, -1], Vt[-1]
+        # The component whose ln K is largest in size at the start keeps its sign until K = 1 (the
+        # critical point), where the envelope's equations are singular: the locus stops before that.
+        self.key = int(np.argmax(np.abs(x[:n])))
+        self.sign = 1.0 if x[self.key] > 0 else -1.0
+
+    def distance_from_critical(self, u, p) -> float:
+        """|ln K| of the key component less _MEETS_CRITICAL: it falls through zero as the fold nears K = 1."""
+        return self.sign * float(u[self.key]) - _MEETS_CRITICAL
 
     def _full(self, x: np.ndarray, q: float):
         """(F, F_x, F_q) of the envelope system at (x, q)."""
@@ -225,8 +234,12 @@ def _trace_locus(system, start, span, at, max_points):
     """The engine's trace of one corner's defining system from ``span[0]`` towards ``span[1]``; it stops
     at the bound, at the first fold in q (see :func:`_rows`), or where a critical pressure reaches zero."""
     width = abs(span[1] - span[0])
-    events = [contin.Event("zero critical pressure", system.pressure, direction=-1, terminal=True,
-                           kind="zero_pressure")] if isinstance(system, CriticalSystem) else []
+    if isinstance(system, CriticalSystem):
+        events = [contin.Event("zero critical pressure", system.pressure, direction=-1, terminal=True,
+                               kind="zero_pressure")]
+    else:
+        events = [contin.Event("near the critical point", system.distance_from_critical, direction=-1, terminal=True,
+                               kind="meets_critical")]
     return contin.trace(system, start, free="q", parameters={"q": span[0]}, direction=1 if span[1] > span[0] else -1,
                         step=0.1 * width, max_step=0.25 * width, min_step=1e-9 * width, tolerance=_TOLERANCE,
                         max_points=max_points, bounds={"q": (min(span), max(span))}, at={"q": list(at)},
@@ -309,15 +322,14 @@ def _rows(corner, system, branch, column, seconds):
     stats = {k: v for k, v in branch.stats.items() if isinstance(v, (int, float))}
     stats.update(points=len(rows), trace_seconds=seconds,
                  at=[_row(corner, system, sp.point) for sp in branch.at if sp.index < end])
-    if turn is None and branch.status == contin.Status.TERMINAL_EVENT:
+    if turn is None and branch.status == contin.Status.TERMINAL_EVENT and corner == "critical":
         message = (f"stopped at {column} = {branch.points[-1, -1]:.8g}, where the model's critical pressure "
                    "reaches zero: the envelope's critical point leaves the physical range")
         return columns, rows, "zero_pressure", message, True, stats
-    n = len(branch.points[-1]) - 5
-    if (turn is None and not branch.success and corner != "critical"
-            and float(np.max(np.abs(branch.points[-1][:n]))) < _MEETS_CRITICAL):
-        message = (f"stopped at {column} = {branch.points[-1, -1]:.6g}, where the {corner} meets the critical point "
-                   "(K = 1): the envelope's equations are singular there, and the locus is not continued across it")
+    if turn is None and branch.status == contin.Status.TERMINAL_EVENT:
+        message = (f"stopped at {column} = {branch.points[-1, -1]:.6g}, where the {corner} comes within "
+                   f"|ln K| = {_MEETS_CRITICAL:g} of the critical point (K = 1): the envelope's equations are singular "
+                   "there, and the locus is not continued across it")
         return columns, rows, "meets_critical", message, False, stats
     if turn is None:
         message = branch.message.replace(" q = ", f" {column} = ")
