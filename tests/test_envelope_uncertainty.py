@@ -152,3 +152,58 @@ def test_bad_sensitivity_and_uncertainty_input_is_one_line_and_exit_2(extra, mes
 def test_uncertainty_errors_raise_input_error_from_python(lean):
     with pytest.raises(InputError, match="cannot be negative"):
         parse_uncertainties("omega:ethane=-0.1", lean[0], FEED)
+
+
+@pytest.mark.parametrize("r", [1.0, -1.0, 0.3])
+def test_correlated_uncertainties_combine_with_their_correlation(lean, r):
+    mixture, envelope = lean
+    uncertainties = parse_uncertainties("Tc:methane=2,omega:propane=0.01", mixture, FEED)
+    sensitivities = envelope_sensitivities(envelope, [p for p, _ in uncertainties])
+    correlation = np.array([[1.0, r], [r, 1.0]])
+    corners, rows = sensitivities.propagate(uncertainties, correlation)
+    dT, _ = sensitivities.corners["cricondenbar"]
+    a, b = 2 * dT[0], 0.01 * dT[1]
+    assert corners["cricondenbar"]["T"] == pytest.approx(math.sqrt(a * a + b * b + 2 * r * a * b), rel=1e-12)
+    independent, _ = sensitivities.propagate(uncertainties)
+    assert (corners["cricondenbar"]["T"] > independent["cricondenbar"]["T"]) == (r * a * b > 0)
+
+
+def _correlations(tmp_path, text):
+    path = tmp_path / "r.csv"
+    path.write_text(text)
+    return str(path)
+
+
+def test_a_correlation_file_changes_the_corners_uncertainty(capsys, tmp_path):
+    path = _correlations(tmp_path, "# invented correlations\nconstant,Tc:methane,Tc:n-heptane\n"
+                                   "Tc:methane,1,0.8\nTc:n-heptane,0.8,1\n")
+    base = ["envelope", "--mixture", CONDENSATE, "--eos", "pr", "--uncertainty", "Tc=1%", "--json"]
+    results = []
+    for extra in ([], ["--correlations", path]):
+        code, out, _ = run(base + extra, capsys)
+        assert code == 0
+        results.append({sp["kind"]: sp["info"]["standard_uncertainty"] for sp in json.loads(out)["special_points"]})
+    assert all(results[0][kind] != results[1][kind] for kind in results[0])
+
+
+@pytest.mark.parametrize("text, message", [
+    ("constant,Tc:methane,Tc:ethane\nTc:methane,1,0.5\nTc:ethane,0.4,1\n",
+     "not symmetric: Tc:methane with Tc:ethane is 0.5, Tc:ethane with Tc:methane is 0.4"),
+    ("constant,Tc:methane,Tc:ethane,Tc:propane\nTc:methane,1,0.9,0.9\nTc:ethane,0.9,1,-0.9\nTc:propane,0.9,-0.9,1\n",
+     "the correlations are not positive semidefinite (smallest eigenvalue -0.8): they cannot all hold at once"),
+    ("constant,Tc:methane,Tc:ethane\nTc:methane,0.9,0.5\nTc:ethane,0.5,1\n", "(the diagonal) must be 1"),
+    ("constant,Tc:methane,Pc:ethane\nTc:methane,1,0.5\nPc:ethane,0.5,1\n", "'Pc:ethane' has no uncertainty"),
+    ("constant,Tc:methane,Tc:ethane\nTc:methane,1,1.5\nTc:ethane,1.5,1\n", "correlation 1.5 lies outside [-1, 1]"),
+    ("constant,Tc:methane,Tc:ethane\nTc:ethane,1,0\nTc:methane,0,1\n", "line 2: expected the row of 'Tc:methane'"),
+])
+def test_bad_correlation_files_are_one_line_and_exit_2(text, message, capsys, tmp_path):
+    path = _correlations(tmp_path, text)
+    code, out, err = run(["envelope", "--mixture", CONDENSATE, "--eos", "pr", "--uncertainty", "Tc=1%",
+                          "--correlations", path], capsys)
+    assert code == 2 and out == ""
+    assert message in err and err.count("\n") == 1
+
+
+def test_correlations_need_uncertainties(capsys, tmp_path):
+    code, _, err = run(["envelope", "--mixture", CONDENSATE, "--eos", "pr", "--correlations", "r.csv"], capsys)
+    assert code == 2 and "--correlations correlates the constants' uncertainties: give them with --uncertainty" in err

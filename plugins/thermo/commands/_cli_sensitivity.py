@@ -1,4 +1,4 @@
-"""``--sensitivities``, ``--uncertainty`` and ``--monte-carlo`` of ``contin thermo envelope``.
+"""``--sensitivities``, ``--uncertainty``, ``--correlations`` and ``--monte-carlo`` of ``contin thermo envelope``.
 
 Read and checked before the trace (bad input costs nothing); applied to the traced envelope: corners'
 ``info.sensitivities`` and ``info.standard_uncertainty``, a ``P_std`` column, and lines for the summary.
@@ -16,7 +16,7 @@ _CORNERS = ("cricondentherm", "critical", "cricondenbar")
 
 
 def add_sensitivity_options(parser) -> None:
-    """Add the three options to an envelope parser."""
+    """Add the options to an envelope parser."""
     parser.add_argument("--sensitivities", default=None, metavar="LIST",
                         help="dT/dq and dP/dq of the corners for these constants, e.g. "
                              "'kij:methane-n-heptane,Tc:methane,omega:n-heptane,z:ethane'")
@@ -24,6 +24,9 @@ def add_sensitivity_options(parser) -> None:
                         help="standard uncertainties of constants, relative with %% or absolute, e.g. "
                              "'Tc=0.5%%,Pc=1%%,omega=3%%,kij:methane-n-heptane=0.01' (bare Tc: every component); "
                              "adds a P_std column and the corners' standard uncertainties")
+    parser.add_argument("--correlations", default=None, metavar="FILE",
+                        help="correlations of the uncertain constants: a CSV with a header 'constant,LABEL,...' and "
+                             "one row 'LABEL,r,...' per label (labels as in --uncertainty); others are independent")
     parser.add_argument("--monte-carlo", type=int, default=None, metavar="N",
                         help="also sample N envelopes with random constants, for comparison (needs --uncertainty)")
     parser.add_argument("--seed", type=int, default=12, help="seed of --monte-carlo (default 12)")
@@ -37,6 +40,7 @@ class SensitivityPlan:
     uncertainties: tuple
     samples: int | None
     seed: int
+    correlation: object = None
 
     def apply(self, envelope):
         """(the annotated envelope, lines for the summary)."""
@@ -51,10 +55,10 @@ class SensitivityPlan:
         standard = rows = sampled = None
         band = ()
         if self.uncertainties:
-            standard, rows = sensitivities.propagate(self.uncertainties)
-            band = sensitivities.band(self.uncertainties, envelope.column("T"), envelope.column("P"))
+            standard, rows = sensitivities.propagate(self.uncertainties, self.correlation)
+            band = sensitivities.band(self.uncertainties, envelope.column("T"), envelope.column("P"), self.correlation)
         if self.samples:
-            sampled = monte_carlo(envelope, self.uncertainties, self.samples, self.seed)
+            sampled = monte_carlo(envelope, self.uncertainties, self.samples, self.seed, self.correlation)
         annotated = annotate(envelope, sensitivities, labels, standard, rows, sampled, band)
         return annotated, _lines(sensitivities, labels, standard, sampled)
 
@@ -90,15 +94,16 @@ def sensitivity_plan(args, mixture, z) -> SensitivityPlan | None:
     """The plan from the parsed arguments, or None when none of the options was given.
 
     Raises:
-        InputError: bad constants or uncertainties (see ``models._parameters``), --monte-carlo without
-            --uncertainty or not a positive count.
+        InputError: bad constants, uncertainties or correlations (see ``models._parameters``),
+            --monte-carlo or --correlations without --uncertainty, a sample count out of range.
     """
-    from ..models._parameters import parse_parameters, parse_uncertainties
+    from ..models._parameters import parse_parameters, parse_uncertainties, read_correlations
 
     text, uncertainty, samples = args.sensitivities, args.uncertainty, args.monte_carlo
     if text is None and uncertainty is None:
-        if samples is not None:
-            raise InputError("--monte-carlo samples the constants' uncertainties: give them with --uncertainty")
+        if samples is not None or args.correlations is not None:
+            option = "--monte-carlo samples" if samples is not None else "--correlations correlates"
+            raise InputError(f"{option} the constants' uncertainties: give them with --uncertainty")
         return None
     extra = mixture.components
     shown = () if text is None else parse_parameters(text, mixture.names, extra)
@@ -107,4 +112,8 @@ def sensitivity_plan(args, mixture, z) -> SensitivityPlan | None:
         raise InputError("--monte-carlo samples the constants' uncertainties: give them with --uncertainty")
     if samples is not None and not 2 <= samples <= 100000:
         raise InputError(f"--monte-carlo {samples}: give a number of samples from 2 to 100000")
-    return SensitivityPlan(tuple(shown), tuple(uncertainties), samples, int(args.seed))
+    if args.correlations is not None and not uncertainty:
+        raise InputError("--correlations correlates the constants' uncertainties: give them with --uncertainty")
+    correlation = None if args.correlations is None else read_correlations(args.correlations, uncertainties,
+                                                                            mixture.names, extra)
+    return SensitivityPlan(tuple(shown), tuple(uncertainties), samples, int(args.seed), correlation)

@@ -160,14 +160,16 @@ class EnvelopeSensitivities:
         return {p.label: {"T": float(t), "P": float(q)} for p, t, q in zip(self.parameters, dT, dP)
                 if only is None or p.label in only}
 
-    def propagate(self, uncertainties: Sequence[tuple[ModelParameter, float]]):
-        """Linear propagation of independent standard uncertainties (GUM, JCGM 100:2008, section 5.1).
+    def propagate(self, uncertainties: Sequence[tuple[ModelParameter, float]], correlation: np.ndarray | None = None):
+        """Linear propagation of standard uncertainties (GUM, JCGM 100:2008, sections 5.1 and 5.2).
 
-        u(y)^2 = sum_k (dy/dq_k)^2 u(q_k)^2 for each corner's T and P and each row's P at fixed T.
+        u(y)^2 = sum_jk (dy/dq_j u(q_j)) r_jk (dy/dq_k u(q_k)) for each corner's T and P and each row's
+        P at fixed T, with r the correlation matrix (the identity when the constants are independent).
 
         Args:
             uncertainties: (parameter, standard uncertainty) pairs; every parameter must be one of
                 :attr:`parameters` (matched by kind and component).
+            correlation: their correlation matrix, or None.
 
         Returns:
             (kind -> {"T": u(T), "P": u(P)}, u(P) at every row as an array).
@@ -175,11 +177,17 @@ class EnvelopeSensitivities:
         where = {(p.kind, p.indices): k for k, p in enumerate(self.parameters)}
         columns = [where[(p.kind, p.indices)] for p, _ in uncertainties]
         sigma = np.array([s for _, s in uncertainties])
-        corners = {kind: {"T": float(np.linalg.norm(dT[columns] * sigma)), "P": float(np.linalg.norm(dP[columns] * sigma))}
-                   for kind, (dT, dP) in self.corners.items()}
-        return corners, np.linalg.norm(self.rows[:, columns] * sigma, axis=1)
+        r = np.eye(len(sigma)) if correlation is None else np.asarray(correlation, dtype=float)
 
-    def band(self, uncertainties: Sequence[tuple[ModelParameter, float]], T: np.ndarray, P: np.ndarray):
+        def spread(values: np.ndarray) -> np.ndarray:
+            scaled = np.atleast_2d(values)[:, columns] * sigma
+            return np.sqrt(np.maximum(np.einsum("rj,jk,rk->r", scaled, r, scaled), 0.0))
+
+        corners = {kind: {"T": float(spread(dT)[0]), "P": float(spread(dP)[0])} for kind, (dT, dP) in self.corners.items()}
+        return corners, spread(self.rows)
+
+    def band(self, uncertainties: Sequence[tuple[ModelParameter, float]], T: np.ndarray, P: np.ndarray,
+             correlation: np.ndarray | None = None):
         """The curve (T, P) moved +-1 standard uncertainty across itself: (T_upper, P_upper, T_lower, P_lower).
 
         Across means along the normal in axes scaled by the ranges of T and P (as a plot shows them);
@@ -193,7 +201,9 @@ class EnvelopeSensitivities:
         tangent /= np.linalg.norm(tangent, axis=1, keepdims=True)
         normal = np.column_stack([-tangent[:, 1], tangent[:, 0]])
         moves = self.across[:, :, columns] / scale[None, :, None]
-        spread = np.linalg.norm(np.einsum("rk,rkq->rq", normal, moves) * sigma, axis=1)
+        across = np.einsum("rk,rkq->rq", normal, moves) * sigma
+        r = np.eye(len(sigma)) if correlation is None else np.asarray(correlation, dtype=float)
+        spread = np.sqrt(np.maximum(np.einsum("rj,jk,rk->r", across, r, across), 0.0))
         shift = spread[:, None] * normal * scale
         return T + shift[:, 0], P + shift[:, 1], T - shift[:, 0], P - shift[:, 1]
 
@@ -248,23 +258,28 @@ def envelope_sensitivities(envelope: Envelope, parameters: Sequence[ModelParamet
 
 
 def monte_carlo(envelope: Envelope, uncertainties: Sequence[tuple[ModelParameter, float]], samples: int,
-                seed: int) -> dict:
+                seed: int, correlation: np.ndarray | None = None) -> dict:
     """Corners' standard deviations over ``samples`` envelopes with normally distributed constants.
 
-    Each sample draws every constant independently, q_k + u(q_k) N(0, 1) (numpy's default generator
-    seeded with ``seed``), and re-traces the envelope (without the stability check). Samples whose
-    model is not valid, or whose envelope does not complete or lacks a corner, are counted as failed.
+    Each sample draws the constants q_k + u(q_k) e_k, with e normal of mean 0 and covariance
+    ``correlation`` (independent when None; numpy's default generator seeded with ``seed``), and
+    re-traces the envelope (without the stability check). Samples whose model is not valid, or whose
+    envelope does not complete or lacks a corner, are counted as failed.
 
     Returns:
         kind -> {"T": std, "P": std, "samples": the number used, "failed": the number that failed}.
     """
     random = np.random.default_rng(seed)
+    root = np.eye(len(uncertainties))  # draws = root @ N(0, I) have covariance root root^T = correlation
+    if correlation is not None:
+        values, vectors = np.linalg.eigh(correlation)
+        root = vectors * np.sqrt(np.maximum(values, 0.0))
     found = {kind: [] for kind in ("critical", "cricondenbar", "cricondentherm") if envelope.special(kind)}
     failed = 0
     from_pressure = float(envelope.rows[0][1])
     for _ in range(samples):
         mixture, z = envelope.mixture, envelope.z
-        draws = random.standard_normal(len(uncertainties))
+        draws = root @ random.standard_normal(len(uncertainties))
         try:
             for (parameter, sigma), draw in zip(uncertainties, draws):
                 mixture, z = perturbed(mixture, z, parameter, parameter_value(mixture, z, parameter) + sigma * draw)

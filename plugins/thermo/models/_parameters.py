@@ -36,7 +36,7 @@ from ._kij import split_pair
 _SLOPES = {"srk": polyder(_eos._SRK), "pr1976": polyder(_eos._PR1976), "pr1978": polyder(_eos._PR1978)}
 
 __all__ = ["KINDS", "ModelParameter", "blend_parameter", "parse_parameter", "parse_parameters", "constant_derivatives",
-           "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed", "root_alpha_derivatives"]
+           "feed_derivative", "parameter_value", "parse_uncertainties", "perturbed", "read_correlations", "root_alpha_derivatives"]
 
 #: The kinds of model constant, with what each is in plain words.
 KINDS = {"kij": "interaction parameter of a pair", "Tc": "critical temperature (K)",
@@ -292,3 +292,68 @@ def parse_uncertainties(text: str, mixture, z: np.ndarray, extra=(), *,
             if sigma > 0.0:
                 chosen.append((parameter, sigma))
     return tuple(chosen)
+
+
+def read_correlations(path, uncertainties: Sequence[tuple[ModelParameter, float]], names: Sequence[str], extra=(),
+                      *, argument: str = "--correlations") -> np.ndarray:
+    """The correlation matrix of the uncertain constants from a CSV file, in the order of ``uncertainties``.
+
+    The file (``#`` lines are comments) has a header ``constant,LABEL,LABEL,...`` and one row per label in
+    the same order, ``LABEL,r,r,...``, with labels as in ``--uncertainty`` (``Tc:methane``,
+    ``kij:methane-ethane``). Constants the file does not name are uncorrelated with the rest.
+
+    Raises:
+        InputError (naming the file and line): an unreadable file, a row of the wrong length or order, a
+            label that is not an uncertain constant, a value outside [-1, 1], a diagonal that is not 1, a
+            matrix that is not symmetric or not positive semidefinite (a set of correlations that cannot
+            all hold at once).
+    """
+    import csv
+    import io
+
+    from contin.base import read_input_text
+
+    from ._units import parse_number
+
+    where = f"{argument} {str(path)!r}"
+    text = read_input_text(path, where, 2**20)
+    lines = [(k, line) for k, line in enumerate(text.splitlines(), 1) if line.strip() and not line.lstrip().startswith("#")]
+    if not lines:
+        raise InputError(f"{where} is empty; give a header 'constant,LABEL,...' and one row per label")
+    rows = [(k, [cell.strip() for cell in row]) for (k, _), row in zip(lines, csv.reader(io.StringIO(
+        "\n".join(line for _, line in lines))))]
+    (head_line, header), body = rows[0], rows[1:]
+    labels = header[1:]
+    slots = {(p.kind, p.indices): k for k, (p, _) in enumerate(uncertainties)}
+    positions = []
+    for label in labels:
+        parameter = parse_parameter(label, names, extra, argument=f"{where} line {head_line}")
+        if (parameter.kind, parameter.indices) not in slots:
+            raise InputError(f"{where} line {head_line}: {label!r} has no uncertainty; give it one in --uncertainty")
+        positions.append(slots[(parameter.kind, parameter.indices)])
+    if len(set(positions)) != len(positions) or len(body) != len(labels):
+        raise InputError(f"{where}: give each label once in the header and one row per label, in the same order")
+    matrix = np.empty((len(labels), len(labels)))
+    for (line, row), label, i in zip(body, labels, range(len(labels))):
+        if len(row) != len(labels) + 1 or row[0] != label:
+            raise InputError(f"{where} line {line}: expected the row of {label!r} with {len(labels)} values")
+        for j, cell in enumerate(row[1:]):
+            value = parse_number(cell, f"{where} line {line}")
+            if not -1.0 <= value <= 1.0:
+                raise InputError(f"{where} line {line}: correlation {value:g} lies outside [-1, 1]")
+            matrix[i, j] = value
+    if np.any(np.diag(matrix) != 1.0):
+        raise InputError(f"{where}: a constant's correlation with itself (the diagonal) must be 1")
+    if not np.array_equal(matrix, matrix.T):
+        i, j = np.argwhere(matrix != matrix.T)[0]
+        raise InputError(f"{where}: not symmetric: {labels[i]} with {labels[j]} is {matrix[i, j]:g}, "
+                         f"{labels[j]} with {labels[i]} is {matrix[j, i]:g}")
+    smallest = float(np.linalg.eigvalsh(matrix)[0])
+    # Round-off in eigvalsh is about 1e-16 per unit entry; a matrix short of semidefinite by more is
+    # a set of correlations that cannot all hold (e.g. a with b and b with c at 0.9, a with c at -0.9).
+    if smallest < -1e-12:
+        raise InputError(f"{where}: the correlations are not positive semidefinite (smallest eigenvalue "
+                         f"{smallest:.3g}): they cannot all hold at once")
+    full = np.eye(len(uncertainties))
+    full[np.ix_(positions, positions)] = matrix
+    return full
