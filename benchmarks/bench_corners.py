@@ -49,7 +49,7 @@ def loci_case(mixture, z) -> dict:
     began = time.perf_counter()
     loci = corner_loci(mixture, z, parameter, SPAN, at=values[1:-1], pictured=False)
     loci_seconds = time.perf_counter() - began  # the start envelope and the three loci
-    traces = sum(locus[5].get("trace_seconds", 0.0) for locus in loci.loci.values())
+    traces = sum(locus.stats.get("trace_seconds", 0.0) for locus in loci.loci.values())
     began = time.perf_counter()
     corner_loci(mixture, z, parameter, SPAN)
     with_picture = time.perf_counter() - began
@@ -58,15 +58,15 @@ def loci_case(mixture, z) -> dict:
     separate_seconds = time.perf_counter() - began
     worst = 0.0
     for corner, locus in loci.loci.items():
-        rows = [locus[1][0], *locus[5]["at"], locus[1][-1]]
+        rows = [locus.rows[0], *locus.stats["at"], locus.rows[-1]]
         for row, envelope in zip(rows, separate):
             T, P = envelope_corners(envelope)[corner]
             worst = max(worst, abs(row[1] / T - 1), abs(row[2] / P - 1))
-    return {"case": f"kij loci, N={len(NAMES)}", "status": {c: locus[2] for c, locus in loci.loci.items()},
+    return {"case": f"kij loci, N={len(NAMES)}", "status": {c: locus.status for c, locus in loci.loci.items()},
             "loci_seconds": round(loci_seconds, 4), "of_which_start_envelope_seconds": round(loci_seconds - traces, 4),
             "loci_with_pictured_envelopes_seconds": round(with_picture, 4),
-            "loci_points": {c: len(locus[1]) for c, locus in loci.loci.items()},
-            "loci_jacobian_evaluations": {c: locus[5].get("jacobian_evaluations") for c, locus in loci.loci.items()},
+            "loci_points": {c: len(locus.rows) for c, locus in loci.loci.items()},
+            "loci_jacobian_evaluations": {c: locus.stats.get("jacobian_evaluations") for c, locus in loci.loci.items()},
             "separate_envelopes": len(values), "separate_seconds": round(separate_seconds, 4),
             "separate_jacobian_evaluations": int(sum(e.stats["jacobian_evaluations"] for e in separate)),
             "speed_up": round(separate_seconds / loci_seconds, 2),

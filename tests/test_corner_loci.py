@@ -37,7 +37,7 @@ def run(argv, capsys):
 
 def _check_against_separate_envelopes(mixture, z, parameter, loci, samples):
     for corner in ("critical", "cricondenbar", "cricondentherm"):
-        at = {round(row[0], 12): row for row in loci.loci[corner][5]["at"]}
+        at = {round(row[0], 12): row for row in loci.loci[corner].stats["at"]}
         assert sorted(at) == sorted(samples), corner
         for value in samples:
             envelope = trace_envelope(*perturbed(mixture, z, parameter, value), check_stability=False)
@@ -75,11 +75,11 @@ def test_a_corner_that_ceases_to_exist_ends_its_locus_where_it_does():
     loci = corner_loci(mixture, np.array([0.82, 0.09, 0.05, 0.04]),
                        parse_parameter("kij:methane-n-octane", names), (0.0, 0.12))
     critical, cricondenbar = loci.loci["critical"], loci.loci["cricondenbar"]
-    assert critical[2] == "zero_pressure" and abs(critical[1][-1][2]) < 1e-3
-    assert cricondenbar[2] == "turned_back" and "where the locus turns back" in cricondenbar[3]
+    assert critical.status == "zero_pressure" and abs(critical.rows[-1][2]) < 1e-3
+    assert cricondenbar.status == "turned_back" and "where the locus turns back" in cricondenbar.message
     q = loci.curve("cricondenbar")[:, 0]
     assert np.all(np.diff(q) > 0) and 0.09 < q[-1] < 0.12
-    assert loci.loci["cricondentherm"][2] == "bound_reached"
+    assert loci.loci["cricondentherm"].status == "bound_reached"
 
 
 def test_json_has_a_branch_object_for_each_corner_with_the_constant_first(capsys, tmp_path):

@@ -299,7 +299,7 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
         ct, cb = row["cricondentherm"], row["cricondenbar"]
         say(f"  {row['kij']:>6g}{(_format_t(shown, ct['T']) if ct else 'n/a'):>20}"
             f"{(_format_p(shown, cb['P']) if cb else 'n/a'):>18}")
-    say(f"  the corners' paths in between: one continuation each ({', '.join(f'{c} {len(l[1])} points' for c, l in loci.loci.items())})")
+    say(f"  the corners' paths in between: one continuation each ({', '.join(f'{c} {len(locus.rows)} points' for c, locus in loci.loci.items())})")
     say()
     say(f"files in {folder}/: {', '.join(written)}  ({seconds:.1f} s)")
     say(CAUTION)

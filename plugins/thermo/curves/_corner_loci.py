@@ -24,6 +24,7 @@ import math
 import time
 from dataclasses import dataclass
 from collections.abc import Sequence
+from typing import NamedTuple
 
 import numpy as np
 
@@ -34,7 +35,7 @@ from ..models._caution import CAUTION
 from ..models._parameters import ModelParameter, parameter_value, perturbed
 from ._envelope import Envelope, EnvelopeSystem, trace_envelope
 
-__all__ = ["CornerLoci", "corner_loci", "FoldSystem", "CriticalSystem"]
+__all__ = ["CornerLoci", "Locus", "corner_loci", "envelope_corners", "FoldSystem", "CriticalSystem"]
 
 _CORNERS = ("critical", "cricondenbar", "cricondentherm")
 _WORDS = {"critical": "critical point", "cricondenbar": "cricondenbar", "cricondentherm": "cricondentherm"}
@@ -152,6 +153,18 @@ class CriticalSystem(contin.CallableSystem):
         return float(model.pressure(math.exp(u[0]), math.exp(u[1]), feed))
 
 
+class Locus(NamedTuple):
+    """One corner's traced curve: columns and rows (the constant, T, P[, v]), how it ended, and its stats
+    (with ``at``: the rows at requested values of the constant)."""
+
+    columns: tuple
+    rows: list
+    status: str
+    message: str
+    success: bool
+    stats: dict
+
+
 @dataclass(frozen=True)
 class CornerLoci:
     """The loci of an envelope's corners in one constant.
@@ -159,7 +172,7 @@ class CornerLoci:
     Attributes:
         parameter: the constant; name: its column name (``kij``, ``Tc``, ... or ``blend``).
         span: (first, last) value of the constant.
-        loci: corner -> (columns, rows, status, message, success, stats) of its traced curve.
+        loci: corner -> its :class:`Locus`.
         envelopes: the envelopes traced at the first, middle and last value (only the first without
             the picture).
     """
@@ -172,11 +185,12 @@ class CornerLoci:
 
     @property
     def success(self) -> bool:
-        return all(locus[4] for locus in self.loci.values())
+        """True when every corner's locus was traced over the range or to where the corner ends."""
+        return all(locus.success for locus in self.loci.values())
 
     def curve(self, corner: str) -> np.ndarray:
         """(q, T, P) rows of a corner's locus, array (points, 3)."""
-        return np.array([row[:3] for row in self.loci[corner][1]], dtype=float).reshape(-1, 3)
+        return np.array([row[:3] for row in self.loci[corner].rows], dtype=float).reshape(-1, 3)
 
     def to_dict(self) -> dict:
         """``{"corners": {corner: <branch object>}}`` with the caution and the model."""
@@ -193,7 +207,7 @@ class CornerLoci:
         from ..models._units import convert_rows, output_units
 
         columns = ("corner", self.name, "T", "P")
-        rows = [[corner, *row[:3]] for corner, locus in self.loci.items() for row in locus[1]]
+        rows = [[corner, *row[:3]] for corner, locus in self.loci.items() for row in locus.rows]
         rows, names = convert_rows(columns, rows, {"corner": "", self.name: _unit(self.parameter)}, output_units(units))
         return write_csv(path, columns, rows, names, title=f"loci of the envelope's corners in {self.parameter.label}",
                          notes=[f"model: {self.envelopes[0].mixture.family.label}"])
@@ -279,7 +293,7 @@ def corner_loci(mixture, z, parameter: ModelParameter, span: tuple[float, float]
     for corner in _CORNERS:
         sp = start.special(corner)
         if sp is None:
-            loci[corner] = ((column, "T", "P"), [], "not_found", f"the envelope at {parameter.label} = {first:g} has "
+            loci[corner] = Locus((column, "T", "P"), [], "not_found", f"the envelope at {parameter.label} = {first:g} has "
                             f"no {_WORDS[corner]}", False, {})
             continue
         began = time.perf_counter()
@@ -307,8 +321,8 @@ def _row(corner: str, system, x: np.ndarray) -> list[float]:
 
 
 def _rows(corner, system, branch, column, seconds):
-    """(columns, rows, status, message, success, stats) of a traced locus, in T and P; the points at the
-    requested values of q are in ``stats["at"]``.
+    """The :class:`Locus` of a traced corner, in T and P; the points at the requested values of q are in
+    ``stats["at"]``.
 
     A locus that turns back in q (a fold of q on it) is cut there: beyond that value the corner no
     longer exists on the envelope (for the critical point: it merges with another critical point; for
@@ -325,21 +339,21 @@ def _rows(corner, system, branch, column, seconds):
     if turn is None and branch.status == contin.Status.TERMINAL_EVENT and corner == "critical":
         message = (f"stopped at {column} = {branch.points[-1, -1]:.8g}, where the model's critical pressure "
                    "reaches zero: the envelope's critical point leaves the physical range")
-        return columns, rows, "zero_pressure", message, True, stats
+        return Locus(columns, rows, "zero_pressure", message, True, stats)
     if turn is None and branch.status == contin.Status.TERMINAL_EVENT:
         message = (f"stopped at {column} = {branch.points[-1, -1]:.6g}, where the {corner} comes within "
                    f"|ln K| = {_MEETS_CRITICAL:g} of the critical point (K = 1): the envelope's equations are singular "
                    "there, and the locus is not continued across it")
-        return columns, rows, "meets_critical", message, False, stats
+        return Locus(columns, rows, "meets_critical", message, False, stats)
     if turn is None:
         message = branch.message.replace(" q = ", f" {column} = ")
         if branch.status == contin.Status.BOUND_REACHED:
             message = f"completed: {column} from {branch.points[0, -1]:g} to {branch.points[-1, -1]:g}"
-        return columns, rows, branch.status.label, message, branch.success, stats
+        return Locus(columns, rows, branch.status.label, message, branch.success, stats)
     q = turn.values["q"]
     message = (f"completed up to {column} = {q:.8g}, where the locus turns back: beyond it the envelope has no "
                f"{_WORDS[corner]} on this branch")
-    return columns, rows, "turned_back", message, True, stats
+    return Locus(columns, rows, "turned_back", message, True, stats)
 
 
 def envelope_corners(envelope: Envelope) -> dict:
