@@ -53,6 +53,14 @@ def test_demo_writes_every_file_and_prints_the_special_points(demo):
     bars = [run["cricondenbar"]["P"] for run in study["runs"]]
     assert bars == sorted(bars)  # a larger methane - heaviest pseudo-component kij widens the envelope here
     assert study["pair"] == ["methane", envelope["components"][-1]]
+    # The corners' paths run through the corners of each of the study's envelopes.
+    for corner, path in study["corner_paths"].items():
+        assert path["status"] == "bound_reached" and path["kij"][0] == 0.0 and path["kij"][-1] == pytest.approx(0.12)
+        for run in study["runs"]:
+            k = min(range(len(path["kij"])), key=lambda i: abs(path["kij"][i] - run["kij"]))
+            assert path["kij"][k] == pytest.approx(run["kij"], abs=1e-12)
+            assert path["T"][k] == pytest.approx(run[corner]["T"], rel=1e-8)
+            assert path["P"][k] == pytest.approx(run[corner]["P"], rel=1e-8)
 
 
 def test_demo_characterises_its_plus_fraction_and_shows_the_pseudo_components(demo):

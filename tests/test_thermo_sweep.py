@@ -160,6 +160,7 @@ def test_chains_depend_on_the_grid_alone_and_point_back_to_a_near_run():
     (["--sweep", "kij:methane-ethane=0.1", "--plot", "e.png"], "--plot writes one run's result; with --sweep"),
     (["--workers", "2"], "--workers applies to a sweep only"),
     (["--sweep", "kij:methane-ethane=0.1", "--volume-translation"], "--sweep does not yet carry --volume-translation"),
+    (["--sweep", "kij:methane-ethane=0.1", "--sensitivities", "Tc:methane"], "--sweep does not yet carry --sensitivities"),
     (["--sweep", "kij:methane-ethane=0.1", "--workers", "0"], "--workers 0 must be a whole number of at least 1"),
 ])
 def test_bad_sweeps_are_refused_with_one_line(tmp_path, capsys, monkeypatch, words, message):

@@ -48,6 +48,15 @@ _EXPORTS = {
     "translate_curve": ".models._translation",
     "translate_mixture_result": ".models._translation",
     "volume_shifts": ".models._translation",
+    "EnvelopeSensitivities": ".curves._corner_sensitivity",
+    "envelope_sensitivities": ".curves._corner_sensitivity",
+    "ModelParameter": ".models._parameters",
+    "parse_parameters": ".models._parameters",
+    "parse_uncertainties": ".models._parameters",
+    "blend_parameter": ".models._parameters",
+    "CornerLoci": ".curves._corner_loci",
+    "saturation_sensitivities": ".curves._corner_sensitivity",
+    "corner_loci": ".curves._corner_loci",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -80,6 +80,9 @@ def register(subparsers) -> None:
     _add_fluid_options(saturation)
     _add_range_options(saturation)
     add_sweep_options(saturation, ("Tc", "Pc", "omega"))
+    saturation.add_argument("--sensitivities", metavar="LIST",
+                            help="dP/dq at fixed T on every row (columns dP_dTc, ...) and the critical point's, "
+                                 "for the fluid's constants, e.g. 'Tc,Pc,omega'")
     saturation.set_defaults(handler=run_pure, curve="saturation")
     spinodal = commands.add_parser(
         "spinodal", help="liquid and vapour spinodals up to the critical point",
@@ -139,6 +142,9 @@ def register(subparsers) -> None:
     module = _mixture_module()
     if module is not None and hasattr(module, "register"):
         module.register(commands)
+        from ._cli_corners import register_corners
+
+        register_corners(commands)
     thermo.set_defaults(handler=lambda args: _no_subcommand(commands))
 
 
@@ -280,7 +286,16 @@ def run_pure(args) -> int:
             return swept
         trace = lambda progress: saturation_curve(  # noqa: E731
             fluid, from_temperature=start, at_temperatures=temperatures, at_pressures=pressures, on_point=progress)
+    constants = getattr(args, "sensitivities", None)
+    if constants is not None:
+        from ..curves._corner_sensitivity import parse_fluid_constants
+
+        constants = parse_fluid_constants(constants)
     result = with_progress(args, f"{args.curve} of {fluid.component.name}", lambda x: f"T = {x[-1] * tc:.6g} K", trace)
+    if constants is not None and result.success:
+        from ..curves._corner_sensitivity import annotate_saturation
+
+        result = annotate_saturation(result, constants)
     return _emit(result, args)
 
 

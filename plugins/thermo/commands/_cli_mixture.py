@@ -210,7 +210,9 @@ _EXAMPLES = {
                 "'methane-carbon dioxide=0.1' --eos srk --quality 0.1,0.5 --units degC-bar --csv env.csv\n"
                 "  contin thermo envelope --mixture 'C1=0.9,blend-X=0.1' --component blend-X,520,2.9e6,0.31 --eos pr --json\n"
                 "  contin thermo envelope --mixture 'methane=0.8,ethane=0.1,propane=0.1' --eos pr "
-                "--sweep 'kij:methane-propane=0,0.02,0.04' --workers 2 --out kij-sweep",
+                "--sweep 'kij:methane-propane=0,0.02,0.04' --workers 2 --out kij-sweep\n"
+                "  contin thermo envelope --mixture 'methane=0.7,ethane=0.1,propane=0.08,n-butane=0.05,n-heptane=0.07' "
+                "--eos pr --sensitivities 'kij:methane-n-heptane,Tc:methane' --uncertainty 'Tc=0.5%,omega=3%' --plot band.png",
     "pxy": "examples:\n  contin thermo pxy --mixture 'propane,n-butane' --temperature '30 degC' --eos pr --plot pxy.png\n"
            "  contin thermo pxy --mixture 'ethane,propane' --temperature 280 --eos srk --json",
     "txy": "examples:\n  contin thermo txy --mixture 'propane,n-butane' --pressure '5 bar' --eos pr --plot txy.png\n"
@@ -223,6 +225,7 @@ def register(thermo_subparsers) -> None:
     from ..models._caution import CAUTION
     from ._cli_common import add_output_options, add_translation_option
     from ._cli_sweep import KINDS, add_sweep_options
+    from ._cli_sensitivity import add_sensitivity_options
 
     envelope = thermo_subparsers.add_parser(
         "envelope", help="phase envelope of a mixture", epilog=_EXAMPLES["envelope"],
@@ -238,6 +241,7 @@ def register(thermo_subparsers) -> None:
                                "such as '1 bar' or '100 kPa' allowed)")
     envelope.add_argument("--quality", default=None, help="vapour fractions of quality lines, e.g. 0.1,0.5,0.9")
     envelope.add_argument("--plot", default=None, metavar="FILE", help="draw the envelope in the P-T plane")
+    add_sensitivity_options(envelope)
     envelope.set_defaults(handler=run_envelope)
     for name, option, unit, example in (("pxy", "--temperature", "K", "'30 degC' or '86 degF'"),
                                         ("txy", "--pressure", "PA", "'5 bar' or '2 MPa'")):
@@ -287,6 +291,7 @@ def _translated(args, result, z=None):
 def run_envelope(args) -> int:
     """``contin thermo envelope``: trace, then print JSON or a summary; write CSV and plot if asked."""
     from ._cli_common import check_destinations, emit, read_quantities, with_progress, with_translation_line
+    from ._cli_sensitivity import sensitivity_plan
     from ..curves._envelope import trace_envelope
 
     check_destinations(args)
@@ -301,6 +306,7 @@ def run_envelope(args) -> int:
         for q in parts:
             quality.append(parse_number(q, "--quality"))
     from_pressure = read_quantities(args, args.from_pressure, "pressure", "--from-pressure", single=True)[0]
+    plan = sensitivity_plan(args, mixture, z)
     from ._cli_sweep import sweep_command
 
     swept = sweep_command(args, {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality})
@@ -313,9 +319,13 @@ def run_envelope(args) -> int:
     from ..curves._envelope import _MAX_STEP, _STEP, _TOLERANCE
     from ..reports._plot_envelope import plot_envelope
 
+    lines = []
+    if plan is not None:  # on the equation's own volumes, before any translation
+        envelope, lines = plan.apply(envelope)
     envelope = _translated(args, envelope, z)
-    return emit(args, envelope, "\n".join(with_translation_line(envelope.summary(args.units), envelope.stats)),
-                plot_envelope,
+    summary = with_translation_line(envelope.summary(args.units), envelope.stats)
+    summary = summary[:-1] + lines + summary[-1:]
+    return emit(args, envelope, "\n".join(summary), plot_envelope,
                 {**_mixture_input(args, mixture, z), "from_pressure": from_pressure, "quality": quality},
                 {"tolerance": _TOLERANCE, "step": _STEP, "max_step": _MAX_STEP}, {"kij": kij_used(args)})
 

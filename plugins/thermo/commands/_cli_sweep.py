@@ -174,9 +174,11 @@ def sweep_command(args: argparse.Namespace, description: dict) -> int | None:
     _check_options(args)
     if not args.sweep:
         return None
-    if getattr(args, "volume_translation", None) is not None:
-        raise InputError("--sweep does not yet carry --volume-translation to its runs (temperatures and pressures "
-                         "are the same without it); run the sweep without it, or translate one run at a time")
+    for option in ("volume_translation", "sensitivities", "uncertainty"):
+        if getattr(args, option, None) is not None:
+            flag = "--" + option.replace("_", "-")
+            raise InputError(f"--sweep does not yet carry {flag} to its runs; run the sweep without it, or give "
+                             f"{flag} to one run at a time")
     kinds = ("Tc", "Pc", "omega") if description["command"] == "saturation" else tuple(KINDS)
     extra = _apply(description, {})[0]  # the model's own components first (user components included)
     over = parse_sweeps(args.sweep, [c.name for c in extra], kinds, extra)

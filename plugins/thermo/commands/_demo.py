@@ -6,8 +6,9 @@ no published sample). The demo characterises the plus fraction into pseudo-compo
 of ``contin thermo characterise``), takes the default interaction parameters, traces the feed's phase
 envelope through cricondentherm, critical point and cricondenbar; the saturation curves of two of its
 components; and the envelope again for four values of the methane - heaviest pseudo-component
-interaction parameter. It writes CSV, JSON and PNG files into a folder and prints a summary with the
-pseudo-components, units and the caution.
+interaction parameter, with the paths its three corners take in between (one continuation each, as
+``contin thermo corners``). It writes CSV, JSON and PNG files into a folder and prints a summary with
+the pseudo-components, units and the caution.
 """
 
 from __future__ import annotations
@@ -138,13 +139,21 @@ def _envelope_figure(envelope, title: str):
     return figure
 
 
-def _study_figure(envelopes, labels, title: str):
-    """The whole envelopes on the left; the region round the critical point and cricondenbar enlarged."""
+def _study_figure(envelopes, labels, title: str, loci=None):
+    """The whole envelopes on the left; the region round the critical point and cricondenbar enlarged;
+    the corners' paths between the envelopes (``loci``, from ``corner_loci``) on both."""
     from contin.base import pyplot as _pyplot
+
+    from ..reports._plot_envelope import smooth_curve
 
     figure, (whole, near) = _pyplot().subplots(1, 2, figsize=(11, 5), layout="constrained")
     _draw_envelopes(whole, envelopes, labels, split_sides=False, annotate=False)
     _draw_envelopes(near, envelopes, labels, split_sides=False, annotate=True)
+    for corner in ((loci.loci if loci is not None else ())):
+        curve = loci.curve(corner)
+        for ax in (whole, near):
+            ax.plot(*smooth_curve(curve[:, 1], curve[:, 2] / 1e5), "-", color="0.25", lw=3.0, alpha=0.6,
+                    label="paths of the corners" if ax is whole and corner == "critical" else None)
     points = [sp["values"] for e in envelopes for sp in e.special_points if sp["kind"] in ("critical", "cricondenbar")]
     if points:
         T = [p["T"] for p in points]
@@ -240,6 +249,12 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
     (first, _), values = INTERACTION_STUDY
     pair = (first, characterised.components[-1].name)
     study = [trace_envelope(*_mixture(characterised, value)[:2], check_stability=False) for value in values]
+    from ..curves._corner_loci import corner_loci
+    from ..models._parameters import parse_parameter
+
+    start_mixture, start_z, _ = _mixture(characterised, values[0])
+    varied = parse_parameter(f"kij:{pair[0]}-{pair[1]}", start_mixture.names, start_mixture.components)
+    loci = corner_loci(start_mixture, start_z, varied, (values[0], values[-1]), at=values[1:-1], pictured=False)
     seconds = time.perf_counter() - began
 
     written = []
@@ -259,7 +274,7 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
         _write_json(folder / f"{stem}.json", curve.to_dict()); keep(folder / f"{stem}.json")
     _save(_saturation_figure(curves), folder / "saturation.png"); keep(folder / "saturation.png")
     labels = [f"k({pair[0]}, {pair[1]}) = {value:g}" for value in values]
-    _save(_study_figure(study, labels, f"How the envelope moves with k({pair[0]}, {pair[1]})"),
+    _save(_study_figure(study, labels, f"How the envelope moves with k({pair[0]}, {pair[1]})", loci),
           folder / "interaction-study.png"); keep(folder / "interaction-study.png")
     study_rows = []
     for value, result in zip(values, study):
@@ -268,9 +283,12 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
             sp = result.special(kind)
             row[kind] = None if sp is None else {"T": sp["values"]["T"], "P": sp["values"]["P"]}
         study_rows.append(row)
+    paths = {corner: {"kij": [row[0] for row in rows], "T": [row[1] for row in rows], "P": [row[2] for row in rows],
+                      "status": status, "message": message}
+             for corner, (_, rows, status, message, _, _) in loci.loci.items()}
     _write_json(folder / "interaction-study.json", {"pair": list(pair), "eos": EOS, "feed": FEED,
                                                     "components": list(mixture.names), "z": [float(v) for v in z],
-                                                    "runs": study_rows, "caution": CAUTION})
+                                                    "runs": study_rows, "corner_paths": paths, "caution": CAUTION})
     keep(folder / "interaction-study.json")
 
     say = lambda text="": print(text, file=stream)  # noqa: E731
@@ -314,6 +332,7 @@ def run_demo(out: str | os.PathLike = "contin-demo", *, units: str = "degC-bar",
         ct, cb = row["cricondentherm"], row["cricondenbar"]
         say(f"  {row['kij']:>6g}{(_format_t(shown, ct['T']) if ct else 'n/a'):>20}"
             f"{(_format_p(shown, cb['P']) if cb else 'n/a'):>18}")
+    say(f"  the corners' paths in between: one continuation each ({', '.join(f'{c} {len(locus.rows)} points' for c, locus in loci.loci.items())})")
     say()
     say(f"files in {folder}/: {', '.join(written)}  ({seconds:.1f} s)")
     say(CAUTION)

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 import time
+from operator import itemgetter
 from dataclasses import dataclass
 from collections.abc import Sequence
 
@@ -42,7 +43,8 @@ __all__ = ["EnvelopeSystem", "Envelope", "QualityLine", "trace_envelope", "dew_p
            "ENVELOPE_UNITS"]
 
 #: Units of the envelope columns (files and JSON are in SI units).
-ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": ""}
+ENVELOPE_UNITS = {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol", "stable": "",
+                  "P_std": "Pa"}
 
 # Tolerance on the residual (relative pressure, ln fugacity): far below any use of the numbers.
 _TOLERANCE = 1e-10
@@ -153,6 +155,49 @@ class EnvelopeSystem(contin.CallableSystem):
         dp[n] = -Px / P
         dp[n + 1] = -Py / P
         return r, J, dp
+
+    def constant_derivative(self, u: np.ndarray, lnP: float, parameter) -> np.ndarray:
+        """dF/dq at (u, ln P) for one model constant q; see :meth:`constant_jacobian`."""
+        return self.constant_jacobian(u, lnP, (parameter,))[:, 0]
+
+    def constant_jacobian(self, u: np.ndarray, lnP: float, parameters) -> np.ndarray:
+        """dF/dq at (u, ln P) for model constants (:class:`~contin_thermo.models._parameters.ModelParameter`),
+        array (n + 3, Q).
+
+        Exact: a kij, Tc, Pc or omega changes a_ij(T) and b_i (``constant_derivatives``), which enter
+        F_n and P through ``Mixture.constant_response``; a feed fraction or a blend changes the phases'
+        amounts (``feed_derivative``), which enter through the composition Hessians F_nn and dP/dn.
+        """
+        from ..models._parameters import constant_derivatives, feed_derivative, root_alpha_derivatives
+
+        n, mixture = self.n, self.mixture
+        T, Vx, Vy, P = math.exp(u[n]), math.exp(u[n + 1]), math.exp(u[n + 2]), math.exp(lnP)
+        K = np.exp(u[:n])
+        denominator = 1.0 + self.beta * (K - 1.0)
+        x = self.z / denominator
+        y = K * x
+        A, slope = self._attraction(T)
+        d = np.zeros((n + 3, len(parameters)))
+        responses = feed_states = roots = None
+        for k, parameter in enumerate(parameters):
+            if parameter.moves_feed:
+                if feed_states is None:  # (dP/dn, F_nn) of each phase
+                    feed_states = [itemgetter(4, 7)(mixture.linear_state(T, V, w, A, slope)) for V, w in ((Vx, x), (Vy, y))]
+                (Pnx, Fnnx), (Pny, Fnny) = feed_states
+                dx = feed_derivative(self.z, parameter) / denominator
+                dy = K * dx
+                d[:n, k] = Fnny @ dy - Fnnx @ dx
+                d[n:, k] = Pnx @ dx / P, Pny @ dy / P, dy.sum() - dx.sum()
+                continue
+            if responses is None:
+                responses = [mixture.constant_response(T, V, w, A) for V, w in ((Vx, x), (Vy, y))]
+                roots = root_alpha_derivatives(mixture.family, T, mixture.Tc, mixture.omega)
+            dA, db = constant_derivatives(mixture, parameter, T, roots)
+            dFx, dPx = mixture.constant_state(responses[0], x, dA, db)
+            dFy, dPy = mixture.constant_state(responses[1], y, dA, db)
+            d[:n, k] = dFy - dFx
+            d[n, k], d[n + 1, k] = dPx / P, dPy / P
+        return d
 
     # contin's System interface ------------------------------------------------------------------
     def _residual_only(self, u, p):
@@ -381,6 +426,8 @@ class Envelope:
         residual_norms: largest residual at each row.
         quality_lines: lines of constant vapour fraction, if asked for.
         branch: the engine's :class:`contin.Branch`.
+        band: the curve moved +-1 standard uncertainty across itself, (T_upper, P_upper, T_lower,
+            P_lower), when uncertainties were propagated (see ``_corner_sensitivity``); else empty.
     """
 
     mixture: Mixture
@@ -396,6 +443,7 @@ class Envelope:
     quality_lines: tuple = ()
     branch: object = None
     notes: tuple = ()
+    band: tuple = ()
 
     def column(self, name: str) -> np.ndarray:
         """One column as an array (``side`` as strings)."""

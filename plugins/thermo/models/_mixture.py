@@ -190,6 +190,13 @@ class Mixture:
         return matrix, matrix * (slope[:, None] + slope[None, :])
 
     # -- Helmholtz side: T, V, n -----------------------------------------------------------------
+    def _mixing(self, V: float, n: np.ndarray, A: np.ndarray) -> tuple[np.ndarray, float]:
+        """(A n, B = b.n) of amounts n; ValueError when V <= B (no such state of the cubic)."""
+        B = float(self.b @ n)
+        if not V > B:
+            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
+        return A @ n, B
+
     def fugacity_pressure(self, T: float, V: float, n: np.ndarray, A: np.ndarray) -> tuple[np.ndarray, float]:
         """(dF/dn_i at fixed T, V; pressure) of amounts n in volume V: the residual-only hot path.
 
@@ -200,12 +207,8 @@ class Mixture:
         Raises:
             ValueError: V <= B (no such state of the cubic).
         """
-        compiled = self._constants[4]
-        b = self.b
-        An = A @ n
-        B = float(b @ n)
-        if not V > B:
-            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
+        compiled, b = self._constants[4], self.b
+        An, B = self._mixing(V, n, A)
         total = float(n.sum())
         F_n, F_V, F_B, F_D = compiled.first_at(compiled.first(total, T, V, B, float(n @ An)))
         RT = R * T
@@ -221,12 +224,8 @@ class Mixture:
         Raises:
             ValueError: V <= B.
         """
-        compiled = self._constants[4]
-        b = self.b
-        An = A @ n
-        B = float(b @ n)
-        if not V > B:
-            raise ValueError(f"volume {V!r} m3 is not above the co-volume {B!r} m3")
+        compiled, b = self._constants[4], self.b
+        An, B = self._mixing(V, n, A)
         total = float(n.sum())
         weighted = slope * n
         D_T = 2.0 * float(weighted @ An)
@@ -257,6 +256,36 @@ class Mixture:
             C = np.array([[F_nn0, F_nB, F_nD], [F_nB, F_BB, F_BD], [F_nD, F_BD, F_DD]])
             F_nn = (2.0 * F_D) * A + W.T @ (C @ W)
         return F_n, P, P_V, P_T, P_n, F_nV, F_nT, F_nn
+
+    def constant_response(self, T: float, V: float, n: np.ndarray, A: np.ndarray) -> tuple:
+        """The linear map from a change of the constants (dA = da_ij/dq, db = db_i/dq) to (dF_n/dq, dP/dq)
+        at fixed T, V, n: the coefficients read by :meth:`constant_state`.
+
+        The chain rule through B = b.n and D = n.A.n (Michelsen & Mollerup 2007, ch. 3): with
+        dB = db.n and dD = n.dA.n,
+        dF_n,i = (F_nB + F_BB b_i + F_BD D_n,i) dB + (F_nD + F_BD b_i + F_DD D_n,i) dD + F_B db_i + 2 F_D (dA n)_i
+        and dP = -RT (F_VB dB + F_VD dD), where D_n = 2 A n. Exact: the second derivatives are those of
+        the one compiled Helmholtz energy.
+
+        Raises:
+            ValueError: V <= B.
+        """
+        compiled, b = self._constants[4], self.b
+        An, B = self._mixing(V, n, A)
+        (_, _, F_B, F_D, _, _, _, F_nB, F_nD, _, _, _, _, F_VB, F_VD, F_BB, F_BD,
+         F_DD) = compiled.second_at(compiled.second(float(n.sum()), T, V, B, float(n @ An)))
+        D_n = 2.0 * An
+        RT = R * T
+        return (F_nB + F_BB * b + F_BD * D_n, F_nD + F_BD * b + F_DD * D_n, F_B, 2.0 * F_D, -RT * F_VB, -RT * F_VD)
+
+    @staticmethod
+    def constant_state(response: tuple, n: np.ndarray, dA: np.ndarray, db: np.ndarray) -> tuple[np.ndarray, float]:
+        """(dF_n/dq, dP/dq) of amounts n for the change (dA, db), from :meth:`constant_response`."""
+        c_B, c_D, F_B, two_F_D, p_B, p_D = response
+        dB = float(db @ n)
+        dAn = dA @ n
+        dD = float(n @ dAn)
+        return c_B * dB + c_D * dD + F_B * db + two_F_D * dAn, p_B * dB + p_D * dD
 
     def state(self, T: float, V: float, n: np.ndarray, attraction=None) -> PhaseState:
         """The phase of amounts ``n`` (mol) in volume ``V`` (m^3) at ``T`` (K).

@@ -8,7 +8,8 @@ import numpy as np
 
 from ..models._caution import CAUTION
 
-__all__ = ["draw_binary", "draw_envelope", "plot_binary", "plot_envelope", "smooth_curve"]
+__all__ = ["draw_binary", "draw_corner_loci", "draw_envelope", "plot_binary", "plot_corner_loci", "plot_envelope",
+           "smooth_curve"]
 
 def smooth_curve(T: np.ndarray, P: np.ndarray, samples: int = 10):
     """A curve through the points (T, P), drawn smooth: a cubic spline in (ln T, ln P) against chord length.
@@ -65,6 +66,8 @@ def draw_envelope(envelope, axes=None):
             continue
         xs, ys = smooth_curve(t_side, p_side)
         axes.plot(xs, ys, style, color="tab:blue", label=f"{name} curve")
+    if envelope.band:
+        _draw_band(axes, envelope.band)
     for line in envelope.quality_lines:
         axes.plot(line.T, line.P / 1e5, ":", color="tab:gray", label=f"vapour fraction {line.beta:g}")
     for sp in envelope.special_points:
@@ -80,11 +83,64 @@ def draw_envelope(envelope, axes=None):
     axes.set_ylabel(axis_label("pressure P", "bar"))
     feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
     axes.set_title(f"Phase envelope ({envelope.mixture.family.label})", fontsize=11)
-    axes.legend(fontsize=8, loc="upper left")
+    # With a band the upper left is crowded (the critical point's label): the legend goes inside the envelope.
+    axes.legend(fontsize=8, **({"loc": "center", "bbox_to_anchor": (0.56, 0.55)} if envelope.band else {"loc": "upper left"}))
     axes.grid(alpha=0.3)
     caption = f"Feed: {feed}. " + CAUTION
     figure.text(0.01, 0.01, "\n".join(textwrap.wrap(caption, 140)), fontsize=6.5, va="bottom")
     figure.subplots_adjust(bottom=0.2)
+    return axes
+
+
+def _draw_band(axes, band) -> None:
+    """Shade the envelope's band of +-1 standard uncertainty (its two edges, ``Envelope.band``)."""
+    T_upper, P_upper, T_lower, P_lower = (np.asarray(edge, dtype=float) for edge in band)
+    T_upper, P_upper = smooth_curve(T_upper, P_upper)
+    T_lower, P_lower = smooth_curve(T_lower, P_lower)
+    axes.fill(np.concatenate([T_upper, T_lower[::-1]]), np.concatenate([P_upper, P_lower[::-1]]) / 1e5,
+              color="tab:blue", alpha=0.2, linewidth=0, label="+-1 standard uncertainty (linear)")
+
+
+def plot_corner_loci(loci, path):
+    """Draw the corners' loci over the envelopes at the ends and the middle into ``path``."""
+    from contin.base import pyplot as _pyplot, save_figure
+
+    _pyplot(headless=True)
+    return save_figure(draw_corner_loci(loci).figure, path)
+
+
+def draw_corner_loci(loci, axes=None):
+    """The paths of the critical point, cricondenbar and cricondentherm in the P-T plane (bar against K),
+    drawn over the envelopes at the first, middle and last value of the varied constant."""
+    from contin.base import pyplot as _pyplot, axis_label, mark_special
+
+    plt = _pyplot()
+    if axes is None:
+        figure, axes = plt.subplots(figsize=(7.5, 5.5))
+    figure = axes.figure
+    first, last = loci.span
+    values = (first, 0.5 * (first + last), last) if len(loci.envelopes) == 3 else (first,)
+    for envelope, value, shade in zip(loci.envelopes, values, ("0.75", "0.55", "0.35")):
+        xs, ys = smooth_curve(envelope.column("T"), envelope.column("P") / 1e5)
+        axes.plot(xs, ys, "-", color=shade, linewidth=1.0, label=f"envelope at {loci.name} = {value:.4g}")
+    for corner, colour in (("critical", "tab:red"), ("cricondenbar", "tab:blue"), ("cricondentherm", "tab:green")):
+        curve = loci.curve(corner)
+        if curve.shape[0] == 0:
+            continue
+        axes.plot(*smooth_curve(curve[:, 1], curve[:, 2] / 1e5), "-", color=colour, linewidth=2.2, label=f"{corner} path")
+        mark_special(axes, corner, curve[0, 1], curve[0, 2] / 1e5)
+        mark_special(axes, corner, curve[-1, 1], curve[-1, 2] / 1e5)
+    axes.set_xlabel(axis_label("temperature T", "K"))
+    axes.set_ylabel(axis_label("pressure P", "bar"))
+    highest = max((loci.curve(c)[:, 2].max() for c in loci.loci if loci.curve(c).shape[0]), default=None)
+    if highest is not None:
+        axes.set_ylim(0.0, 1.25 * highest / 1e5)  # an open envelope would run on to its pressure bound
+    axes.set_title(f"Corners of the envelope as {loci.parameter.label} goes from {first:g} to {last:g} "
+                   f"({loci.envelopes[0].mixture.family.label})", fontsize=10)
+    axes.legend(fontsize=8, loc="upper left")
+    axes.grid(alpha=0.3)
+    figure.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 140)), fontsize=6.5, va="bottom")
+    figure.subplots_adjust(bottom=0.16)
     return axes
 
 
