@@ -119,6 +119,20 @@ def test_the_model_and_the_units_of_every_column_are_written(envelope, tmp_path)
         assert line == (f"# units: {expected}, side [-], v_feed [m3/mol], v_incipient [m3/mol], stable [-], "
                         "K_methane [-], K_propane [-]")
     assert lines["si"] != lines["degC-bar"]
+    # each special point is written in the header with its exact T and P (in SI units)
+    text = Path(envelope.to_csv(tmp_path / "notes.csv")).read_text()
+    for sp in envelope.special_points:
+        assert f"# {sp['kind']}: T = {sp['values']['T']!r} K, P = {sp['values']['P']!r} Pa\n" in text
+
+
+def test_a_start_pressure_above_the_envelope_is_refused_in_one_line():
+    # 20 MPa lies above this blend's cricondenbar (8.8 MPa under PR): no dew point there.
+    from contin import InputError
+    from contin_thermo.curves._envelope import dew_point
+
+    with pytest.raises(InputError, match=r"^--from-pressure 2e\+07 Pa: no two-phase point found from Wilson's "
+                                         r"K-values \(residual \S+\); try another pressure$"):
+        dew_point(BLEND, Z, 2e7)
 
 
 # -- stability ---------------------------------------------------------------------------------------
