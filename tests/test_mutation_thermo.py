@@ -164,6 +164,22 @@ def test_a_known_phase_is_not_taken_for_a_new_one():
         assert again.stable and again.tm == 0.0
 
 
+def test_a_known_phase_with_one_volume_root_is_recognised_on_either_root(envelope):
+    # Just past the critical point, 1e-4 below the bubble pressure, the only phase below the plane is
+    # the incipient one, so near the critical point that the cubic has one root for it: a trial forced
+    # onto the "vapour" or the "liquid" root lands on the same phase. Named as known, it is not new.
+    critical = envelope.special("critical")["index"]
+    row = envelope.rows[critical + 3]
+    assert row[2] == "bubble"
+    T, P = row[0], row[1] * (1 - 1e-4)
+    inside = tangent_plane_test(BLEND, T, P, Z)
+    assert not inside.stable and inside.tm < -1e-7
+    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
+    assert liquid == vapour
+    again = tangent_plane_test(BLEND, T, P, Z, known=(inside.trial,))
+    assert again.stable and again.tm == 0.0
+
+
 # An invented, strongly non-ideal kij (0.2, demo value) between propane and n-pentane: their liquids
 # split at low temperature (as in tests/test_stability.py).
 SPLIT = Mixture((lookup("propane"), lookup("n-pentane")), family("pr"), np.array([[0.0, 0.2], [0.2, 0.0]]))
