@@ -289,6 +289,8 @@ def _hermite_turns(value_a, value_b, slope_a, slope_b, length):
     (-0.05, 2.0, 3.0, True),   # a small net fall between rising ends
     (1.0, 1.0, 1.0, False),    # a straight rise: no turn
     (0.9, 0.8, 1.1, False),    # a gentle rise
+    (0.5, 1.0, 1.0, False),    # a rise to half the end slopes' reach: p' dips to 1/4, no turn
+    (0.6, 2.0, 1.0, False),    # steep then gentle: p' stays positive
     (-1.0, -1.0, -1.0, False), # a straight fall
     (0.0, -0.5, -0.5, True),   # falling ends with no net change: two turns
     (1.0, 1.0, -1.0, False),   # slopes of opposite signs: one turn, seen by the end slopes
