@@ -228,6 +228,25 @@ def test_more_trial_phases_never_hide_an_instability(split_rows):
     assert SPLIT.volume(row[0], row[1], result.trial, "stable") == liquid
 
 
+def test_the_stationary_points_handed_on_are_distinct(split_rows):
+    # Along an envelope the stationary points of one point start the next one's trials: the two lowest
+    # distinct ones (differing by more than 1e-4 in some mole fraction), never one twice.
+    z = np.array([0.5, 0.5])
+    row = min(split_rows, key=lambda r: abs(r[0] - 277.6))
+    result = tangent_plane_test(SPLIT, row[0], row[1], z)
+    stationary = result.stationary
+    assert stationary.shape == (2, 2)
+    assert np.max(np.abs(stationary[0] - stationary[1])) > 1e-4
+    assert np.allclose(stationary.sum(axis=1), 1.0, rtol=0, atol=1e-12)
+    assert np.max(np.abs(stationary[0] - result.trial)) < 1e-12  # the lowest first: the phase found
+    # just inside the dew curve of BLEND several trials run onto the one incipient liquid: it is handed
+    # on once
+    inside = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z)
+    rows = inside.stationary
+    assert len(rows) >= 1 and np.max(np.abs(rows[0] - inside.trial)) < 1e-12
+    assert all(np.max(np.abs(a - b)) > 1e-4 for i, a in enumerate(rows) for b in rows[i + 1:])
+
+
 # -- binary diagrams ---------------------------------------------------------------------------------
 
 def test_azeotrope_has_equal_phase_compositions():
