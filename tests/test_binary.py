@@ -48,6 +48,25 @@ def test_temperature_above_critical_of_second():
         pxy(PB, 450.0)
 
 
+def test_a_temperature_far_below_the_second_critical_temperature_is_refused_in_one_line():
+    # At 20 K n-butane's vapour pressure (Wilson's estimate) is far below any pressure worth tracing.
+    with pytest.raises(InputError, match=r"^--temperature 20 K is too far below the critical temperature of n-butane "
+                                         r"\(\S+ K\): its vapour pressure there is below \S+ Pa \(Wilson's estimate\); "
+                                         r"give a higher temperature$"):
+        pxy(PB, 20.0)
+
+
+def test_the_summary_gives_each_special_point_with_its_units():
+    mixture = Mixture((lookup("ethane"), lookup("carbon dioxide")), family("pr"), np.array([[0, 0.25], [0.25, 0]]))
+    diagram = pxy(mixture, 250.0)
+    (azeotrope,) = [sp for sp in diagram.special_points if sp["kind"] == "azeotrope"]
+    x1, P = azeotrope["values"]["x1"], azeotrope["values"]["P"]
+    lines = diagram.summary()
+    assert any(line.strip().endswith(f"x1 = {x1:.6g}, P = {P:.6g} Pa") for line in lines), lines
+    shown = diagram.summary(units="degC-bar")
+    assert any(line.strip().endswith(f"x1 = {x1:.6g}, P = {P / 1e5:.6g} bar") for line in shown), shown
+
+
 def _hk_at(mixture, x1):
     from contin_thermo.curves._mixture_critical import critical_point
 

@@ -155,14 +155,18 @@ def circle_land(before, after):
 
 def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
     crossing = Crossing(["d"], kind="critical", name="critical point", land=circle_land)
+    # an event that vanishes on the second family itself falls inside each jump too
+    on_family = contin.Event("d = 0", lambda u, p: u[1])
     branch = trace(CIRCLE, start=[-0.3, -0.4], parameters={"p": -0.3}, free="p", crossing=crossing,
-                   max_step=0.1, max_points=400)
+                   max_step=0.1, max_points=400, events=[on_family])
     assert branch.status.label == "closed_loop"
     critical = branch.special("critical")
     assert [sp.values["p"] for sp in critical] == [0.5, -0.5]
     assert [sp.info["gap"] for sp in critical] == [crossing.smallest_gap] * 2  # halved from 0.02
     folds = branch.special("fold")
     assert [sp.index for sp in folds] == [sp.index for sp in critical]
+    events = branch.special("event")
+    assert [(sp.index, sp.name, sp.info["terminal"]) for sp in events] == [(sp.index, "d = 0", False) for sp in critical]
     assert sum("lies within" in note for note in branch.stats["notes"]) == 2
     d = branch.column("d")
     for sp in critical:

@@ -1,6 +1,7 @@
 """Mixture phase envelopes: one run through cricondentherm, critical point and cricondenbar."""
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -196,6 +197,9 @@ def test_a_branch_that_turns_liquid_liquid_does_not_claim_the_bubble_point():
     assert sides[-1] == "liquid-liquid"
     first = sides.index("liquid-liquid")
     assert first > critical and set(sides[first:]) == {"liquid-liquid"}
+    T, P = envelope.rows[first][0], envelope.rows[first][1]
+    assert envelope.message == (f"stopped short of the bubble point: from T = {T:.6g} K, P = {P:.6g} Pa on (row {first}) "
+                                "both phases are liquid-like, a liquid-liquid split; a three-phase region is likely there")
     assert any("liquid-liquid" in line for line in envelope.summary())
 
 
@@ -248,6 +252,9 @@ def test_an_envelope_that_stops_says_where_in_temperature_pressure_and_compositi
     assert not envelope.success
     assert "lnK_" not in envelope.message and "lnV" not in envelope.message and "lnP" not in envelope.message
     assert " K, P = " in envelope.message and "incipient phase is nitrogen" in envelope.message
+    # the incipient phase's mole fractions, each component named once, in the feed's order, summing to 1
+    found = re.search(r"incipient phase is nitrogen (\S+), methane (\S+), n-octane ([^\s:]+)", envelope.message)
+    assert found and sum(float(v.rstrip(",")) for v in found.groups()) == pytest.approx(1.0, abs=3e-4)
 
 
 def test_a_dew_point_that_wilson_values_miss_is_found_by_successive_substitution():

@@ -289,6 +289,8 @@ def _hermite_turns(value_a, value_b, slope_a, slope_b, length):
     (-0.05, 2.0, 3.0, True),   # a small net fall between rising ends
     (1.0, 1.0, 1.0, False),    # a straight rise: no turn
     (0.9, 0.8, 1.1, False),    # a gentle rise
+    (0.5, 1.0, 1.0, False),    # a rise to half the end slopes' reach: p' dips to 1/4, no turn
+    (0.6, 2.0, 1.0, False),    # steep then gentle: p' stays positive
     (-1.0, -1.0, -1.0, False), # a straight fall
     (0.0, -0.5, -0.5, True),   # falling ends with no net change: two turns
     (1.0, 1.0, -1.0, False),   # slopes of opposite signs: one turn, seen by the end slopes
@@ -424,3 +426,11 @@ def test_a_level_of_a_coordinate_is_located_on_the_branch_between_two_points():
         assert 0.0 < located.fraction < 1.0
         assert located.value == 0.0 and located.located_to == 0.0
         assert abs(located.tangent @ np.array([located.x[1], -located.x[0]])) == pytest.approx(1.0, abs=1e-9)
+
+
+def test_a_start_on_a_bound_heading_out_ends_there_at_once():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (0.0, 1.0)}, direction=-1)
+    assert branch.status is contin.Status.BOUND_REACHED and len(branch) == 1
+    (bound,) = branch.special("bound")
+    assert (bound.index, bound.name, bound.values) == (0, "p = 0", {"u": 0.0, "p": 0.0})
+    assert bound.residual_norm == branch.residual_norms[0] and bound.located_to == 0.0

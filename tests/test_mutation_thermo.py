@@ -119,6 +119,20 @@ def test_the_model_and_the_units_of_every_column_are_written(envelope, tmp_path)
         assert line == (f"# units: {expected}, side [-], v_feed [m3/mol], v_incipient [m3/mol], stable [-], "
                         "K_methane [-], K_propane [-]")
     assert lines["si"] != lines["degC-bar"]
+    # each special point is written in the header with its exact T and P (in SI units)
+    text = Path(envelope.to_csv(tmp_path / "notes.csv")).read_text()
+    for sp in envelope.special_points:
+        assert f"# {sp['kind']}: T = {sp['values']['T']!r} K, P = {sp['values']['P']!r} Pa\n" in text
+
+
+def test_a_start_pressure_above_the_envelope_is_refused_in_one_line():
+    # 20 MPa lies above this blend's cricondenbar (8.8 MPa under PR): no dew point there.
+    from contin import InputError
+    from contin_thermo.curves._envelope import dew_point
+
+    with pytest.raises(InputError, match=r"^--from-pressure 2e\+07 Pa: no two-phase point found from Wilson's "
+                                         r"K-values \(residual \S+\); try another pressure$"):
+        dew_point(BLEND, Z, 2e7)
 
 
 # -- stability ---------------------------------------------------------------------------------------
@@ -148,6 +162,22 @@ def test_a_known_phase_is_not_taken_for_a_new_one():
     for known in ((inside.trial, decoy), (decoy, inside.trial)):
         again = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z, known=known)
         assert again.stable and again.tm == 0.0
+
+
+def test_a_known_phase_with_one_volume_root_is_recognised_on_either_root(envelope):
+    # Just past the critical point, 1e-4 below the bubble pressure, the only phase below the plane is
+    # the incipient one, so near the critical point that the cubic has one root for it: a trial forced
+    # onto the "vapour" or the "liquid" root lands on the same phase. Named as known, it is not new.
+    critical = envelope.special("critical")["index"]
+    row = envelope.rows[critical + 3]
+    assert row[2] == "bubble"
+    T, P = row[0], row[1] * (1 - 1e-4)
+    inside = tangent_plane_test(BLEND, T, P, Z)
+    assert not inside.stable and inside.tm < -1e-7
+    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
+    assert liquid == vapour
+    again = tangent_plane_test(BLEND, T, P, Z, known=(inside.trial,))
+    assert again.stable and again.tm == 0.0
 
 
 # An invented, strongly non-ideal kij (0.2, demo value) between propane and n-pentane: their liquids
@@ -196,6 +226,25 @@ def test_more_trial_phases_never_hide_an_instability(split_rows):
     liquid, vapour = SPLIT.volume_roots(row[0], row[1], result.trial)
     assert vapour > 10 * liquid
     assert SPLIT.volume(row[0], row[1], result.trial, "stable") == liquid
+
+
+def test_the_stationary_points_handed_on_are_distinct(split_rows):
+    # Along an envelope the stationary points of one point start the next one's trials: the two lowest
+    # distinct ones (differing by more than 1e-4 in some mole fraction), never one twice.
+    z = np.array([0.5, 0.5])
+    row = min(split_rows, key=lambda r: abs(r[0] - 277.6))
+    result = tangent_plane_test(SPLIT, row[0], row[1], z)
+    stationary = result.stationary
+    assert stationary.shape == (2, 2)
+    assert np.max(np.abs(stationary[0] - stationary[1])) > 1e-4
+    assert np.allclose(stationary.sum(axis=1), 1.0, rtol=0, atol=1e-12)
+    assert np.max(np.abs(stationary[0] - result.trial)) < 1e-12  # the lowest first: the phase found
+    # just inside the dew curve of BLEND several trials run onto the one incipient liquid: it is handed
+    # on once
+    inside = tangent_plane_test(BLEND, DEW_T, DEW_P * (1 + 1e-4), Z)
+    rows = inside.stationary
+    assert len(rows) >= 1 and np.max(np.abs(rows[0] - inside.trial)) < 1e-12
+    assert all(np.max(np.abs(a - b)) > 1e-4 for i, a in enumerate(rows) for b in rows[i + 1:])
 
 
 # -- binary diagrams ---------------------------------------------------------------------------------
