@@ -330,3 +330,18 @@ def test_jacobian_of_the_wrong_shape_is_refused():
                                    parameter_jacobian=lambda u, p: [[1.0], [2.0]])
     with pytest.raises(contin.InputError, match=r"parameter_jacobian returned an array of shape \(2, 1\)"):
         contin.trace(system, {"u": 0.0}, free="p")
+
+
+def test_messages_describe_points_in_the_callers_words_and_fall_back_when_that_fails():
+    # u = exp(s) traced in the logarithm s: the caller says where the trace ended in u itself
+    system = contin.SymbolicSystem({"f": "s - log(q)"}, {"s": 0.0}, {"q": 1.0})
+    words = contin.trace(system, free="q", bounds={"q": (0.5, 2.0)}, step=0.1,
+                         describe=lambda x: f"u = {math.exp(x[0]):.6g} at q = {x[1]:.6g}")
+    assert words.status is contin.Status.BOUND_REACHED
+    assert words.message.endswith("q = 2 at u = 2 at q = 2")
+
+    def broken(x):
+        raise ValueError("no words")
+
+    plain = contin.trace(system, free="q", bounds={"q": (0.5, 2.0)}, step=0.1, describe=broken)
+    assert plain.message.endswith("q = 2 at s = 0.693147, q = 2")

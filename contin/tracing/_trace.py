@@ -165,6 +165,7 @@ def trace(
     tangent: Sequence[float] | None = None,
     options: TraceOptions | None = None,
     on_point: Callable[[int, np.ndarray, Sequence[SpecialPoint]], None] | None = None,
+    describe: Callable[[np.ndarray], str] | None = None,
     throw: bool = False,
 ) -> Branch:
     """Trace the branch of F(u, p) = 0 through ``start`` by pseudo-arclength continuation.
@@ -218,6 +219,9 @@ def trace(
             dF/du may be singular there. ``direction`` = -1 reverses it.
         on_point: called as ``on_point(index, x, special_points)`` after each accepted point, with the
             special points found so far (read them, do not change them); e.g. for a progress line.
+        describe: a point x = (u, p_free) in the caller's own words, for the trace's messages and notes
+            (e.g. a temperature and a pressure where the unknowns are logarithms); by default each
+            coordinate by its name. If it raises, the default is used.
         throw: raise :class:`TraceError` (with the partial branch) instead of returning an unsuccessful one.
 
     Returns:
@@ -276,6 +280,7 @@ def trace(
                              f"{', '.join(columns)})")
         initial = options.direction * initial / np.linalg.norm(initial)
     run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
+    run.in_words = describe
     if crossing is not None:
         if not isinstance(crossing, Crossing):
             raise InputError(f"crossing must be a contin.Crossing, got {type(crossing).__name__}")
@@ -322,6 +327,7 @@ class _Run:
         self.events = events
         self.on_point = on_point
         self.controller = StepController(options.min_step, options.max_step, options.max_turn)
+        self.in_words: Callable[[np.ndarray], str] | None = None  # the caller's describe, if any
         self.rows: list[np.ndarray] = []
         self.tangents: list[np.ndarray] = []
         self.steps: list[float] = []
@@ -362,7 +368,13 @@ class _Run:
 
     def describe(self, x: np.ndarray) -> str:
         """The point in words; a large system (more than DESCRIBED_COORDINATES coordinates) shows its first
-        unknowns, the largest in size, and the free parameter, so a message stays one readable line."""
+        unknowns, the largest in size, and the free parameter, so a message stays one readable line.
+        A caller's ``describe`` takes precedence."""
+        if self.in_words is not None:
+            try:
+                return str(self.in_words(np.array(x, dtype=float)))
+            except Exception:  # a message must still be written: fall back to the coordinates
+                pass
         pairs = list(zip(self.columns, x))
         if len(pairs) > DESCRIBED_COORDINATES:
             largest = int(np.argmax(np.abs(x[:-1])))

@@ -613,6 +613,7 @@ def _trace_branch(mixture: Mixture, z: np.ndarray, system: EnvelopeSystem, x0: n
         system, x0[:-1], free="lnP", parameters={"lnP": float(x0[-1])}, direction=1, step=_STEP,
         max_step=_MAX_STEP, min_step=1e-9, max_points=max_points, tolerance=_TOLERANCE,
         bounds=bounds, folds=("lnT",), corrector="local", crossing=crossing, on_point=on_point,
+        describe=_in_users_terms(mixture, z),
     )
 
 
@@ -787,7 +788,7 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
         specials.append(_special("cricondenbar", sp.index, T[sp.index], P[sp.index], sp.located_to,
                                  {"dP_dT": float(slope)}, sp.residual_norm))
     specials.sort(key=lambda s: (s["index"], s["kind"]))
-    status, message, success = branch.status.label, _in_users_terms(branch.message, mixture, z, points[-1]), branch.status.success
+    status, message, success = branch.status.label, branch.message, branch.status.success
     problems = []
     critical_rows = {sp.index for sp in critical}
     trivial = [i for i in range(len(points)) if i not in critical_rows and np.max(np.abs(lnK[i])) < _TRIVIAL]
@@ -839,20 +840,18 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     return rows, columns, specials, (status, message, success), notes
 
 
-def _in_users_terms(message: str, mixture: Mixture, z: np.ndarray, x: np.ndarray) -> str:
-    """The engine's message with its internal coordinates (ln K, ln T, ln V, ln P) told as T, P and the
-    incipient phase's composition."""
-    marker = " after the point lnK_"
-    if marker not in message:
-        return message
-    head, _, rest = message.partition(marker)
-    reason = rest.split(": ", 1)[1] if ": " in rest else ""
+def _in_users_terms(mixture: Mixture, z: np.ndarray):
+    """A point of the envelope system (ln K, ln T, ln V, ln P) told as T, P and the incipient phase's
+    composition: the engine's ``describe`` for the envelope's messages and notes."""
     n = mixture.size
-    w = np.exp(x[:n]) * z
-    w = w / w.sum()
-    composition = ", ".join(f"{name} {fraction:.4g}" for name, fraction in zip(mixture.names, w))
-    return (f"{head} after the point T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa, where the "
-            f"incipient phase is {composition}" + (f": {reason}" if reason else ""))
+
+    def describe(x: np.ndarray) -> str:
+        w = np.exp(x[:n]) * z
+        w = w / w.sum()
+        composition = ", ".join(f"{name} {fraction:.4g}" for name, fraction in zip(mixture.names, w))
+        return f"T = {math.exp(x[n]):.6g} K, P = {math.exp(x[-1]):.6g} Pa, where the incipient phase is {composition}"
+
+    return describe
 
 
 def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_stability) -> Envelope:
