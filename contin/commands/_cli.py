@@ -271,7 +271,7 @@ def _sweep(namespace: argparse.Namespace) -> int:
     if problem.sweep is None:
         raise InputError(f"{path}: has no [sweep] section; add one, e.g. [sweep] over = {{ B = [1.0, 2.0] }}")
     folder = namespace.out if namespace.out is not None else problem.sweep["output"]
-    runs = run_sweep(problem_task(text, str(path)), problem.sweep["over"], folder, workers=namespace.workers,
+    runs = run_sweep(problem_task(text, str(path), problem), problem.sweep["over"], folder, workers=namespace.workers,
                      scheduler=namespace.scheduler, timeout=namespace.timeout, warm=not namespace.cold)
     print(sweep_report(runs, path.name, folder))
     return 0 if all(run.success for run in runs) else 1

@@ -81,11 +81,17 @@ class SweepTask:
     start_of: Callable[[dict], object] | None = None
 
 
-def problem_task(text: str, label: str) -> SweepTask:
-    """The sweep task of a problem file: trace its text once per combination (``contin sweep``)."""
-    from ..systems._problem import problem_from_text
+def problem_task(text: str, label: str, problem=None) -> SweepTask:
+    """The sweep task of a problem file: trace its text once per combination (``contin sweep``).
 
-    unknowns = list(problem_from_text(text, label).system.unknowns)  # checked here, before any worker starts
+    ``problem``: the text already loaded (a :class:`~contin.Problem`), so it is not read twice; else it
+    is loaded and checked here, before any worker starts.
+    """
+    if problem is None:
+        from ..systems._problem import problem_from_text
+
+        problem = problem_from_text(text, label)
+    unknowns = list(problem.system.unknowns)
 
     def start_of(document: dict) -> dict | None:
         if not document.get("points"):
