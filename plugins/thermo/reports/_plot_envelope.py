@@ -75,10 +75,12 @@ def draw_envelope(envelope, axes=None):
         t, p = sp["values"]["T"], sp["values"]["P"] / 1e5
         mark_special(axes, sp["kind"], t, p)
         right = t > 0.5 * (np.nanmin(T) + np.nanmax(T))
-        below = sp["kind"] == "cricondenbar"  # the top of the envelope: label it under the marker
+        top = sp["kind"] == "cricondenbar"  # the top of the envelope: above and to the right, in the headroom
         axes.annotate(f"{label}\n{t:.2f} K, {p:.2f} bar", (t, p), textcoords="offset points",
-                      xytext=(10, -30) if below else (-10, 6) if right else (8, 6),
-                      ha="left" if below else "right" if right else "left", fontsize=8)
+                      xytext=(8, 8) if top else (-10, 6) if right else (8, 6),
+                      ha="left" if top else "right" if right else "left", fontsize=8)
+    low, high = axes.get_ylim()
+    axes.set_ylim(low, high + 0.1 * (high - low))  # room for the labels of points at the top, inside the axes
     axes.set_xlabel(axis_label("temperature T", "K"))
     axes.set_ylabel(axis_label("pressure P", "bar"))
     feed = ", ".join(f"{n} {v:.3g}" for n, v in zip(envelope.mixture.names, envelope.z))
