@@ -86,3 +86,16 @@ def test_at_one_point_the_bound_comes_before_an_event_and_ends_the_trace():
     branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-0.5, 1.0)}, events=[event])
     assert branch.status is contin.Status.BOUND_REACHED
     assert [(sp.kind, sp.values["p"]) for sp in branch.special_points] == [("bound", 1.0)]
+
+
+def test_a_double_zero_of_the_branch_point_test_is_stepped_past_not_retried():
+    # Catches the trend check without its agreement test (two lines through |det| that disagree on
+    # where it vanishes): on u = lam, (u - lam)(u^2 + lam^2) has gradient 2 lam^2 (1, -1), a double zero
+    # at the origin with no sign change and no second branch (exact). The prediction runs ahead of
+    # every step there, so the steps are taken, not retried down to min_step.
+    system = contin.SymbolicSystem({"f": "(u - lam)*(u**2 + lam**2)"}, {"u": -0.5}, {"lam": -0.5})
+    branch = contin.trace(system, free="lam", bounds={"lam": (-0.5, 0.5)}, max_points=400)
+    assert branch.status is contin.Status.BOUND_REACHED
+    assert branch.column("lam")[-1] == pytest.approx(0.5, abs=1e-12)
+    assert np.abs(branch.column("u") - branch.column("lam")).max() <= 1e-12
+    assert branch.stats["rejections"].get("special point not located", 0) == 0
