@@ -36,7 +36,7 @@ WORK = ROOT  # the private copy being mutated (set by main)
 
 _TRACING_TESTS = (
     "tests/test_trace.py", "tests/test_failures.py", "tests/test_crossing.py",
-    "tests/test_mutation_engine.py",
+    "tests/test_mutation_engine.py", "tests/test_mutation_tracing_more.py",
 )
 _ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py")
 # module name -> (source file, the tests of that feature run against each of its mutants)
