@@ -51,12 +51,13 @@ MODULES = {
     "record": ("contin/results/_record.py", ("tests/test_record.py", "tests/test_mutation_engine.py")),
     "envelope": ("plugins/thermo/curves/_envelope.py", _ENVELOPE_TESTS),
     "stability": ("plugins/thermo/curves/_stability.py",
-                  ("tests/test_stability.py", "tests/test_mutation_thermo.py")),
+                  ("tests/test_stability.py", "tests/test_mutation_thermo.py",
+                   "tests/test_mutation_curves_more.py")),
     "binary": ("plugins/thermo/curves/_binary.py",
                ("tests/test_binary.py", "tests/test_mutation_thermo.py")),
     "mixture_critical": ("plugins/thermo/curves/_mixture_critical.py",
                          ("tests/test_mixture_critical.py", "tests/test_binary.py",
-                          "tests/test_mutation_thermo.py")),
+                          "tests/test_mutation_thermo.py", "tests/test_mutation_curves_more.py")),
 }
 
 

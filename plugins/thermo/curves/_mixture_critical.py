@@ -64,6 +64,12 @@ def critical_conditions(mixture: Mixture, z: np.ndarray, T: float, v: float) -> 
     return float(values[0]), mixture.cubic_form(T, v, z, dn)
 
 
+# A sign change of the cubic form C that leaves |C| above this fraction of its size at the ends of the
+# bracket is a jump, not a root: C is odd in dn, whose sign is fixed by b . dn > 0, so C changes sign
+# by a jump where b . dn passes through zero. At a root bracketed to 1e-15 |C| is below 1e-12 of it.
+_JUMP = 1e-6
+
+
 def _temperature_of_zero_eigenvalue(mixture: Mixture, z: np.ndarray, v: float, T_high: float) -> float | None:
     def f(lnT):
         return critical_conditions(mixture, z, math.exp(lnT), v)[0]
@@ -105,7 +111,10 @@ def critical_points(mixture: Mixture, z: Sequence[float]) -> list[CriticalPoint]
         (ca, Ta), (cb, Tb) = values[k], values[k + 1]
         if math.isfinite(ca) and math.isfinite(cb) and (ca > 0) != (cb > 0):
             ln_kappa = brentq(lambda x: cubic_at(x)[0], kappas[k], kappas[k + 1], xtol=1e-15, rtol=1e-15)
-            found.append(_polish(mixture, z, cubic_at(ln_kappa)[1], math.exp(ln_kappa) * b))
+            cubic, T = cubic_at(ln_kappa)
+            if not abs(cubic) < _JUMP * max(abs(ca), abs(cb)):
+                continue  # C jumped across zero where b . dn = 0 flips dn's sign: not a root
+            found.append(_polish(mixture, z, T, math.exp(ln_kappa) * b))
     return sorted(found, key=lambda c: c.T)
 
 

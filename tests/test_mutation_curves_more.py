@@ -1,0 +1,180 @@
+"""Stability and mixture-critical behaviours that the sampled mutation run (seed 1) slipped past.
+
+Found by mutation testing (benchmarks/mutation.py --modules stability mixture_critical --sample 20
+--seed 1); each test names the break it catches.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.optimize import minimize_scalar
+
+from contin import InputError
+from contin_thermo.curves._envelope import trace_envelope
+from contin_thermo.curves._mixture_critical import (
+    _temperature_of_zero_eigenvalue, critical_conditions, critical_point, critical_points, polish_critical)
+from contin_thermo.curves._stability import _newton, _pure_trials, ln_phi_batch, tangent_plane_test
+from contin_thermo.models._components import lookup
+from contin_thermo.models._eos import family
+from contin_thermo.models._mixture import Mixture
+
+# An invented 50/50 blend (demo composition) under Peng-Robinson.
+BLEND = Mixture((lookup("methane"), lookup("propane")), family("pr"))
+Z = np.array([0.5, 0.5])
+
+
+def _feed_d(mixture, T, P, z):
+    return np.log(z) + ln_phi_batch(mixture, T, P, z[None, :])[0]
+
+
+# -- stability ---------------------------------------------------------------------------------------
+
+def test_a_known_phase_with_one_volume_root_handed_back_as_a_trial_is_not_new():
+    # Along an envelope the phase found at one point is handed to the next as a start trial, on no
+    # forced root. Just past the critical point the cubic has one root for it: that root is both the
+    # liquid and the vapour one, so the trial is the known phase whichever root it is counted on.
+    # (Breaks: the one-root guard of _roots_used dropped.)
+    envelope = trace_envelope(BLEND, Z, check_stability=False)
+    row = envelope.rows[envelope.special("critical")["index"] + 4]
+    assert row[2] == "bubble"
+    T, P = row[0], row[1] * (1 - 1e-3)
+    inside = tangent_plane_test(BLEND, T, P, Z)
+    assert not inside.stable and inside.tm < -1e-6
+    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
+    assert liquid == vapour
+    again = tangent_plane_test(BLEND, T, P, Z, known=(inside.trial,), start=inside.trial[None, :])
+    assert again.stable and again.tm == 0.0
+
+
+def _liquid_stationary_point(T, P, upper):
+    """The liquid-root stationary point of the tangent-plane distance D(x1) = sum x_i (ln x_i +
+    ln phi_i(x) - d_i) of BLEND's feed, by a bounded scalar minimisation (independent of the trials)."""
+    d = _feed_d(BLEND, T, P, Z)
+
+    def distance(x1):
+        x = np.array([[x1, 1.0 - x1]])
+        return float(np.sum(x * (np.log(x) + ln_phi_batch(BLEND, T, P, x, None, np.array([1])) - d)))
+
+    return minimize_scalar(distance, bounds=(1e-3, upper), method="bounded", options={"xatol": 1e-10}).x
+
+
+def test_trials_running_onto_one_stationary_point_hand_it_on_once():
+    # 300 K, 0.42 MPa: the blend is a stable vapour. Wilson's liquid-like trial and the nearly pure
+    # propane trial (both on the liquid root) run onto the same liquid-like stationary point, far
+    # above the plane: it is handed on once, not twice. (Breaks: _distinct not de-duplicating.)
+    T, P = 300.0, 4.2e5
+    result = tangent_plane_test(BLEND, T, P, Z)
+    assert result.stable and result.tm == 0.0
+    assert result.stationary.shape == (1, 2)
+    # (the liquid root exists up to x1 of about 0.3 there)
+    assert abs(result.stationary[0, 0] - _liquid_stationary_point(T, P, 0.2)) < 1e-5
+
+
+def test_trials_that_cannot_reach_the_plane_are_dropped_early():
+    # 320 K, 0.2 MPa: a stable vapour. Two trials fall onto the feed within three sweeps; the two on
+    # the liquid root settle geometrically (tm falls about tenfold per sweep) onto a stationary point
+    # with tm about 0.91, and the extrapolated limit of tm, far above zero, drops them at the fourth
+    # sweep instead of the fifteenth. The answer is the same either way; the work is not.
+    # (Breaks: the sign of the fall of tm in that extrapolation.)
+    T, P = 320.0, 2e5
+    result = tangent_plane_test(BLEND, T, P, Z)
+    assert result.stable and result.tm == 0.0
+    trials = 2 + len(_pure_trials(2))
+    assert result.iterations <= 4 * trials
+
+
+def test_newton_counts_the_steps_it_takes():
+    # The iteration count of a result adds Newton's steps: from a start that is not converged after
+    # two steps, with a limit of two, it took two. (Breaks: each step counted twice.)
+    T, P = 250.0, 3e6  # inside the blend's two-phase region (tests/test_stability.py)
+    d = _feed_d(BLEND, T, P, Z)
+    for limit in (1, 2):
+        *_, count, _ = _newton(BLEND, T, P, d, np.log(np.array([0.3, 0.7])), iterations=limit)
+        assert count == limit
+
+
+# -- mixture critical points -------------------------------------------------------------------------
+
+SRK_BLEND = Mixture((lookup("methane"), lookup("n-butane")), family("srk"))
+Z_SRK = np.array([0.7, 0.3])
+
+
+@pytest.fixture(scope="module")
+def srk_point():
+    return critical_point(SRK_BLEND, Z_SRK)
+
+
+def test_the_zero_eigenvalue_is_found_in_the_first_interval_of_the_temperature_grid(srk_point):
+    # At the critical volume the highest temperature with a zero smallest eigenvalue is the critical
+    # temperature. Searched from just above it (1 % above: inside the grid's first interval, a step
+    # of 20**(1/59) = 5.2 %) it is the same temperature. (Breaks: the grid skipping its first interval,
+    # or bracketing across two intervals.)
+    T = _temperature_of_zero_eigenvalue(SRK_BLEND, Z_SRK, srk_point.v, 1.01 * srk_point.T)
+    assert T == pytest.approx(srk_point.T, rel=1e-10)
+    assert critical_conditions(SRK_BLEND, Z_SRK, 1.001 * T, srk_point.v)[0] > 0
+
+
+def test_newton_polish_converges_quadratically_from_nearby(srk_point):
+    # From 4e-4 off in ln T and ln v Newton lands on the same point to round-off within its six steps,
+    # and says so with a last step below 1e-12. (Breaks: a Jacobian off by a factor, which only
+    # converges linearly.)
+    point, last = polish_critical(SRK_BLEND, Z_SRK, srk_point.T * math.exp(4e-4), srk_point.v * math.exp(-4e-4))
+    assert last < 1e-12
+    assert point.T == pytest.approx(srk_point.T, rel=1e-12) and point.v == pytest.approx(srk_point.v, rel=1e-12)
+
+
+def test_newton_polish_from_far_away_says_it_did_not_converge(srk_point):
+    # 5 % off in T, 10 % in v the first step is larger than the largest allowed: the step is reported
+    # infinite, the sign that the point is not known. (Breaks: that step reported as None.)
+    _, last = polish_critical(SRK_BLEND, Z_SRK, 1.05 * srk_point.T, 0.9 * srk_point.v)
+    assert last == math.inf
+
+
+# Methane and water under PR with no interaction parameter: a binary whose critical line from water's
+# critical point runs to very high pressures (type III of van Konynenburg and Scott, from memory).
+WATER = Mixture((lookup("methane"), lookup("water")), family("pr"))
+
+
+def test_a_composition_with_two_critical_points_gives_both_and_the_one_asked_for():
+    # 99 % methane: one critical point near methane's own, and a colder one at negative pressure (a
+    # solution of the model's criterion with no physical meaning); sorted by T, the hotter by default.
+    z = np.array([0.99, 0.01])
+    found = critical_points(WATER, z)
+    assert len(found) == 2 and found[0].T < found[1].T
+    assert found[0].P < 0 < found[1].P
+    for point in found:
+        eigenvalue, cubic = critical_conditions(WATER, z, point.T, point.v)
+        assert abs(eigenvalue) < 1e-9 and abs(cubic) < 1e-9
+    assert critical_point(WATER, z) == found[1]
+    assert critical_point(WATER, z, near=(found[0].T, found[0].P)) == found[0]
+
+
+def test_a_jump_of_the_cubic_form_is_not_a_critical_point():
+    # 30 % methane: the cubic form C changes sign twice along the zero-eigenvalue line, once through
+    # zero (the critical point near 593 K) and once by a jump near V/b = 1.11, where b . dn passes
+    # through zero and the sign convention flips dn (C is odd in dn). The jump was reported as a
+    # second "critical point" at 622 K and 1.8 GPa with C = 0.35.
+    z = np.array([0.3, 0.7])
+    (point,) = critical_points(WATER, z)
+    eigenvalue, cubic = critical_conditions(WATER, z, point.T, point.v)
+    assert abs(eigenvalue) < 1e-9 and abs(cubic) < 1e-9
+    assert 590.0 < point.T < 600.0
+
+
+def test_a_composition_with_no_critical_point_is_refused_in_one_line():
+    # Methane-rich: the line from water's critical point does not reach it at V/b above 1.05 and the
+    # short line from methane's critical point ends near pure methane: no critical point is found.
+    assert critical_points(WATER, [0.95, 0.05]) == []
+    with pytest.raises(InputError) as error:
+        critical_point(WATER, [0.95, 0.05])
+    assert str(error.value) == ("no mixture critical point was found for this composition "
+                                "(Heidemann-Khalil criterion)")
+
+
+@pytest.mark.parametrize("z", [[0.5], [0.5, -0.1], [0.0, 0.0]])
+def test_a_composition_that_does_not_fit_the_mixture_is_refused_in_one_line(z):
+    with pytest.raises(InputError, match=r"^the composition must hold 2 non-negative mole fractions$"):
+        critical_points(WATER, z)
