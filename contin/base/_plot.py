@@ -49,21 +49,19 @@ def mark_special(ax, kind: str, x: float, y: float, *, label: str | None = None,
         kind: the special point's kind (its marker from :data:`KIND_STYLES`).
         x, y: where.
         label: legend label (None: not in the legend).
-        words: text written beside the marker (None: none); it is kept inside the axes: to the left of
-            the marker in the right part of the axes, below it near the top.
+        words: text written beside the marker (None: none); it is kept inside the axes, to the left of
+            the marker in the right half of the axes.
         offset: offset of the text in points.
     """
     marker = KIND_STYLES.get(kind, ("o", kind))[0]
     ax.plot([x], [y], marker, ms=9 if marker == "*" else 7, mfc="white" if marker == "o" else None,
             color="black", label=label, zorder=5)
     if words:
-        ax.get_xlim(), ax.get_ylim()  # settle the limits before asking where the point falls
-        across, up = ax.transAxes.inverted().transform(ax.transData.transform((x, y)))
-        right, top = across > 0.6, up > 0.85  # (axes fractions: linear and log axes alike)
+        low, high = ax.get_xlim()
+        right = high > low and (x - low) > 0.6 * (high - low)
         dx = -abs(offset[0]) if right else abs(offset[0])
-        dy = -abs(offset[1]) if top else offset[1]
-        ax.annotate(words, (x, y), textcoords="offset points", xytext=(dx, dy), fontsize=8,
-                    ha="right" if right else "left", va="top" if top else "baseline", annotation_clip=True)
+        ax.annotate(words, (x, y), textcoords="offset points", xytext=(dx, offset[1]), fontsize=8,
+                    ha="right" if right else "left", annotation_clip=True)
 
 
 def smooth_xy(x: np.ndarray, y: np.ndarray, *, log_x: bool = False, log_y: bool = False, samples: int = 10):
