@@ -279,8 +279,7 @@ def trace(
             raise InputError(f"tangent must be {len(columns)} finite numbers, not all zero (coordinates: "
                              f"{', '.join(columns)})")
         initial = options.direction * initial / np.linalg.norm(initial)
-    run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point)
-    run.in_words = describe
+    run = _Run(system, extended, columns, options, bound_list, at_list, fold_list, list(events), on_point, describe)
     if crossing is not None:
         if not isinstance(crossing, Crossing):
             raise InputError(f"crossing must be a contin.Crossing, got {type(crossing).__name__}")
@@ -316,7 +315,8 @@ def trace(
 class _Run:
     """The mutable state of one trace; private to :func:`trace`."""
 
-    def __init__(self, system, extended, columns, options, bounds, at, folds, events, on_point) -> None:
+    def __init__(self, system, extended, columns, options, bounds, at, folds, events, on_point,
+                 in_words: Callable[[np.ndarray], str] | None = None) -> None:
         self.system = system
         self.extended = extended
         self.columns = columns
@@ -327,7 +327,7 @@ class _Run:
         self.events = events
         self.on_point = on_point
         self.controller = StepController(options.min_step, options.max_step, options.max_turn)
-        self.in_words: Callable[[np.ndarray], str] | None = None  # the caller's describe, if any
+        self.in_words = in_words  # the caller's describe, if any
         self.rows: list[np.ndarray] = []
         self.tangents: list[np.ndarray] = []
         self.steps: list[float] = []
@@ -722,8 +722,6 @@ class _Run:
         falling = (math.expm1(min(log_a - log_b, 700.0))
                    if sign_a == sign_b != 0 and math.isfinite(log_a) and math.isfinite(log_b) else 0.0)
         self.zero_ahead = chord / falling if falling > 0.0 else None
-        if self.zero_ahead is None:
-            self.zero_ahead_before = None
 
     def _special_points(self, a, b, correction, signs=(0, 0, 0), force: bool = False) -> bool | None:
         """Locate what lies between accepted points a and b, append them and b.
