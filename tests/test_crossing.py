@@ -187,3 +187,53 @@ def test_a_crossing_gap_may_not_reach_near_and_a_landing_is_frozen():
     landing = Landing(np.zeros(3), located_to=0.0)
     with pytest.raises(dataclasses.FrozenInstanceError):
         landing.located_to = 1.0
+
+
+# A passage step that fails. The residual is not a number where the approach side's d lies in a band
+# (as an equation of state may fail to give a root there); the passage must then bring its levels of d
+# closer to the last point, and give up with a message once they cannot come closer.
+def banded(lower, upper, once=False):
+    tried = []
+
+    def residual_with_a_band(u, p):
+        d = u[1]
+        if lower < d < upper and not (once and tried):
+            tried.append(float(d))
+            return np.full(2, np.nan)
+        return residual(u, p)
+
+    system = CallableSystem(residual_with_a_band, ["a", "d"], {"p": 0.0}, jacobian=jacobian,
+                            parameter_jacobian=parameter_jacobian)
+    return system, tried
+
+
+def test_a_passage_step_that_fails_is_retried_with_levels_closer_to_the_last_point():
+    # The first approach level, d = -0.1 * 0.6 = -0.06, fails once; the retry goes a quarter of the
+    # way less, to -0.1 * 0.8 = -0.08 (the ratio brought halfway to one), and the passage then goes on.
+    system, tried = banded(-0.07, -0.05, once=True)
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(system, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, **start())
+    assert branch.status.label == "bound_reached"
+    assert tried == [pytest.approx(-0.06, rel=1e-12)]
+    d = branch.column("d")
+    begins = int(np.flatnonzero(np.abs(d + 0.1) < 1e-12)[0])
+    assert d[begins + 1] == pytest.approx(-0.08, rel=1e-12)
+    # after a success the ratio moves back from 0.8 by 1.25 times its distance to one: 0.75
+    assert d[begins + 2] == pytest.approx(-0.06, rel=1e-12)
+    assert branch.special("critical")[0].point == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
+
+
+def test_a_passage_that_cannot_come_closer_stops_with_a_message_naming_the_last_point():
+    # Every level in (-0.0795, -0.03) fails. From d = -0.08 the passage tries -0.06 (ratio 0.75),
+    # -0.07 (0.875), -0.075 (0.9375), -0.0775 (0.96875): the ratio has reached 0.95, so it stops.
+    system, tried = banded(-0.0795, -0.03)
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(system, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, **start())
+    assert branch.status.label == "step_too_small"
+    assert tried == pytest.approx([-0.06, -0.06, -0.07, -0.075, -0.0775], rel=1e-12)
+    assert branch.column("d")[-1] == pytest.approx(-0.08, rel=1e-12)
+    assert branch.message == ("stopped: the step size fell below min_step: the passage of the critical point "
+                              "failed after the point a = 0.4568, d = -0.08, p = 0.5368: non-finite residual "
+                              "at the predicted point")
+    assert branch.stats["rejections"] == {"non-finite residual at the predicted point": 5}
+    assert branch.special("critical") == ()

@@ -178,3 +178,32 @@ def test_a_composition_with_no_critical_point_is_refused_in_one_line():
 def test_a_composition_that_does_not_fit_the_mixture_is_refused_in_one_line(z):
     with pytest.raises(InputError, match=r"^the composition must hold 2 non-negative mole fractions$"):
         critical_points(WATER, z)
+
+
+class _IdealBox:
+    """A stand-in for a mixture: two components of one co-volume and the ideal-gas pressure, for
+    checking where the critical-point search looks (its conditions are replaced in the test)."""
+
+    size = 2
+    b = np.array([1e-4, 1e-4])
+    Tc = np.array([300.0, 400.0])
+
+    def pressure(self, T, v, z):
+        return 8.314462618 * T / v
+
+
+@pytest.mark.parametrize("kappa", [1.06, 4.0, 19.5])
+def test_the_search_covers_every_interval_of_its_volume_grid(monkeypatch, kappa):
+    # The search's stated range is 1.05 < V/b < 20. Conditions with one root, at T = 350 K and
+    # V/b = kappa, stand for a fluid's: the root is found wherever it lies in that range, the first and
+    # the last interval of the grid included, and polished to round-off.
+    from contin_thermo.curves import _mixture_critical as module
+
+    def conditions(mixture, z, T, v):
+        return T - 350.0, v / float(mixture.b @ z) - kappa
+
+    monkeypatch.setattr(module, "critical_conditions", conditions)
+    (point,) = module.critical_points(_IdealBox(), [0.5, 0.5])
+    assert point.T == pytest.approx(350.0, rel=1e-12)
+    assert point.v == pytest.approx(kappa * 1e-4, rel=1e-12)
+    assert point.P == pytest.approx(8.314462618 * 350.0 / (kappa * 1e-4), rel=1e-12)
