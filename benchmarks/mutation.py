@@ -9,7 +9,10 @@ flipped comparison or sign, a changed number, a dropped keyword, ...), the mutat
 place, the tests of that feature are run against it, and the original is put back. A mutant is
 *killed* when the tests fail, *survived* when they pass, *timed out* when they run longer than
 ``--timeout-factor`` times the unmutated run, and *not covered* when no test of the feature runs its
-line (counted as a survivor: no test can catch it). Branch coverage (coverage.py) of the same tests
+line (counted as a survivor: no test can catch it). A survivor listed under "Equivalent mutants" in
+DEVELOPERS.md (a change no test can tell from the source, with the reason) counts as *equivalent*;
+``killed_ratio`` is over every mutant tried, ``score`` over those that are not equivalent, and a listed
+mutant that a test kills is reported, since the list is then wrong. Branch coverage (coverage.py) of the same tests
 is reported per module, with the lines no test reaches.
 
 ``--sample N`` draws N mutants per module with a fixed seed (``--seed``); ``--budget`` stops the
@@ -24,6 +27,7 @@ import difflib
 import json
 import os
 import random
+import re
 import shutil
 import subprocess
 import sys
@@ -37,8 +41,11 @@ WORK = ROOT  # the private copy being mutated (set by main)
 _TRACING_TESTS = (
     "tests/test_trace.py", "tests/test_failures.py", "tests/test_crossing.py",
     "tests/test_mutation_engine.py", "tests/test_mutation_tracing_more.py",
+    "tests/test_branch_points.py", "tests/test_branch_point_location.py", "tests/test_inside_step.py",
+    "tests/test_stepsize.py", "tests/test_newton_tolerance.py", "tests/test_hopf.py",
+    "tests/test_follow.py", "tests/test_switching.py",
 )
-_ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py")
+_ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py", "tests/test_envelope_robustness.py")
 # module name -> (source file, the tests of that feature run against each of its mutants)
 MODULES = {
     "trace": ("contin/tracing/_trace.py", _TRACING_TESTS),
@@ -46,6 +53,7 @@ MODULES = {
     "events": ("contin/systems/_events.py", _TRACING_TESTS),
     "status": ("contin/results/_status.py", _TRACING_TESTS + ("tests/test_cli_run.py",)),
     "crossing": ("contin/tracing/_crossing.py", _TRACING_TESTS),
+    "linear": ("contin/tracing/_linear.py", _TRACING_TESTS + ("tests/test_sparse.py",)),
     "sensitivity": ("contin/studies/_sensitivity.py",
                     ("tests/test_sensitivity.py", "tests/test_mutation_engine.py")),
     "record": ("contin/results/_record.py", ("tests/test_record.py", "tests/test_mutation_engine.py")),
@@ -73,7 +81,7 @@ def _copy_tree(revision: str | None = None) -> Path:
         archive = subprocess.run(["git", "archive", revision], cwd=ROOT, capture_output=True, check=True)
         subprocess.run(["tar", "-x", "-C", str(work)], input=archive.stdout, check=True)
     else:
-        for part in ("contin", "plugins", "tests"):
+        for part in ("contin", "plugins", "tests", "benchmarks"):
             shutil.copytree(ROOT / part, work / part,
                             ignore=shutil.ignore_patterns("__pycache__", "*.pyc"))
         for name in ("pyproject.toml", "README.md", "DEVELOPERS.md"):
@@ -170,6 +178,27 @@ def _diff(source: str, mutated: str) -> str:
     return " | ".join(l.strip() for l in lines)
 
 
+_GUIDE_SECTION = "### Equivalent mutants"
+_ENTRY = re.compile(r"^- `(?P<module>[a-z_]+)` `(?P<change>[^`]+)`")
+
+
+def equivalent_mutants(guide: Path | None = None) -> dict[str, set[str]]:
+    """The mutants judged equivalent (no test can tell them from the source), by module: the changes
+    listed, each with its reason, under "Equivalent mutants" in the contributor guide. A change is
+    written as this script prints it: the source line, " | ", the mutated line."""
+    guide = guide or ROOT / "DEVELOPERS.md"
+    listed: dict[str, set[str]] = {}
+    inside = False
+    for line in guide.read_text().splitlines():
+        if line.startswith("#"):
+            inside = line.strip() == _GUIDE_SECTION
+            continue
+        match = _ENTRY.match(line) if inside else None
+        if match:
+            listed.setdefault(match["module"], set()).add(match["change"])
+    return listed
+
+
 def run_module(name, args, env, deadline) -> dict:
     path, tests = MODULES[name]
     tests = _existing(args.tests or tests)
@@ -190,15 +219,17 @@ def run_module(name, args, env, deadline) -> dict:
     if args.sample and args.sample < len(chosen):
         chosen = sorted(random.Random(args.seed).sample(chosen, args.sample),
                         key=lambda m: (m.line_number, m.index))
-    counts = {"killed": 0, "survived": 0, "timed_out": 0, "not_covered": 0, "not_run": 0}
-    survivors = []
+    counts = {"killed": 0, "survived": 0, "equivalent": 0, "timed_out": 0, "not_covered": 0, "not_run": 0}
+    survivors, wrongly_listed = [], []
+    listed = equivalent_mutants().get(name, set())
     timeout = max(10.0, args.timeout_factor * baseline)
     file = WORK / path
     try:
         for mutation_id in chosen:
             mutated = _mutated(source, path, mutation_id)
             line = mutation_id.line_number + 1
-            where = f"{path}:{line}: {_diff(source, mutated)}"
+            change = _diff(source, mutated)
+            where = f"{path}:{line}: {change}"
             if not_run is not None and line in not_run:
                 counts["not_covered"] += 1
                 survivors.append("not covered " + where)
@@ -214,17 +245,25 @@ def run_module(name, args, env, deadline) -> dict:
                 status = "timed_out"
             finally:
                 file.write_text(source)
+            if status == "survived" and change in listed:
+                status = "equivalent"
+            elif status != "survived" and change in listed:
+                wrongly_listed.append(where)  # the guide calls it equivalent, yet a test tells it apart
             counts[status] += 1
             if status == "survived":
                 survivors.append(where)
     finally:
         file.write_text(source)
-    tried = counts["killed"] + counts["survived"] + counts["timed_out"] + counts["not_covered"]
+    caught = counts["killed"] + counts["timed_out"]
+    tried = caught + counts["survived"] + counts["equivalent"] + counts["not_covered"]
     result.update(counts)
     result["sampled"] = len(chosen)
-    result["killed_ratio"] = round((counts["killed"] + counts["timed_out"]) / tried, 3) if tried else None
+    # over every mutant tried, and over those that are not equivalent (the mutation score)
+    result["killed_ratio"] = round(caught / tried, 3) if tried else None
+    result["score"] = round(caught / (tried - counts["equivalent"]), 3) if tried > counts["equivalent"] else None
     result["baseline_seconds"] = round(baseline, 1)
     result["survivors"] = survivors
+    result["listed_but_killed"] = wrongly_listed
     return result
 
 
@@ -254,10 +293,13 @@ def main(argv=None) -> int:
                 print(json.dumps(result), flush=True)
             else:
                 print(f"{name}: " + ", ".join(f"{k} {result.get(k)}" for k in (
-                    "mutants", "sampled", "killed", "survived", "timed_out", "not_covered",
-                    "not_run", "killed_ratio", "coverage_with_branches", "branches_missed")), flush=True)
+                    "mutants", "sampled", "killed", "survived", "equivalent", "timed_out", "not_covered",
+                    "not_run", "killed_ratio", "score", "coverage_with_branches", "branches_missed")),
+                      flush=True)
                 for survivor in result.get("survivors", []):
                     print("    " + survivor)
+                for entry in result.get("listed_but_killed", []):
+                    print("    listed as equivalent, but killed: " + entry)
     finally:
         shutil.rmtree(WORK, ignore_errors=True)
     return 0

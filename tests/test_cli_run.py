@@ -231,7 +231,7 @@ real = run_module.run_problem
 def run_problem(problem, **keywords):
     def on_point(index, x, special):
         if index == 5:
-            os.kill(os.getpid(), signal.SIGINT)
+            signal.raise_signal(signal.SIGINT)  # delivered to this thread, at once
     return real(problem, on_point=on_point)
 run_module.run_problem = run_problem
 sys.exit(main(sys.argv[1:]))
