@@ -237,3 +237,115 @@ def test_a_passage_that_cannot_come_closer_stops_with_a_message_naming_the_last_
                               "at the predicted point")
     assert branch.stats["rejections"] == {"non-finite residual at the predicted point": 5}
     assert branch.special("critical") == ()
+
+
+def test_a_passage_that_cannot_even_begin_stops_once_its_ratio_reaches_the_limit():
+    # Every level in (-0.0999, -0.03) fails from the start of the passage at d = -0.1: the levels tried
+    # are -0.06 (ratio 0.6), -0.08 (0.8), -0.09 (0.9) and -0.095 (0.95): at the limit of 0.95 it stops.
+    system, tried = banded(-0.0999, -0.03)
+    branch = trace(system, free="p", crossing=Crossing(["d"], land=exact_land), direction=1,
+                   bounds={"d": [-0.9, 0.9]}, **start())
+    assert branch.status.label == "step_too_small"
+    assert tried == pytest.approx([-0.06, -0.08, -0.09, -0.095], rel=1e-12)
+    assert branch.column("d")[-1] == pytest.approx(-0.1, rel=1e-12)
+    assert "the passage of the singular crossing failed after the point" in branch.message
+
+
+@pytest.mark.parametrize("arguments, message", [
+    (dict(coordinates=[]), "crossing coordinates must be a non-empty sequence of coordinate names"),
+    (dict(coordinates="d"), "crossing coordinates must be a non-empty sequence of coordinate names"),
+    (dict(coordinates=["d"], near=True), "crossing near=True must be a finite number"),
+    (dict(coordinates=["d"], gap=float("nan")), "crossing gap=nan must be a finite number"),
+    (dict(coordinates=["d"], smallest_gap="0.1"), "crossing smallest_gap='0.1' must be a finite number"),
+    (dict(coordinates=["d"], smallest_gap=0.0),
+     r"crossing gaps must satisfy 0 < smallest_gap \(0.0\) <= gap \(0.02\) < near \(0.1\)"),
+    (dict(coordinates=["d"], land=3), r"crossing land must be callable as land\(before, after\)"),
+    (dict(coordinates=["d"], kind=""), "crossing kind must be a non-empty string"),
+])
+def test_bad_crossings_are_refused_with_the_whole_message(arguments, message):
+    with pytest.raises(InputError, match=f"^{message}$"):
+        Crossing(**arguments)
+
+
+def test_a_crossing_keeps_its_defaults_its_coordinates_as_a_tuple_and_cannot_be_changed():
+    import dataclasses
+
+    crossing = Crossing(["d"], gap=0.02, smallest_gap=0.02)  # the smallest gap may equal the gap
+    assert crossing.coordinates == ("d",) and isinstance(crossing.coordinates, tuple)
+    assert (crossing.near, crossing.kind, crossing.name, crossing.land) == (0.1, "crossing", "singular crossing", None)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        crossing.near = 0.5
+    assert Landing(np.zeros(3), located_to=0.0).info == {}
+
+
+def test_a_trace_that_starts_near_the_second_family_heading_to_it_begins_its_passage_at_the_start():
+    # From d = -0.05, p falls as d rises (the fold of p is at d = -1/2): direction -1 heads to d = 0.
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=-1, bounds={"d": [-0.9, 0.9]}, **start(-0.05))
+    assert branch.status.label == "bound_reached"
+    (critical,) = branch.special("critical")
+    assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
+    d = branch.column("d")
+    # the passage steps fix d at levels shrinking by 0.6 from the start: -0.03, then the gap -0.02
+    assert d[1] == pytest.approx(-0.03, rel=1e-12) and d[2] == pytest.approx(-0.02, rel=1e-12)
+    assert d[critical.index + 1] == pytest.approx(0.02, rel=1e-12)
+    assert branch.special("bound")[0].values["d"] == pytest.approx(0.9)
+
+
+def test_a_trace_that_starts_near_the_second_family_heading_away_leaves_by_ordinary_steps():
+    # Before the fix the passage began at the start whatever the heading, and its first step, planned
+    # towards d = 0, failed four times: "the passage of the critical point failed".
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, **start(-0.05))
+    assert branch.status.label == "bound_reached", branch.message
+    assert branch.special("critical") == ()
+    assert branch.special("bound")[0].values["d"] == pytest.approx(-0.9)
+    (fold,) = branch.special("fold")
+    assert fold.values["d"] == pytest.approx(-0.5, abs=1e-7)
+
+
+def test_one_step_over_the_whole_passage_region_still_begins_the_passage_on_the_near_side():
+    # near = 0.03 is far narrower than the steps: the first step, from d = -0.15, lands at d = +0.097,
+    # beyond the region. The passage then begins where d reaches -near in that step, located like a
+    # bound, and the step's far end is dropped.
+    crossing = Crossing(["d"], near=0.03, gap=0.02, land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=-1, bounds={"d": [-0.9, 0.9]},
+                   step=0.3, max_step=1.0, **start(-0.15))
+    assert branch.status.label == "bound_reached"
+    d = branch.column("d")
+    assert d[:6] == pytest.approx([-0.15, -0.03, -0.02, 0.0, 0.02, 0.03], rel=1e-12, abs=0.0)
+    assert np.sum(np.abs(d + 0.03) < 1e-12) == 1 and np.sum(np.abs(d - 0.03) < 1e-12) == 1
+    (critical,) = branch.special("crossing")
+    assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
+    others = np.delete(branch.points, critical.index, axis=0)
+    assert others[:, 2] == pytest.approx((1.0 - others[:, 1] - others[:, 1] ** 2) / 2.0, abs=1e-8)
+
+
+def test_a_small_loop_that_goes_only_twice_near_away_between_its_meetings_passes_both():
+    # The circle d^2 + p^2 = r^2 with r = 0.2: between its meetings with d = 0 the branch goes out to
+    # |d| = 0.2 only, beyond the 1.5 near (0.15) that re-arms the passage, and no farther.
+    r = 0.2
+
+    def residual_small(u, p):
+        a, d = u
+        return np.array([d * (a - p[0]), d * (d * d + p[0] ** 2 - r * r)])
+
+    def jacobian_small(u, p):
+        a, d = u
+        return np.array([[d, a - p[0]], [0.0, 3.0 * d * d + p[0] ** 2 - r * r]])
+
+    small = CallableSystem(residual_small, ["a", "d"], {"p": 0.0}, jacobian=jacobian_small,
+                           parameter_jacobian=lambda u, p: np.array([[-u[1]], [2.0 * u[1] * p[0]]]))
+
+    def land(before, after):
+        side = math.copysign(r, before[2])
+        return Landing(np.array([side, 0.0, side]), located_to=0.0)
+
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=land)
+    p0 = -0.12
+    branch = trace(small, start=[p0, -math.sqrt(r * r - p0 * p0)], parameters={"p": p0}, free="p",
+                   crossing=crossing, max_step=0.05, max_points=400)
+    assert branch.status.label == "closed_loop", branch.message
+    assert sorted(sp.values["p"] for sp in branch.special("critical")) == [-r, r]
+    others = np.delete(branch.points, [sp.index for sp in branch.special("critical")], axis=0)
+    assert np.allclose(others[:, 1] ** 2 + others[:, 2] ** 2, r * r, rtol=0, atol=1e-9)

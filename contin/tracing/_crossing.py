@@ -134,13 +134,22 @@ class Passage:
                 return [(c, math.copysign(near, x0[c]))]
         return []
 
-    def begin(self, x: np.ndarray, key: int | None = None) -> None:
-        if key is None:
-            key = max(self.candidates, key=lambda k: (abs(x[k]), -k))
+    def begin(self, x: np.ndarray, key: int) -> None:
+        """Begin the passage at x along coordinate ``key``."""
         self.key = key
         self.active = True
         self.side = 1.0 if x[self.key] > 0.0 else -1.0
         self.history = [np.array(x, dtype=float)]
+
+    def begin_at_start(self, x: np.ndarray, t: np.ndarray) -> bool:
+        """Begin the passage at a start within ``near`` of the second family, when the tangent heads
+        towards it; heading away, ordinary continuation leaves the region (a later return enters it
+        through ``entries`` like any other). Whether it began."""
+        key = max(self.candidates, key=lambda k: (abs(x[k]), -k))
+        if x[key] * t[key] >= 0.0:
+            return False
+        self.begin(x, key)
+        return True
 
     def predict(self, level: float) -> np.ndarray | None:
         """Predictor of a passage step: each coordinate extrapolated to c = ``level`` by the quadratic

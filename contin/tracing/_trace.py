@@ -522,7 +522,7 @@ class _Run:
         if self._leaving_through_a_bound(x, t):
             return
         if self.passage is not None and self.passage.distance(x) <= self.passage.crossing.near:
-            self.passage.begin(x)  # the start is near the crossing already
+            self.passage.begin_at_start(x, t)  # the start is near the crossing already
         while self.status is None:
             if len(self.rows) >= options.max_points:
                 self.finish(Status.MAX_POINTS, f"{Status.MAX_POINTS.message} ({options.max_points}) at {self.describe(x)}")
