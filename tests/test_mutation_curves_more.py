@@ -207,3 +207,64 @@ def test_the_search_covers_every_interval_of_its_volume_grid(monkeypatch, kappa)
     assert point.T == pytest.approx(350.0, rel=1e-12)
     assert point.v == pytest.approx(kappa * 1e-4, rel=1e-12)
     assert point.P == pytest.approx(8.314462618 * 350.0 / (kappa * 1e-4), rel=1e-12)
+
+
+def test_the_one_nearest_a_given_point_is_nearest_in_the_sum_of_relative_differences(monkeypatch):
+    # Two candidates A = (200 K, 5 MPa) and B = (300 K, 1 MPa); "nearest" to (T, P) is the smaller of
+    # |T_c/T - 1| + |P_c/P - 1| (worked by hand for each query).
+    from contin_thermo.curves import _mixture_critical as module
+
+    a = module.CriticalPoint(200.0, 5e6, 1e-4, 0.0, 0.0)
+    b = module.CriticalPoint(300.0, 1e6, 2e-4, 0.0, 0.0)
+    monkeypatch.setattr(module, "critical_points", lambda mixture, z: [a, b])
+    queries = {(200.0, 1e6): b,   # A: 0 + 4 = 4;        B: 0.5 + 0 = 0.5
+               (200.0, 3e6): a,   # A: 0 + 0.667;        B: 0.5 + 0.667
+               (300.0, 3e6): b}   # A: 0.333 + 0.667 = 1; B: 0 + 0.667
+    for near, expected in queries.items():
+        assert module.critical_point(BLEND, Z, near=near) is expected, near
+
+
+def test_a_feed_is_normalised_and_a_critical_point_is_frozen():
+    import dataclasses
+
+    half = critical_point(BLEND, [0.5, 0.5])
+    assert critical_point(BLEND, [2.0, 2.0]) == half
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        half.T = 1.0
+
+
+def test_a_binary_critical_locus_runs_once_from_one_pure_end_to_the_other_on_critical_points():
+    import dataclasses
+
+    from contin_thermo.curves._mixture_critical import binary_critical_locus
+
+    mixture = Mixture((lookup("methane"), lookup("n-butane")), family("pr"))
+    locus = binary_critical_locus(mixture)
+    assert locus.status == "bound_reached"
+    # from x1 = 1e-7 to 1 - 1e-7, each composition once, the start (x1 = 0.5) once
+    assert locus.x1[0] == pytest.approx(1e-7, rel=1e-9) and locus.x1[-1] == pytest.approx(1 - 1e-7, rel=1e-12)
+    assert np.all(np.diff(locus.x1) > 0) and np.sum(locus.x1 == 0.5) == 1
+    for x1, T, v, P in zip(locus.x1, locus.T, locus.v, locus.P, strict=True):
+        z = np.array([x1, 1 - x1])
+        eigenvalue, cubic = critical_conditions(mixture, z, T, v)
+        assert abs(eigenvalue) < 1e-9 and abs(cubic) < 1e-8
+        assert P == pytest.approx(mixture.pressure(T, v, z), rel=1e-14)
+    # ends on the model's pure critical points (x = 1e-7 away from them)
+    methane, butane = lookup("methane"), lookup("n-butane")
+    assert locus.T[0] == pytest.approx(butane.Tc, rel=1e-6) and locus.T[-1] == pytest.approx(methane.Tc, rel=1e-5)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        locus.status = "x"
+
+
+def test_a_binary_critical_locus_stopped_short_says_incomplete():
+    # Before, a half stopped by max_points was counted a success and the locus called complete (pure
+    # methane's end stalled about 1e-6 short of it, until the x1 derivative kept inside (0, 1)).
+    from contin_thermo.curves._mixture_critical import binary_critical_locus
+
+    mixture = Mixture((lookup("methane"), lookup("n-butane")), family("pr"))
+    locus = binary_critical_locus(mixture, max_points=25)
+    assert locus.status == "incomplete"
+    assert "x1 towards 0: completed: the branch reached a bound x1 = 1e-07" in locus.message
+    assert "x1 towards 1: completed: the maximum number of points was reached (25)" in locus.message
+    with pytest.raises(InputError, match="^a binary critical locus needs two components, not 3$"):
+        binary_critical_locus(Mixture((lookup("methane"), lookup("ethane"), lookup("propane")), family("pr")))

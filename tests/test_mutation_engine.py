@@ -434,3 +434,77 @@ def test_a_start_on_a_bound_heading_out_ends_there_at_once():
     (bound,) = branch.special("bound")
     assert (bound.index, bound.name, bound.values) == (0, "p = 0", {"u": 0.0, "p": 0.0})
     assert bound.residual_norm == branch.residual_norms[0] and bound.located_to == 0.0
+
+
+def _unit_circle():
+    from contin.tracing._extended import Counters, Extended
+
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+    extended = Extended(circle, np.array([0.0]), 0, Counters())
+    a = (np.array([math.cos(0.2), math.sin(0.2)]), np.array([-math.sin(0.2), math.cos(0.2)]))
+    b = (np.array([math.cos(1.2), math.sin(1.2)]), np.array([-math.sin(1.2), math.cos(1.2)]))
+    return extended, a, b
+
+
+def test_a_level_starts_newton_from_the_linear_interpolate_and_an_end_level_is_that_end():
+    from contin.tracing._locate import locate_level
+    from contin.tracing._options import TraceOptions
+
+    extended, a, b = _unit_circle()
+    # From the interpolate (u = 0.9, p = 0.5) Newton on u^2 = 3/4 meets the tolerance in 4 iterations;
+    # any other start (outside the chord, or at an end) needs more or lands on the other root.
+    located = locate_level(extended, a, b, 1, 0.5, TraceOptions())
+    assert located.iterations == 4 and located.x[0] == pytest.approx(math.sqrt(0.75), abs=1e-12)
+    # A level equal to an end's coordinate is that end: fraction 0 or 1 exactly, one Newton iteration.
+    for end, fraction in ((a, 0.0), (b, 1.0)):
+        located = locate_level(extended, a, b, 1, float(end[0][1]), TraceOptions())
+        assert (located.fraction, located.located_to, located.value, located.iterations) == (fraction, 0.0, 0.0, 1)
+        assert located.x == pytest.approx(end[0], abs=1e-15)
+
+
+def test_a_zero_is_located_in_few_trials_and_none_when_no_point_can_be_corrected():
+    import dataclasses
+
+    from contin.tracing._extended import Counters, Extended
+    from contin.tracing._locate import locate_zero
+    from contin.tracing._options import TraceOptions
+
+    extended, a, b = _unit_circle()
+    calls = []
+
+    def test(x, t):
+        calls.append(x[1])
+        return math.exp(6.0 * x[1]) - 20.0
+
+    located = locate_zero(extended, (*a, test(*a)), (*b, test(*b)), test, TraceOptions())
+    assert located.x[1] == pytest.approx(math.log(20.0) / 6.0, abs=1e-12)
+    assert located.located_to <= TraceOptions().location_tolerance
+    assert len(calls) == 2 + 11  # the two ends, then the Illinois trials: it stops once located
+    assert located.info == {}
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        located.value = 1.0
+    # A system with no solution inside the chord: the first correction fails and there is nothing.
+    nowhere = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 + 1.0], ["u"], {"p": 0.0})
+    broken = Extended(nowhere, np.array([0.0]), 0, Counters())
+    assert locate_zero(broken, (*a, -1.0), (*b, 1.0), lambda x, t: 0.0, TraceOptions()) is None
+    assert locate_zero(extended, (*a, -1.0), (a[0], a[1], 1.0), test, TraceOptions()) is None  # no chord
+
+
+def test_the_illinois_bracket_measures_its_width_and_moves_in_lengths_along_the_chord():
+    from contin.tracing._locate import IllinoisBracket
+
+    def f(s):
+        return math.exp(6.0 * s) - 2.0
+
+    bracket = IllinoisBracket(f(0.0), f(1.0), 10.0, 1e-10)
+    trials = []
+    for _ in range(100):
+        s = bracket.trial()
+        trials.append(s)
+        if bracket.update(s, f(s)):
+            break
+    # on a chord of length 10 the tolerance 1e-10 is 1e-11 in the fraction
+    assert len(trials) == 14
+    assert bracket.width == pytest.approx(10.0 * (bracket.high - bracket.low), rel=1e-15)
+    assert bracket.located_to == min(bracket.width, bracket.moved) <= 1e-10
+    assert bracket.low < math.log(2.0) / 6.0 < bracket.high

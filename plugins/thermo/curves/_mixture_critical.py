@@ -211,7 +211,15 @@ def binary_critical_locus(mixture: Mixture, *, ends: float = 1e-7, max_points: i
         z = np.array([x1, 1.0 - x1])
         return np.array(critical_conditions(mixture, z, math.exp(u[0]), math.exp(u[1])))
 
-    system = contin.CallableSystem(residual, ["lnT", "lnv"], {"x1": 0.5})
+    def parameter_jacobian(u, p):
+        # Central differences in x1 that stay inside (0, 1): the engine's default step (about 6e-6)
+        # would reach past a pure end once x1 is nearer to it than that, where the clipped residual
+        # no longer changes, and the steps then collapsed about 1e-6 from pure methane.
+        x1 = float(p[0])
+        h = min(6e-6, 0.5 * min(x1, 1.0 - x1))
+        return ((residual(u, [x1 + h]) - residual(u, [x1 - h])) / (2.0 * h)).reshape(2, 1)
+
+    system = contin.CallableSystem(residual, ["lnT", "lnv"], {"x1": 0.5}, parameter_jacobian=parameter_jacobian)
     middle = critical_point(mixture, [0.5, 0.5])
     start = [math.log(middle.T), math.log(middle.v)]
     halves = []
@@ -226,6 +234,7 @@ def binary_critical_locus(mixture: Mixture, *, ends: float = 1e-7, max_points: i
     T = np.exp(rows[:, 0])
     v = np.exp(rows[:, 1])
     P = np.array([mixture.pressure(t, vv, np.array([x, 1 - x])) for t, vv, x in zip(T, v, x1)])
-    ok = down.success and up.success
+    # complete only when both halves reached their pure ends (a stop at max_points is no locus)
+    ok = down.status.label == up.status.label == "bound_reached"
     message = f"x1 towards 0: {down.message}; x1 towards 1: {up.message}"
     return CriticalLocus(x1, T, P, v, "bound_reached" if ok else "incomplete", message)
