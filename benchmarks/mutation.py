@@ -109,8 +109,10 @@ def _existing(tests) -> list[str]:
 
 
 def _pytest(tests, env, timeout=None, extra=()):
+    # A private temporary folder: pytest prunes the numbered folders of other sessions, so two runs
+    # at once (or a run beside the suite) would delete each other's tmp_path.
     command = [sys.executable, *extra, "-m", "pytest", "-x", "-q", "-p", "no:cacheprovider",
-               "-p", "no:randomly", *tests]
+               "-p", "no:randomly", f"--basetemp={WORK / '_pytest'}", *tests]
     return subprocess.run(command, cwd=WORK, env=env, timeout=timeout, capture_output=True,
                           text=True)
 
