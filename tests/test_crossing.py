@@ -60,6 +60,10 @@ def test_the_branch_is_followed_across_the_second_family_on_one_branch(max_step)
     assert branch.points[critical.index] == pytest.approx([0.5, 0.0, 0.5], abs=0.0)
     assert d[critical.index - 1] < 0.0 < d[critical.index + 1]
     assert critical.info["method"] == "exact" and critical.info["coordinate"] == "d"
+    # the Jacobian is singular there: its tangent is the unit chord between its neighbours
+    assert critical.info["tangent"] == "the chord between the points around it (the Jacobian is singular there)"
+    chord = branch.points[critical.index + 1] - branch.points[critical.index - 1]
+    assert branch.tangents[critical.index] == pytest.approx(chord / np.linalg.norm(chord), abs=1e-15)
     # the jump over it went from d = -gap to d = +gap, and the point says which gap
     assert critical.info["gap"] == crossing.gap == 0.02
     assert [d[critical.index - 1], d[critical.index + 1]] == pytest.approx([-0.02, 0.02], rel=1e-9)
@@ -168,6 +172,8 @@ def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
     events = branch.special("event")
     assert [(sp.index, sp.name, sp.info["terminal"]) for sp in events] == [(sp.index, "d = 0", False) for sp in critical]
     assert sum("lies within" in note for note in branch.stats["notes"]) == 2
+    assert [note for note in branch.stats["notes"] if "lies within" in note][0].startswith(
+        "the fold in p lies within 0.0025 in d of the critical point")
     d = branch.column("d")
     for sp in critical:
         assert abs(d[sp.index - 1]) == pytest.approx(0.0025, rel=1e-9) and d[sp.index - 1] == pytest.approx(-d[sp.index + 1], rel=1e-9)

@@ -508,3 +508,40 @@ def test_the_illinois_bracket_measures_its_width_and_moves_in_lengths_along_the_
     assert bracket.width == pytest.approx(10.0 * (bracket.high - bracket.low), rel=1e-15)
     assert bracket.located_to == min(bracket.width, bracket.moved) <= 1e-10
     assert bracket.low < math.log(2.0) / 6.0 < bracket.high
+
+
+def test_a_fixed_parameter_exactly_on_a_bound_of_its_own_is_accepted():
+    # a bound on a parameter that is not free must hold its fixed value; its ends count as inside
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0] - p[1]], ["u"], {"p": 0.0, "q": 0.25})
+    branch = contin.trace(system, {"u": 0.25}, free="p", step=0.1, bounds={"p": (0.0, 1.0), "q": (0.25, 1.0)})
+    assert branch.status is contin.Status.BOUND_REACHED
+    assert branch.column("u")[-1] == pytest.approx(1.25, abs=1e-12)
+
+
+def test_a_tangent_of_zeros_is_refused_naming_the_coordinates():
+    with pytest.raises(contin.InputError, match=r"^tangent must be 2 finite numbers, not all zero \(coordinates: u, p\)$"):
+        contin.trace(line_system(), {"u": 0.0}, free="p", tangent=[0.0, 0.0])
+
+
+def test_the_stop_at_max_points_says_so_with_the_limit_and_the_point():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, max_step=0.1, max_points=4)
+    assert branch.status is contin.Status.MAX_POINTS and len(branch) == 4
+    assert branch.message == "completed: the maximum number of points was reached (4) at u = 0.212132, p = 0.212132"  # 3 steps of 0.1 along the diagonal
+
+
+def test_a_start_that_does_not_converge_is_one_row_with_a_zero_tangent_of_full_length():
+    system = contin.CallableSystem(lambda u, p: [u[0] ** 2 + 1.0 + p[0]], ["u"], {"p": 0.0})
+    branch = contin.trace(system, {"u": 0.5}, free="p")
+    assert branch.status is contin.Status.START_NOT_CONVERGED and len(branch) == 1
+    assert branch.tangents.shape == (1, 2) and not np.any(branch.tangents)
+
+
+def test_a_trace_and_its_options_share_their_defaults():
+    import inspect
+
+    from contin.tracing._options import TraceOptions
+
+    options = TraceOptions()
+    assert (options.max_points, options.max_iterations) == (2000, 8)
+    defaults = inspect.signature(contin.trace).parameters
+    assert (defaults["max_points"].default, defaults["max_iterations"].default) == (2000, 8)

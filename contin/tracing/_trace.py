@@ -723,7 +723,7 @@ class _Run:
                    if sign_a == sign_b != 0 and math.isfinite(log_a) and math.isfinite(log_b) else 0.0)
         self.zero_ahead = chord / falling if falling > 0.0 else None
 
-    def _special_points(self, a, b, correction, signs=(0, 0, 0), force: bool = False) -> bool | None:
+    def _special_points(self, a, b, correction, signs, force: bool = False) -> bool | None:
         """Locate what lies between accepted points a and b, append them and b.
 
         The step is examined inside, not only at its ends: every coordinate with a bound or requested
