@@ -131,3 +131,38 @@ def test_the_pure_ends_are_the_saturation_pressures_of_the_same_model(tmp_path):
     assert "# units: x1 [-], y1 [-], P [Pa], v_liquid [m3/mol], v_vapour [m3/mol]" in header
     assert repr(diagram) == (f"<pxy diagram of propane + n-butane at T = 330 K (Peng-Robinson): "
                              f"{len(diagram.rows)} points; no special points; status bound_reached>")
+
+
+def test_the_csv_of_each_kind_names_its_fixed_value_and_units(tmp_path):
+    mixture = Mixture((lookup("methane"), lookup("carbon dioxide")), family("pr"))
+    for diagram, title, units in ((pxy(mixture, 250.0), "# pxy diagram at T = 250.0 K", "P [Pa]"),
+                                  (txy(mixture, 6e6), "# txy diagram at P = 6000000.0 Pa", "T [K]")):
+        path = tmp_path / f"{diagram.kind}.csv"
+        diagram.to_csv(path)
+        lines = path.read_text().splitlines()
+        assert lines[0] == title
+        assert lines[1] == "# model: Peng-Robinson; components: methane, carbon dioxide"
+        (header,) = [line for line in lines if line.startswith("# units:")]
+        assert header == f"# units: x1 [-], y1 [-], {units}, v_liquid [m3/mol], v_vapour [m3/mol]"
+
+
+def test_special_points_of_a_diagram_have_the_contract_keys_and_say_what_they_are():
+    keys = {"kind", "name", "index", "values", "located_to", "info"}
+    azeotropic = Mixture((lookup("ethane"), lookup("carbon dioxide")), family("pr"), np.array([[0, 0.25], [0.25, 0]]))
+    (azeotrope,) = pxy(azeotropic, 250.0).special_points
+    assert set(azeotrope) == keys and azeotrope["info"] == {} and azeotrope["located_to"] < 1e-10
+    closing = pxy(Mixture((lookup("methane"), lookup("propane")), family("pr")), 250.0)
+    (critical,) = closing.special_points
+    assert set(critical) == keys
+    assert critical["info"] == {"note": "Heidemann-Khalil critical point of the binary at the fixed temperature"}
+    assert closing.message == ("completed: the two-phase region closes at the critical point "
+                               f"x1 = {critical['values']['x1']:.6g}, P = {critical['values']['P']:.6g} Pa")
+    (critical,) = txy(Mixture((lookup("methane"), lookup("carbon dioxide")), family("pr")), 6e6).special_points
+    assert critical["info"] == {"note": "Heidemann-Khalil critical point of the binary at the fixed pressure"}
+
+
+def test_a_pressure_above_the_second_critical_pressure_is_refused_naming_that_component():
+    mixture = Mixture((lookup("methane"), lookup("propane")), family("pr"))
+    with pytest.raises(InputError, match=r"^--pressure 5e\+06 Pa is at or above the critical pressure of propane "
+                                         r"\(4\.248e\+06 Pa\); give the component that is subcritical second$"):
+        txy(mixture, 5e6)
