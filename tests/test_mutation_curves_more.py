@@ -268,3 +268,18 @@ def test_a_binary_critical_locus_stopped_short_says_incomplete():
     assert "x1 towards 1: completed: the maximum number of points was reached (25)" in locus.message
     with pytest.raises(InputError, match="^a binary critical locus needs two components, not 3$"):
         binary_critical_locus(Mixture((lookup("methane"), lookup("ethane"), lookup("propane")), family("pr")))
+
+
+@pytest.mark.parametrize("T, stable", [(250.0, "liquid"), (300.0, "vapour")])
+def test_a_trial_keeps_the_root_that_is_stable_at_its_start_and_says_which(T, stable):
+    # A propane-rich trial of BLEND at 1 MPa: two volume roots at both temperatures; the liquid one is
+    # the more stable at 250 K, the vapour one at 300 K. The trial's start may be unnormalised (W, not w).
+    P, w = 1e6, np.array([0.05, 0.95])
+    liquid, vapour = BLEND.volume_roots(T, P, w)
+    assert liquid < vapour
+    assert BLEND.volume(T, P, w, "stable") == (liquid if stable == "liquid" else vapour)
+    d = _feed_d(BLEND, T, P, Z)
+    for scale in (1.0, 10.0):
+        tm, trial, _, _, root = _newton(BLEND, T, P, d, np.log(scale * w))
+        assert root == (1 if stable == "liquid" else 2)
+        assert trial.sum() == pytest.approx(1.0, abs=1e-15)
