@@ -271,3 +271,35 @@ def test_a_dew_point_that_wilson_values_miss_is_found_by_successive_substitution
     envelope = trace_envelope(mixture, z, check_stability=False)
     assert envelope.status == "bound_reached" and envelope.success
     assert sorted(sp["kind"] for sp in envelope.special_points) == ["cricondenbar", "cricondentherm", "critical"]
+
+
+def test_the_message_and_summary_name_the_corners_in_the_order_traced_with_their_values(gas):
+    _, envelope = gas
+    order = [sp["kind"] for sp in envelope.special_points if sp["kind"] in ("cricondentherm", "cricondenbar", "critical")]
+    words = ", the ".join("critical point" if kind == "critical" else kind for kind in order)
+    assert envelope.message == f"completed: from the dew point at 100000 Pa through the {words} to the bubble point at 100000 Pa"
+    lines = envelope.summary()
+    for sp in envelope.special_points:
+        if sp["kind"] in ("cricondentherm", "cricondenbar"):
+            T, P = sp["values"]["T"], sp["values"]["P"]
+            assert any(line.strip() == f"{sp['kind']} : T = {T:.6f} K, P = {P:.6g} Pa"
+                       for line in (" ".join(l.split()) for l in lines)), lines
+    # the set-up time is a duration of this run, not a clock reading
+    assert 0.0 < envelope.stats["setup_seconds"] < 600.0
+
+
+def test_compositions_on_a_quality_line_keep_the_material_balance():
+    mixture = Mixture(tuple(lookup(n) for n in NAMES), family("pr"))
+    z = np.array(FEED)
+    lnK = np.log([3.0, 1.2, 0.5, 0.2])
+    for beta in (0.0, 0.3, 1.0):
+        x, y = EnvelopeSystem(mixture, z, beta).compositions(lnK)
+        assert y == pytest.approx(np.exp(lnK) * x, rel=1e-15)
+        assert (1.0 - beta) * x + beta * y == pytest.approx(z, rel=1e-14)
+
+
+def test_start_coordinates_of_a_document_without_rows_or_temperatures_are_none():
+    from contin_thermo.curves._envelope import start_coordinates
+
+    assert start_coordinates({}) is None
+    assert start_coordinates({"points": [[1.0, 2.0]], "columns": ["P", "side"]}) is None
