@@ -545,3 +545,24 @@ def test_a_trace_and_its_options_share_their_defaults():
     assert (options.max_points, options.max_iterations) == (2000, 8)
     defaults = inspect.signature(contin.trace).parameters
     assert (defaults["max_points"].default, defaults["max_iterations"].default) == (2000, 8)
+
+
+@pytest.mark.parametrize("direction, values", [(1, [0.2, 0.25, 0.7]), (-1, [0.3, 0.7, 0.75])])
+def test_a_step_that_would_pass_a_requested_value_lands_on_it_and_the_next_starts_there(direction, values):
+    # Along u = p with steps of 0.1 in arclength (0.1 / sqrt 2 in p): each requested value is an ordinary
+    # step's end (aimed at, not located inside a longer step), and the steps go on from it, also when
+    # the next value lies within one step (0.25 after 0.2; 0.7 after 0.75 going down).
+    start = 0.0 if direction > 0 else 1.0
+    branch = contin.trace(line_system(), {"u": start}, free="p", parameters={"p": start}, step=0.1, max_step=0.1,
+                          bounds={"p": (0.0, 1.0)}, at={"p": values}, direction=direction)
+    h = 0.1 / math.sqrt(2.0) * direction
+    targets = sorted(values, reverse=direction < 0) + [1.0 - start]
+    expected, p = [start], start
+    for target in targets:
+        while (target - (p + h)) * direction > 1e-12:
+            p += h
+            expected.append(p)
+        p = target
+        expected.append(p)
+    assert branch.column("p") == pytest.approx(expected, abs=1e-12)
+    assert branch.stats["accepted_steps"] == len(expected) - 1
