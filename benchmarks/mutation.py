@@ -187,7 +187,7 @@ _ENTRY = re.compile(r"^- `(?P<module>[a-z_]+)` `(?P<change>[^`]+)`")
 def equivalent_mutants(guide: Path | None = None) -> dict[str, set[str]]:
     """The mutants judged equivalent (no test can tell them from the source), by module: the changes
     listed, each with its reason, under "Equivalent mutants" in the contributor guide. A change is
-    written as this script prints it: the source line, " | ", the mutated line."""
+    written as this script prints it, spaces collapsed: the source line, " | ", the mutated line."""
     guide = guide or ROOT / "DEVELOPERS.md"
     listed: dict[str, set[str]] = {}
     inside = False
@@ -197,8 +197,13 @@ def equivalent_mutants(guide: Path | None = None) -> dict[str, set[str]]:
             continue
         match = _ENTRY.match(line) if inside else None
         if match:
-            listed.setdefault(match["module"], set()).add(match["change"])
+            listed.setdefault(match["module"], set()).add(_normal(match["change"]))
     return listed
+
+
+def _normal(change: str) -> str:
+    """A change with each run of spaces as one space (the guide need not copy the indentation)."""
+    return " ".join(change.split())
 
 
 def run_module(name, args, env, deadline) -> dict:
@@ -247,9 +252,9 @@ def run_module(name, args, env, deadline) -> dict:
                 status = "timed_out"
             finally:
                 file.write_text(source)
-            if status == "survived" and change in listed:
+            if status == "survived" and _normal(change) in listed:
                 status = "equivalent"
-            elif status != "survived" and change in listed:
+            elif status != "survived" and _normal(change) in listed:
                 wrongly_listed.append(where)  # the guide calls it equivalent, yet a test tells it apart
             counts[status] += 1
             if status == "survived":

@@ -244,6 +244,13 @@ def test_a_binary_critical_locus_runs_once_from_one_pure_end_to_the_other_on_cri
     # from x1 = 1e-7 to 1 - 1e-7, each composition once, the start (x1 = 0.5) once
     assert locus.x1[0] == pytest.approx(1e-7, rel=1e-9) and locus.x1[-1] == pytest.approx(1 - 1e-7, rel=1e-12)
     assert np.all(np.diff(locus.x1) > 0) and np.sum(locus.x1 == 0.5) == 1
+    # no row dropped: neighbours are one step apart, and a step is at most 0.05 in arclength
+    assert np.max(np.diff(locus.x1)) <= 0.05 + 1e-12
+    assert locus.message.count(", lnv = ") == 2
+    # both halves take the same first step (0.02 in arclength) from the start at x1 = 0.5
+    middle = int(np.flatnonzero(locus.x1 == 0.5)[0])
+    first_down, first_up = 0.5 - locus.x1[middle - 1], locus.x1[middle + 1] - 0.5
+    assert 2.0 / 3.0 < first_up / first_down < 1.5
     for x1, T, v, P in zip(locus.x1, locus.T, locus.v, locus.P, strict=True):
         z = np.array([x1, 1 - x1])
         eigenvalue, cubic = critical_conditions(mixture, z, T, v)
