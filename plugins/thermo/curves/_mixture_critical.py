@@ -137,8 +137,7 @@ def polish_critical(mixture: Mixture, z: np.ndarray, T: float, v: float,
     def g(x):
         return np.array(critical_conditions(mixture, z, math.exp(x[0]), math.exp(x[1])))
 
-    last = math.inf
-    for _ in range(6):
+    for _ in range(6):  # the first pass sets last, whatever happens in it
         r = g(x)
         h = 1e-6
         J = np.column_stack([(g(x + h * e) - g(x - h * e)) / (2 * h) for e in np.eye(2)])
