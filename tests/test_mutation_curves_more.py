@@ -290,3 +290,11 @@ def test_a_trial_keeps_the_root_that_is_stable_at_its_start_and_says_which(T, st
         tm, trial, _, _, root = _newton(BLEND, T, P, d, np.log(scale * w))
         assert root == (1 if stable == "liquid" else 2)
         assert trial.sum() == pytest.approx(1.0, abs=1e-15)
+
+
+def test_a_component_absent_from_the_feed_leaves_the_critical_point_of_the_others():
+    ternary = Mixture((lookup("methane"), lookup("propane"), lookup("n-butane")), family("pr"))
+    with np.errstate(divide="ignore", invalid="ignore"):  # 1 / n of the absent component
+        point = critical_point(ternary, [0.5, 0.5, 0.0])
+    binary = critical_point(BLEND, Z)
+    assert point.T == pytest.approx(binary.T, rel=1e-9) and point.P == pytest.approx(binary.P, rel=1e-9)
