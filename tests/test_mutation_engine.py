@@ -566,3 +566,21 @@ def test_a_step_that_would_pass_a_requested_value_lands_on_it_and_the_next_start
         expected.append(p)
     assert branch.column("p") == pytest.approx(expected, abs=1e-12)
     assert branch.stats["accepted_steps"] == len(expected) - 1
+
+
+def test_a_level_whose_newton_lands_outside_the_chord_is_found_inside_it_by_the_bracket():
+    from contin.tracing._extended import Counters, Extended
+    from contin.tracing._locate import locate_level
+    from contin.tracing._options import TraceOptions
+
+    # On the unit circle from angle 1.45 to 1.95, p = 0.99 is crossed at angle pi - asin(0.99), inside;
+    # Newton from the linear interpolate (u = 0.099) goes to the other crossing, asin(0.99), before the
+    # first point. The level is then bracketed on the chord, and found inside.
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+    extended = Extended(circle, np.array([0.0]), 0, Counters())
+    a = (np.array([math.cos(1.45), math.sin(1.45)]), np.array([-math.sin(1.45), math.cos(1.45)]))
+    b = (np.array([math.cos(1.95), math.sin(1.95)]), np.array([-math.sin(1.95), math.cos(1.95)]))
+    located = locate_level(extended, a, b, 1, 0.99, TraceOptions())
+    angle = math.pi - math.asin(0.99)
+    assert located.x == pytest.approx([math.cos(angle), 0.99], abs=1e-9)
+    assert 0.0 < located.fraction < 1.0 and located.located_to <= TraceOptions().location_tolerance
