@@ -286,6 +286,7 @@ def test_the_message_and_summary_name_the_corners_in_the_order_traced_with_their
                        for line in (" ".join(l.split()) for l in lines)), lines
     # the set-up time is a duration of this run, not a clock reading
     assert 0.0 < envelope.stats["setup_seconds"] < 600.0
+    assert envelope.stats["start_newton_iterations"] >= 1  # a count of the start's own work
 
 
 def test_compositions_on_a_quality_line_keep_the_material_balance():
