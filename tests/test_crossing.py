@@ -355,3 +355,38 @@ def test_a_small_loop_that_goes_only_twice_near_away_between_its_meetings_passes
     assert sorted(sp.values["p"] for sp in branch.special("critical")) == [-r, r]
     others = np.delete(branch.points, [sp.index for sp in branch.special("critical")], axis=0)
     assert np.allclose(others[:, 1] ** 2 + others[:, 2] ** 2, r * r, rtol=0, atol=1e-9)
+
+
+# Two coordinates that vanish on the second family: e = d / 2 along the branch (F3 = e - d / 2 holds
+# everywhere, so d = e = 0, any a and p, is the second family). The passage must run along the one
+# that reaches near last, d, whatever the order the coordinates are given in.
+def pair_residual(u, p):
+    a, d, e = u
+    return np.array([d * (a - p[0] - d), d * (a + p[0] - 1.0 + d * d), e - 0.5 * d])
+
+
+PAIR = CallableSystem(pair_residual, ["a", "d", "e"], {"p": 0.0})
+
+
+def pair_land(before, after):
+    return Landing(np.array([0.5, 0.0, 0.0, 0.5]), located_to=0.0)
+
+
+@pytest.mark.parametrize("d0, direction, near", [(-0.8, 1, 0.1), (-0.05, -1, 0.1), (-0.15, -1, 0.03)])
+def test_of_two_crossing_coordinates_the_passage_runs_along_the_one_that_enters_last(d0, direction, near):
+    u, p = on_branch(d0)
+    crossing = Crossing(["e", "d"], near=near, kind="critical", name="critical point", land=pair_land)
+    # from d = -0.15 one step of 0.3 lands at d = +0.097: over the whole region |d|, |e| <= 0.03
+    step = dict(step=0.3, max_step=1.0) if d0 == -0.15 else {}
+    branch = trace(PAIR, start=[u[0], u[1], 0.5 * u[1]], parameters={"p": p}, free="p", crossing=crossing,
+                   direction=direction, bounds={"d": [-0.9, 0.9]}, **step)
+    assert branch.status.label == "bound_reached", branch.message
+    (critical,) = branch.special("critical")
+    assert critical.info["coordinate"] == "d"
+    d, e = branch.column("d"), branch.column("e")
+    assert d[critical.index - 1] == pytest.approx(-0.02, rel=1e-12) and d[critical.index + 1] == pytest.approx(0.02, rel=1e-12)
+    # the passage began where d (not e, which is there already) reached near
+    if d0 != -0.05:
+        assert np.sum(np.abs(d + near) < 1e-12) == 1 and np.sum(np.abs(e + near) < 1e-12) == 0
+    others = np.delete(np.arange(len(d)), critical.index)
+    assert e[others] == pytest.approx(0.5 * d[others], abs=1e-12)

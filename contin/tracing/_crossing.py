@@ -141,15 +141,13 @@ class Passage:
         self.side = 1.0 if x[self.key] > 0.0 else -1.0
         self.history = [np.array(x, dtype=float)]
 
-    def begin_at_start(self, x: np.ndarray, t: np.ndarray) -> bool:
+    def begin_at_start(self, x: np.ndarray, t: np.ndarray) -> None:
         """Begin the passage at a start within ``near`` of the second family, when the tangent heads
         towards it; heading away, ordinary continuation leaves the region (a later return enters it
-        through ``entries`` like any other). Whether it began."""
+        through ``entries`` like any other)."""
         key = max(self.candidates, key=lambda k: (abs(x[k]), -k))
-        if x[key] * t[key] >= 0.0:
-            return False
-        self.begin(x, key)
-        return True
+        if x[key] * t[key] < 0.0:
+            self.begin(x, key)
 
     def predict(self, level: float) -> np.ndarray | None:
         """Predictor of a passage step: each coordinate extrapolated to c = ``level`` by the quadratic
