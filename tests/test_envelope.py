@@ -303,4 +303,16 @@ def test_start_coordinates_of_a_document_without_rows_or_temperatures_are_none()
     from contin_thermo.curves._envelope import start_coordinates
 
     assert start_coordinates({}) is None
+    assert start_coordinates({"points": [], "columns": ["T", "P"]}) is None
     assert start_coordinates({"points": [[1.0, 2.0]], "columns": ["P", "side"]}) is None
+
+
+def test_start_coordinates_of_an_envelope_are_its_first_row_in_logarithms(gas):
+    from contin_thermo.curves._envelope import start_coordinates
+
+    _, envelope = gas
+    x = start_coordinates(envelope.to_dict())
+    first = dict(zip(envelope.columns, envelope.rows[0]))
+    n = len(NAMES)
+    assert x[:n] == pytest.approx([math.log(first[f"K_{name}"]) for name in NAMES], rel=1e-12)
+    assert x[n] == pytest.approx(math.log(first["T"]), rel=1e-14) and x[-1] == pytest.approx(math.log(first["P"]), rel=1e-14)

@@ -70,7 +70,7 @@ class BinaryDiagram:
         from ..reports._report import translation_notes, write_csv
         from ..models._units import convert_rows, output_units
 
-        names = {"x1": "", "y1": "", "P": "Pa", "T": "K", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}
+        names = {"x1": "", "y1": "", "v_liquid": "m3/mol", "v_vapour": "m3/mol"}  # T and P: the unit system's
         rows, names = convert_rows(self.columns, self.rows, names, output_units(units))
         fixed = f"T = {self.fixed} K" if self.kind == "pxy" else f"P = {self.fixed} Pa"
         return write_csv(path, self.columns, rows, names, title=f"{self.kind} diagram at {fixed}",
