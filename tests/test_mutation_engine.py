@@ -584,3 +584,30 @@ def test_a_level_whose_newton_lands_outside_the_chord_is_found_inside_it_by_the_
     angle = math.pi - math.asin(0.99)
     assert located.x == pytest.approx([math.cos(angle), 0.99], abs=1e-9)
     assert 0.0 < located.fraction < 1.0 and located.located_to <= TraceOptions().location_tolerance
+
+
+def test_the_illinois_bracket_stops_on_its_width_or_on_a_trial_that_no_longer_moves():
+    from contin.tracing._locate import IllinoisBracket
+
+    def run(f, length, tolerance):
+        bracket, trials = IllinoisBracket(f(0.0), f(1.0), length, tolerance), []
+        for _ in range(100):
+            s = bracket.trial()
+            trials.append(s)
+            if bracket.update(s, f(s)):
+                break
+        return bracket, trials
+
+    # f = s - 0.3 on a chord of length 10, tolerance 1 (a distance): the first trial hits the zero
+    # exactly, so that end's value is 0 and the next trials bisect towards it; the bracket stops when
+    # its width, 0.075 of the chord (0.75 in length), falls below the tolerance.
+    bracket, trials = run(lambda s: s - 0.3, 10.0, 1.0)
+    assert trials == pytest.approx([0.3, 0.15, 0.225], abs=1e-15) and bracket.width == pytest.approx(0.75, rel=1e-12)
+    # exp(6 s) - 2 with a tolerance of 1e-3: a trial that moves less than the tolerance from the one
+    # before stops it while the bracket is still 8e-3 wide, at the tenth trial.
+    bracket, trials = run(lambda s: math.exp(6.0 * s) - 2.0, 1.0, 1e-3)
+    assert len(trials) == 10 and bracket.moved <= 1e-3 < bracket.width
+    # A zero at 0.999 (tolerance 0.01): the first trial has moved 1.999 from the start (taken as -1,
+    # off the chord), so it is not located at once, however near it lies to the end 1.
+    bracket, trials = run(lambda s: s - 0.999, 1.0, 0.01)
+    assert len(trials) == 8
