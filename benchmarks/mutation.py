@@ -214,7 +214,8 @@ def run_module(name, args, env, deadline) -> dict:
     base = _pytest(tests, env)
     baseline = time.monotonic() - start
     if base.returncode != 0:
-        result["error"] = "the tests fail on the unmutated source: " + base.stdout[-300:]
+        errors = [line for line in base.stdout.splitlines() if line.startswith(("E ", "FAILED", "ERROR"))]
+        result["error"] = "the tests fail on the unmutated source: " + " | ".join(errors[:30])
         return result
     not_run: set[int] | None = None
     if not args.no_coverage:
