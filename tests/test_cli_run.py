@@ -223,8 +223,11 @@ def test_ctrl_c_mid_trace_writes_the_partial_files_and_exits_130(tmp_path, capsy
 
 
 # A real SIGINT (what Ctrl-C sends) delivered to a `contin run` process at its sixth point.
+# The child restores Python's own SIGINT handler first: a child of a process started in the background
+# (nohup, "&") inherits SIGINT ignored, and the signal would then do nothing.
 _SIGINT_AT_POINT_5 = """\
 import os, signal, sys
+signal.signal(signal.SIGINT, signal.default_int_handler)
 import contin.studies._run as run_module
 from contin.commands._cli import main
 real = run_module.run_problem
