@@ -98,6 +98,9 @@ def test_a_land_function_that_fails_or_lands_elsewhere_leaves_an_estimate_and_a_
         assert branch.status.label == "bound_reached"
         assert "estimate" in branch.special("crossing")[0].info
         assert any("estimated" in note for note in branch.stats["notes"])
+        if land is far_away:
+            assert branch.stats["notes"] == ["the singular crossing solved at a = 3, d = 0, p = -2 does not lie "
+                                             "between the points around it; its position is estimated"]
 
 
 def test_folds_near_the_crossing_are_located_on_converged_points():

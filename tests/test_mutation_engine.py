@@ -611,3 +611,21 @@ def test_the_illinois_bracket_stops_on_its_width_or_on_a_trial_that_no_longer_mo
     # off the chord), so it is not located at once, however near it lies to the end 1.
     bracket, trials = run(lambda s: s - 0.999, 1.0, 0.01)
     assert len(trials) == 8
+
+
+def test_a_bound_on_a_name_that_is_no_coordinate_is_refused_naming_the_coordinates():
+    with pytest.raises(contin.InputError, match=r"^bounds names 'q', which is not an unknown or the free parameter "
+                                                r"\(coordinates: u, p\)"):
+        contin.trace(line_system(), {"u": 0.0}, free="p", bounds={"q": (0.0, 1.0)})
+
+
+def test_the_statistics_of_a_trace_have_their_documented_keys_and_counts():
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, max_step=0.1, bounds={"p": (0.0, 1.0)},
+                          at={"p": [0.5]})
+    keys = {"setup_seconds", "trace_seconds", "newton_iterations", "jacobian_evaluations", "residual_evaluations",
+            "accepted_steps", "rejected_steps", "rejections", "points", "linear_solver"}
+    assert keys <= set(branch.stats)
+    assert branch.stats["rejected_steps"] == 0 and branch.stats["points"] == len(branch)
+    # a requested value is a row, listed with its name and values
+    (at,) = branch.at
+    assert (at.kind, at.name) == ("at", "p = 0.5") and at.values["p"] == pytest.approx(0.5, abs=1e-12)
