@@ -629,3 +629,12 @@ def test_the_statistics_of_a_trace_have_their_documented_keys_and_counts():
     # a requested value is a row, listed with its name and values
     (at,) = branch.at
     assert (at.kind, at.name) == ("at", "p = 0.5") and at.values["p"] == pytest.approx(0.5, abs=1e-12)
+
+
+def test_each_step_is_the_distance_from_the_point_before_also_where_a_loop_closes():
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+    branch = contin.trace(circle, {"u": 1.0}, free="p", step=0.3, max_step=0.3)
+    assert branch.status is contin.Status.CLOSED_LOOP
+    assert branch.points[-1] == pytest.approx(branch.points[0], abs=0.0)  # ends exactly on the start
+    distances = np.linalg.norm(np.diff(branch.points, axis=0), axis=1)
+    assert branch.steps[0] == 0.0 and branch.steps[1:] == pytest.approx(distances, rel=1e-12)
