@@ -181,23 +181,33 @@ def _diff(source: str, mutated: str) -> str:
 
 
 _GUIDE_SECTION = "### Equivalent mutants"
-_ENTRY = re.compile(r"^- `(?P<module>[a-z_]+)` `(?P<change>[^`]+)`")
+_ENTRY = re.compile(r"^- `(?P<module>[a-z_]+)` `(?P<change>[^`]+)` — (?P<reason>.+)\.$")
 
 
-def equivalent_mutants(guide: Path | None = None) -> dict[str, set[str]]:
-    """The mutants judged equivalent (no test can tell them from the source), by module: the changes
-    listed, each with its reason, under "Equivalent mutants" in the contributor guide. A change is
-    written as this script prints it, spaces collapsed: the source line, " | ", the mutated line."""
+def guide_entries(guide: Path | None = None) -> list[tuple[str, str, str] | str]:
+    """The entries under "Equivalent mutants" in the contributor guide, in order: (module, change,
+    reason) for each well-formed one, the line itself for one that is not. A change is written as this
+    script prints it: the source line, " | ", the mutated line."""
     guide = guide or ROOT / "DEVELOPERS.md"
-    listed: dict[str, set[str]] = {}
+    entries: list[tuple[str, str, str] | str] = []
     inside = False
     for line in guide.read_text().splitlines():
         if line.startswith("#"):
             inside = line.strip() == _GUIDE_SECTION
-            continue
-        match = _ENTRY.match(line) if inside else None
-        if match:
-            listed.setdefault(match["module"], set()).add(_normal(match["change"]))
+        elif inside and line.startswith("- `"):
+            match = _ENTRY.match(line)
+            entries.append((match["module"], match["change"], match["reason"]) if match else line)
+    return entries
+
+
+def equivalent_mutants(guide: Path | None = None) -> dict[str, set[str]]:
+    """The mutants judged equivalent (no test can tell them from the source), by module: the changes
+    listed in the contributor guide (:func:`guide_entries`), spaces collapsed."""
+    listed: dict[str, set[str]] = {}
+    for entry in guide_entries(guide):
+        if isinstance(entry, tuple):
+            module, change, _ = entry
+            listed.setdefault(module, set()).add(_normal(change))
     return listed
 
 

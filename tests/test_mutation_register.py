@@ -8,10 +8,8 @@ now: once, or at every occurrence equivalent (said in the reason).
 
 import importlib.util
 import pathlib
-import re
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
-ENTRY = re.compile(r"^- `(?P<module>[a-z_]+)` `(?P<change>[^`]+)` — (?P<reason>.+)\.$")
 
 
 def _script():
@@ -21,38 +19,28 @@ def _script():
     return module
 
 
-def _entries():
-    lines, inside = [], False
-    for line in (ROOT / "DEVELOPERS.md").read_text().splitlines():
-        if line.startswith("#"):
-            inside = line.strip() == "### Equivalent mutants"
-        elif inside and line.startswith("- `"):
-            lines.append(line)
-    return lines
-
-
 def test_every_entry_names_a_module_a_change_and_a_reason():
     script = _script()
-    entries = _entries()
+    entries = script.guide_entries(ROOT / "DEVELOPERS.md")
     assert len(entries) >= 50
+    assert len(set(entries)) == len(entries), "an entry is listed twice"
     listed = script.equivalent_mutants(ROOT / "DEVELOPERS.md")
-    assert sum(len(changes) for changes in listed.values()) == len(set(entries))
-    for line in entries:
-        match = ENTRY.match(line)
-        assert match, line
-        assert match["module"] in script.MODULES, line
-        before, after = match["change"].split(" | +", 1)  # the source itself may hold " | "
-        assert before.startswith("-") and before[1:].strip() != after.strip(), line
-        assert len(match["reason"].split()) >= 3, line
+    assert sum(len(changes) for changes in listed.values()) == len(entries)  # one reason per change
+    for entry in entries:
+        assert isinstance(entry, tuple), f"not an entry: {entry}"
+        module, change, reason = entry
+        assert module in script.MODULES, entry
+        before, after = change.split(" | +", 1)  # the source itself may hold " | "
+        assert before.startswith("-") and before[1:].strip() != after.strip(), entry
+        assert len(reason.split()) >= 3, entry
 
 
 def test_every_entry_names_a_line_of_its_module_once_or_at_every_occurrence():
     script = _script()
-    for line in _entries():
-        match = ENTRY.match(line)
-        path = ROOT / script.MODULES[match["module"]][0]
+    for module, change, reason in script.guide_entries(ROOT / "DEVELOPERS.md"):
+        path = ROOT / script.MODULES[module][0]
         source = [" ".join(text.split()) for text in path.read_text().splitlines()]
-        before = " ".join(match["change"].split(" | +", 1)[0][1:].split())
+        before = " ".join(change.split(" | +", 1)[0][1:].split())
         count = source.count(before)
-        assert count >= 1, f"no longer in {path.name}: {line}"
-        assert count == 1 or "every occurrence" in match["reason"], f"{count} times in {path.name}: {line}"
+        assert count >= 1, f"no longer in {path.name}: {change}"
+        assert count == 1 or "every occurrence" in reason, f"{count} times in {path.name}: {change}"
