@@ -37,15 +37,11 @@ def test_a_known_phase_with_one_volume_root_handed_back_as_a_trial_is_not_new():
     # forced root. Just past the critical point the cubic has one root for it: that root is both the
     # liquid and the vapour one, so the trial is the known phase whichever root it is counted on.
     # (Breaks: the one-root guard of _roots_used dropped.)
+    from test_mutation_thermo import incipient_phase_past_the_critical_point
+
     envelope = trace_envelope(BLEND, Z, check_stability=False)
-    row = envelope.rows[envelope.special("critical")["index"] + 4]
-    assert row[2] == "bubble"
-    T, P = row[0], row[1] * (1 - 1e-3)
-    inside = tangent_plane_test(BLEND, T, P, Z)
-    assert not inside.stable and inside.tm < -1e-6
-    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
-    assert liquid == vapour
-    again = tangent_plane_test(BLEND, T, P, Z, known=(inside.trial,), start=inside.trial[None, :])
+    T, P, trial = incipient_phase_past_the_critical_point(envelope, 4, 1e-3, 1e-6)
+    again = tangent_plane_test(BLEND, T, P, Z, known=(trial,), start=trial[None, :])
     assert again.stable and again.tm == 0.0
 
 

@@ -164,19 +164,26 @@ def test_a_known_phase_is_not_taken_for_a_new_one():
         assert again.stable and again.tm == 0.0
 
 
+def incipient_phase_past_the_critical_point(envelope, rows_past, below, tm_below):
+    """(T, P, the phase found there) a little inside BLEND's envelope, ``rows_past`` rows past its
+    critical point on the bubble side and ``below`` (relative) under the bubble pressure: the feed is
+    unstable there (tm below -``tm_below``), and the phase found has one volume root."""
+    row = envelope.rows[envelope.special("critical")["index"] + rows_past]
+    assert row[2] == "bubble"
+    T, P = row[0], row[1] * (1 - below)
+    inside = tangent_plane_test(BLEND, T, P, Z)
+    assert not inside.stable and inside.tm < -tm_below
+    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
+    assert liquid == vapour
+    return T, P, inside.trial
+
+
 def test_a_known_phase_with_one_volume_root_is_recognised_on_either_root(envelope):
     # Just past the critical point, 1e-4 below the bubble pressure, the only phase below the plane is
     # the incipient one, so near the critical point that the cubic has one root for it: a trial forced
     # onto the "vapour" or the "liquid" root lands on the same phase. Named as known, it is not new.
-    critical = envelope.special("critical")["index"]
-    row = envelope.rows[critical + 3]
-    assert row[2] == "bubble"
-    T, P = row[0], row[1] * (1 - 1e-4)
-    inside = tangent_plane_test(BLEND, T, P, Z)
-    assert not inside.stable and inside.tm < -1e-7
-    liquid, vapour = BLEND.volume_roots(T, P, inside.trial)
-    assert liquid == vapour
-    again = tangent_plane_test(BLEND, T, P, Z, known=(inside.trial,))
+    T, P, trial = incipient_phase_past_the_critical_point(envelope, 3, 1e-4, 1e-7)
+    again = tangent_plane_test(BLEND, T, P, Z, known=(trial,))
     assert again.stable and again.tm == 0.0
 
 
