@@ -15,6 +15,9 @@ import pytest
 import contin
 
 
+UNIT_CIRCLE = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
+
+
 def line_system():
     # u - p = 0: the branch is the diagonal u = p, traced with p increasing (exact).
     return contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["u"], {"p": 0.0},
@@ -322,9 +325,8 @@ def test_a_trace_that_succeeds_has_no_cause():
 def test_the_corrector_may_not_move_further_than_max_correction_of_the_step():
     # On the unit circle the second-order predictor misses by about h^3/8 (h the step): a reach of
     # 1e-6 of the step forces steps far below the asked 0.1; with the default reach 0.5 it is kept.
-    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
-    tight = contin.trace(circle, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30, max_correction=1e-6)
-    loose = contin.trace(circle, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30)
+    tight = contin.trace(UNIT_CIRCLE, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30, max_correction=1e-6)
+    loose = contin.trace(UNIT_CIRCLE, {"u": -1.0}, free="p", step=0.1, max_step=0.1, max_points=30)
     assert np.median(loose.steps[1:]) > 0.09
     assert tight.steps.max() < 0.02
     on_circle = tight.column("u") ** 2 + tight.column("p") ** 2
@@ -406,17 +408,13 @@ def test_the_illinois_bracket_shrinks_from_both_sides_to_the_tolerance(f):
 
 
 def test_a_level_of_a_coordinate_is_located_on_the_branch_between_two_points():
-    from contin.tracing._extended import Counters, Extended
     from contin.tracing._locate import locate_level
     from contin.tracing._options import TraceOptions
 
     # The unit circle u^2 + p^2 = 1 between the points at angles 0.2 and 1.2 (x = (u, p) = (cos, sin)):
     # p = 0.5 is at angle pi/6, at chord fraction (0.5 - sin 0.2) / (sin 1.2 - sin 0.2) of the chord's
     # projection, u = sqrt(3)/2 (exact).
-    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
-    extended = Extended(circle, np.array([0.0]), 0, Counters())
-    xa, xb = np.array([math.cos(0.2), math.sin(0.2)]), np.array([math.cos(1.2), math.sin(1.2)])
-    ta, tb = np.array([-math.sin(0.2), math.cos(0.2)]), np.array([-math.sin(1.2), math.cos(1.2)])
+    extended, (xa, ta), (xb, tb) = _unit_circle()
     for level in (0.5, float(xb[1]) - 1e-6):
         located = locate_level(extended, (xa, ta), (xb, tb), 1, level, TraceOptions())
         assert located.x[1] == pytest.approx(level, abs=1e-12)
@@ -436,14 +434,16 @@ def test_a_start_on_a_bound_heading_out_ends_there_at_once():
     assert bound.residual_norm == branch.residual_norms[0] and bound.located_to == 0.0
 
 
-def _unit_circle():
+def _unit_circle(angle_a=0.2, angle_b=1.2):
+    """u^2 + p^2 = 1 as the driver's extended system, and its points (x, tangent) at two angles."""
     from contin.tracing._extended import Counters, Extended
 
-    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
-    extended = Extended(circle, np.array([0.0]), 0, Counters())
-    a = (np.array([math.cos(0.2), math.sin(0.2)]), np.array([-math.sin(0.2), math.cos(0.2)]))
-    b = (np.array([math.cos(1.2), math.sin(1.2)]), np.array([-math.sin(1.2), math.cos(1.2)]))
-    return extended, a, b
+    extended = Extended(UNIT_CIRCLE, np.array([0.0]), 0, Counters())
+
+    def point(angle):
+        return np.array([math.cos(angle), math.sin(angle)]), np.array([-math.sin(angle), math.cos(angle)])
+
+    return extended, point(angle_a), point(angle_b)
 
 
 def test_a_level_starts_newton_from_the_linear_interpolate_and_an_end_level_is_that_end():
@@ -490,19 +490,25 @@ def test_a_zero_is_located_in_few_trials_and_none_when_no_point_can_be_corrected
     assert locate_zero(extended, (*a, -1.0), (a[0], a[1], 1.0), test, TraceOptions()) is None  # no chord
 
 
-def test_the_illinois_bracket_measures_its_width_and_moves_in_lengths_along_the_chord():
+def _bracket_trials(f, length, tolerance):
+    """The Illinois bracket on f over a chord of ``length``, run until it says located (an exact zero
+    at a trial is handed to it like any other value): the bracket and its trials."""
     from contin.tracing._locate import IllinoisBracket
 
-    def f(s):
-        return math.exp(6.0 * s) - 2.0
-
-    bracket = IllinoisBracket(f(0.0), f(1.0), 10.0, 1e-10)
-    trials = []
+    bracket, trials = IllinoisBracket(f(0.0), f(1.0), length, tolerance), []
     for _ in range(100):
         s = bracket.trial()
         trials.append(s)
         if bracket.update(s, f(s)):
             break
+    return bracket, trials
+
+
+def test_the_illinois_bracket_measures_its_width_and_moves_in_lengths_along_the_chord():
+    def f(s):
+        return math.exp(6.0 * s) - 2.0
+
+    bracket, trials = _bracket_trials(f, 10.0, 1e-10)
     # on a chord of length 10 the tolerance 1e-10 is 1e-11 in the fraction
     assert len(trials) == 14
     assert bracket.width == pytest.approx(10.0 * (bracket.high - bracket.low), rel=1e-15)
@@ -569,17 +575,13 @@ def test_a_step_that_would_pass_a_requested_value_lands_on_it_and_the_next_start
 
 
 def test_a_level_whose_newton_lands_outside_the_chord_is_found_inside_it_by_the_bracket():
-    from contin.tracing._extended import Counters, Extended
     from contin.tracing._locate import locate_level
     from contin.tracing._options import TraceOptions
 
     # On the unit circle from angle 1.45 to 1.95, p = 0.99 is crossed at angle pi - asin(0.99), inside;
     # Newton from the linear interpolate (u = 0.099) goes to the other crossing, asin(0.99), before the
     # first point. The level is then bracketed on the chord, and found inside.
-    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
-    extended = Extended(circle, np.array([0.0]), 0, Counters())
-    a = (np.array([math.cos(1.45), math.sin(1.45)]), np.array([-math.sin(1.45), math.cos(1.45)]))
-    b = (np.array([math.cos(1.95), math.sin(1.95)]), np.array([-math.sin(1.95), math.cos(1.95)]))
+    extended, a, b = _unit_circle(1.45, 1.95)
     located = locate_level(extended, a, b, 1, 0.99, TraceOptions())
     angle = math.pi - math.asin(0.99)
     assert located.x == pytest.approx([math.cos(angle), 0.99], abs=1e-9)
@@ -587,29 +589,18 @@ def test_a_level_whose_newton_lands_outside_the_chord_is_found_inside_it_by_the_
 
 
 def test_the_illinois_bracket_stops_on_its_width_or_on_a_trial_that_no_longer_moves():
-    from contin.tracing._locate import IllinoisBracket
-
-    def run(f, length, tolerance):
-        bracket, trials = IllinoisBracket(f(0.0), f(1.0), length, tolerance), []
-        for _ in range(100):
-            s = bracket.trial()
-            trials.append(s)
-            if bracket.update(s, f(s)):
-                break
-        return bracket, trials
-
     # f = s - 0.3 on a chord of length 10, tolerance 1 (a distance): the first trial hits the zero
     # exactly, so that end's value is 0 and the next trials bisect towards it; the bracket stops when
     # its width, 0.075 of the chord (0.75 in length), falls below the tolerance.
-    bracket, trials = run(lambda s: s - 0.3, 10.0, 1.0)
+    bracket, trials = _bracket_trials(lambda s: s - 0.3, 10.0, 1.0)
     assert trials == pytest.approx([0.3, 0.15, 0.225], abs=1e-15) and bracket.width == pytest.approx(0.75, rel=1e-12)
     # exp(6 s) - 2 with a tolerance of 1e-3: a trial that moves less than the tolerance from the one
     # before stops it while the bracket is still 8e-3 wide, at the tenth trial.
-    bracket, trials = run(lambda s: math.exp(6.0 * s) - 2.0, 1.0, 1e-3)
+    bracket, trials = _bracket_trials(lambda s: math.exp(6.0 * s) - 2.0, 1.0, 1e-3)
     assert len(trials) == 10 and bracket.moved <= 1e-3 < bracket.width
     # A zero at 0.999 (tolerance 0.01): the first trial has moved 1.999 from the start (taken as -1,
     # off the chord), so it is not located at once, however near it lies to the end 1.
-    bracket, trials = run(lambda s: s - 0.999, 1.0, 0.01)
+    bracket, trials = _bracket_trials(lambda s: s - 0.999, 1.0, 0.01)
     assert len(trials) == 8
 
 
@@ -632,8 +623,7 @@ def test_the_statistics_of_a_trace_have_their_documented_keys_and_counts():
 
 
 def test_each_step_is_the_distance_from_the_point_before_also_where_a_loop_closes():
-    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["u"], {"p": 0.0})
-    branch = contin.trace(circle, {"u": 1.0}, free="p", step=0.3, max_step=0.3)
+    branch = contin.trace(UNIT_CIRCLE, {"u": 1.0}, free="p", step=0.3, max_step=0.3)
     assert branch.status is contin.Status.CLOSED_LOOP
     assert branch.points[-1] == pytest.approx(branch.points[0], abs=0.0)  # ends exactly on the start
     distances = np.linalg.norm(np.diff(branch.points, axis=0), axis=1)
