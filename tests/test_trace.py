@@ -301,7 +301,7 @@ def test_start_outside_bounds_is_refused():
 
 
 def test_start_of_wrong_length_and_unknown_name_are_refused():
-    with pytest.raises(contin.InputError, match="start has 2 values but the system has 1 unknowns"):
+    with pytest.raises(contin.InputError, match="start has 2 values but the system has 1 unknown$"):
         contin.trace(cubic_s_curve().system, [1.0, 2.0], free="p")
     with pytest.raises(contin.InputError, match="start names 'v', which is not an unknown; did you mean 'u'"):
         contin.trace(cubic_s_curve().system, {"v": 1.0}, free="p")

@@ -94,7 +94,8 @@ def start_vector(system: System, start) -> np.ndarray:
     else:
         values = np.asarray(start, dtype=float).reshape(-1)
         if values.size != system.size:
-            raise InputError(f"start has {values.size} values but the system has {system.size} unknowns")
+            raise InputError(f"start has {values.size} value{'' if values.size == 1 else 's'} but the system has "
+                             f"{system.size} unknown{'' if system.size == 1 else 's'}")
     bad = [name for name, v in zip(system.unknowns, values) if not math.isfinite(v)]
     if bad:
         raise InputError(f"start value of {bad[0]!r} is not finite ({values[system.unknowns.index(bad[0])]})")
