@@ -42,6 +42,13 @@ RESUME = "resume"
 _BRANCH_RETRIES = 3
 
 
+def _number(value: float) -> str:
+    """A requested value or bound as written in a name: short (``%g``) where that is exact, else every
+    digit, so that 1000000.5 is not named 1e+06 and two levels never share one name."""
+    text = f"{value:g}"
+    return text if float(text) == value else repr(float(value))
+
+
 def _length(v: np.ndarray) -> float:
     """Euclidean length; math.sqrt of a dot product is several times cheaper than np.linalg.norm here."""
     return math.sqrt(float(v @ v))
@@ -476,7 +483,7 @@ class _Run:
         for coordinate, values in self.at:
             for value in values[values == correction.x[coordinate]]:
                 located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0, 0.0)
-                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
         if self.on_point is not None:
             self._notify(index, correction.x)
 
@@ -874,7 +881,7 @@ class _Run:
             if kind == "at":
                 coordinate, value = payload
                 index = len(self.rows) - 1
-                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
                 continue
             if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
                 index = len(self.rows) - 1  # reported on the point before the step (not located closer)
@@ -911,7 +918,7 @@ class _Run:
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
             located = Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0)
-            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {value:g}", index, located))
+            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -1092,8 +1099,8 @@ class _Run:
 
     def _bound_reached(self, coordinate: int, level: float, index: int, located: Located) -> None:
         name = self.columns[coordinate]
-        self.special.append(self.special_point("bound", f"{name} = {level:g}", index, located, {"coordinate": name}))
-        self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {level:g} at {self.describe(located.x)}")
+        self.special.append(self.special_point("bound", f"{name} = {_number(level)}", index, located, {"coordinate": name}))
+        self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
 
     def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
         """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
