@@ -43,7 +43,8 @@ _TRACING_TESTS = (
     "tests/test_mutation_engine.py", "tests/test_mutation_tracing_more.py",
     "tests/test_branch_points.py", "tests/test_branch_point_location.py", "tests/test_inside_step.py",
     "tests/test_stepsize.py", "tests/test_newton_tolerance.py", "tests/test_hopf.py",
-    "tests/test_follow.py", "tests/test_switching.py",
+    "tests/test_follow.py", "tests/test_switching.py", "tests/test_trace_input.py",
+    "tests/test_trace_points.py",
 )
 _ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py", "tests/test_envelope_robustness.py")
 # module name -> (source file, the tests of that feature run against each of its mutants)

@@ -153,16 +153,18 @@ def test_hopf_sign_changes_only_through_a_zero_pair_sum():
     assert hopf_sign(jacobian(0.0, 1.0)) == 0
 
 
-@pytest.mark.parametrize("limit, computed", [(20, True), (19, False)])
+@pytest.mark.parametrize("limit, computed", [(20, True), (19, False), (None, True)])
 def test_a_sparse_hopf_point_gets_its_lyapunov_coefficient_up_to_the_size_limit(monkeypatch, limit, computed):
     # The chain of oscillators with a cubic -z |z|^2 damping (10 cells, 20 unknowns): its first Hopf
     # point (p = 0.98) is supercritical (a negative coefficient). Above LYAPUNOV_SIZE unknowns on the sparse
-    # path the coefficient is not computed (nan); at the limit itself it is.
+    # path the coefficient is not computed (nan); at the limit itself it is, and under the default limit
+    # (None: not patched) 20 unknowns are well inside it.
     from test_sparse import oscillator_chain
 
     import contin.tracing._trace as driver
 
-    monkeypatch.setattr(driver, "LYAPUNOV_SIZE", limit)
+    if limit is not None:
+        monkeypatch.setattr(driver, "LYAPUNOV_SIZE", limit)
     branch = contin.trace(oscillator_chain(10, 0.1), free="p", step=0.1, max_step=0.5, bounds={"p": (-0.5, 1.5)})
     assert branch.stats["linear_solver"] == "sparse_lu"
     (first, *_) = branch.special("hopf")

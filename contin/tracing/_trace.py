@@ -526,7 +526,6 @@ class _Run:
         curvature = None  # estimate of d2x/ds2 from the last two tangents
         h = options.step
         farthest = 0.0
-        last_reason = ""
         if self._leaving_through_a_bound(x, t):
             return
         if self.passage is not None and self.passage.distance(x) <= self.passage.crossing.near:
@@ -760,6 +759,21 @@ class _Run:
         def fraction_of(x: np.ndarray) -> float:
             return min(1.0, max(0.0, float((x - xa) @ chord) / length2))
 
+        splits: list[Located] = []  # turning points of watched coordinates and events: the step's pieces
+
+        def own(x: np.ndarray, t: np.ndarray, located_to: float = 0.0, value: float = 0.0) -> Located:
+            """One of the step's own points (its first point, which is the last row, a split point, or
+            its end) as a Located with that point's own residual and Newton iterations, never another
+            point's."""
+            split = next((s for s in splits if s.x is x), None)
+            if x is xb:
+                residual_norm, iterations = correction.residual_norm, correction.iterations
+            elif split is not None:
+                residual_norm, iterations = split.residual_norm, split.iterations
+            else:
+                residual_norm, iterations = self.residuals[-1], self.iterations[-1]
+            return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to, value)
+
         def unlocated(ends, f_a: float, f_b: float, prefer_first: bool = False) -> Located | None:
             """None (retry a shorter step), or with force the nearer bracketing point."""
             if not force:
@@ -767,8 +781,7 @@ class _Run:
             (x0, t0), (x1, t1) = ends
             use_first = prefer_first or abs(f_a) < abs(f_b)
             x, t = (x0, t0) if use_first else (x1, t1)
-            return Located(fraction_of(x), x, t, float(correction.residual_norm),
-                           int(correction.iterations), length, f_a if use_first else f_b)
+            return own(x, t, length, f_a if use_first else f_b)
 
         near_crossing = self.passage is not None and self.passage.active
         patient = not force and self.branch_retries < _BRANCH_RETRIES
@@ -808,7 +821,6 @@ class _Run:
         watched = self.watched
         if not force and any(_turns_twice(xa[c], xb[c], ta[c], tb[c], length) for c in set(self.folds) | watched):
             return None  # a coordinate seems to turn twice inside the step (its end slopes agree): subdivide
-        splits: list[Located] = []
         free_folds = 0
         for coordinate in sorted(set(self.folds) | watched):
             if not crossed(ta[coordinate], tb[coordinate]):
@@ -850,7 +862,8 @@ class _Run:
         at_b = []
         for piece in range(len(ends) - 1):
             first, last = ends[piece], ends[piece + 1]
-            pieces = self._levels_in_piece(first, last, values[piece], values[piece + 1], last is ends[-1], unlocated)
+            pieces = self._levels_in_piece(first, last, values[piece], values[piece + 1], last is ends[-1],
+                                          unlocated, own)
             if pieces is None:
                 return None
             landed, located_here = pieces
@@ -877,6 +890,7 @@ class _Run:
             found = [item for item in found if item[1] in ("at", "bound") or float(np.linalg.norm(item[3].x - xa)) > near]
         kinds_order = {"bound": 0, "event": 1}
         found.sort(key=lambda item: (item[0], kinds_order.get(item[1], 2)))
+        end = None  # the row of b, once a point reported on b itself (a forced step's bracket) appends it
         for fraction, kind, payload, located in found:
             if kind == "at":
                 coordinate, value = payload
@@ -885,6 +899,10 @@ class _Run:
                 continue
             if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
                 index = len(self.rows) - 1  # reported on the point before the step (not located closer)
+            elif located.x is xb:
+                if end is None:
+                    end = self.append(xb, tb, correction.iterations, correction.residual_norm)
+                index = end
             else:
                 index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
             if kind == "passage":
@@ -915,7 +933,7 @@ class _Run:
                 coordinate, level = payload
                 self._bound_reached(coordinate, level, index, located)
                 return True
-        index = self.append(xb, tb, correction.iterations, correction.residual_norm)
+        index = end if end is not None else self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
             located = Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0)
             self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
@@ -1003,11 +1021,13 @@ class _Run:
             self._notify(index, xb)
         return False
 
-    def _levels_in_piece(self, first, last, values_first, values_last, is_end, unlocated):
+    def _levels_in_piece(self, first, last, values_first, values_last, is_end, unlocated, own):
         """Requested values, events and bounds crossed on one monotone piece of a step.
 
         Returns (requested values the piece's end landed on exactly, [(kind, payload, located)]), or
-        None if one could not be located (and the step is not forced).
+        None if one could not be located (and the step is not forced). ``unlocated`` and ``own`` are
+        those of :meth:`_special_points`: the bracketing point of a forced step, and a point of the
+        step with its own residual.
         """
         (x0, t0), (x1, t1) = first, last
         options = self.options
@@ -1059,8 +1079,7 @@ class _Run:
                     continue
                 if start_side == 0.0:
                     # On the bound already and leaving: the crossing is the piece's first point itself.
-                    located = Located(0.0, x0, t0, 0.0, 0, 0.0, 0.0)
-                    located = self._on_row(x0, t0) or located
+                    located = own(x0, t0)
                 else:
                     located = locate_level(self.extended, (x0, t0), (x1, t1), coordinate, level, options)
                     located = located or unlocated((first, last), x0[coordinate] - level, x1[coordinate] - level, True)
@@ -1141,6 +1160,7 @@ class _Run:
         self.rows[-1] = x_start.copy()
         self.tangents[-1] = t_start.copy()
         self.residuals[-1] = self.residuals[0]
+        self.iterations[-1] = self.iterations[0]
         self.steps[-1] = float(np.linalg.norm(x_start - self.rows[-2])) if len(self.rows) > 1 else 0.0
         located = Located(1.0, x_start, t_start, self.residuals[0], self.iterations[0], gap, 0.0)
         self.special.append(self.special_point("closed_loop", "back at the start", len(self.rows) - 1, located))

@@ -1,0 +1,217 @@
+"""What a trace's rows and special points hold: measured residuals, one row per point, exact names,
+and the checks made between the two ends of a step at coordinates far from 1.
+
+Each expected value is exact or derived in the comment beside it.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import contin
+from contin.tracing._trace import _turns_twice
+
+
+def line(slope: float = 1.0):
+    # u = slope * p: a straight branch (exact).
+    return contin.CallableSystem(lambda u, p: [u[0] - slope * p[0]], ["u"], {"p": 0.0},
+                                 jacobian=lambda u, p: [[1.0]], parameter_jacobian=lambda u, p: [[-slope]])
+
+
+def parabola_with_a_hole(centre: float = 0.25):
+    # u = p^2, except that the residual is not a number within 0.001 of p = centre: a step can cross
+    # the hole, a location inside it cannot converge.
+    def residual(u, p):
+        return [u[0] - p[0] ** 2 + (math.nan if abs(p[0] - centre) < 0.001 else 0.0)]
+
+    return contin.CallableSystem(residual, ["u"], {"p": 0.0}, jacobian=lambda u, p: [[1.0]],
+                                 parameter_jacobian=lambda u, p: [[-2.0 * p[0]]])
+
+
+CIRCLE = contin.SymbolicSystem({"f": "u**2 + p**2 - 1"}, {"u": 1.0}, {"p": 0.0})
+QUARTER = contin.Event("quarter", lambda u, p: p[0] - 0.25)
+
+
+def largest_residual(system, branch, x) -> float:
+    n = len(system.unknowns)
+    values = dict(branch.parameters, **{branch.free: x[n]})
+    parameters = np.array([values[name] for name in system.parameters], dtype=float)
+    return float(np.abs(np.asarray(system.residual(x[:n], parameters), dtype=float)).max())
+
+
+TRACES = {
+    # a loop from a guess off the curve: the start's residual (2.8e-14) is not zero, so a closing row
+    # that kept its own or took another row's would show
+    "closed loop": (CIRCLE, dict(start={"u": 1.3}, free="p", step=0.1)),
+    "requested values, an event and a bound": (CIRCLE, dict(
+        free="p", step=0.3, at={"u": [0.5, 1.0], "p": [0.0, 0.3]}, bounds={"u": (-0.9, 2.0)},
+        events=[contin.Event("e", lambda u, p: u[0] + p[0] - 0.2)])),
+    "a start on its bound": (CIRCLE, dict(free="p", step=0.2, bounds={"p": (0.0, 2.0)}, direction=-1)),
+    "two folds": (contin.SymbolicSystem({"f": "u**3 - u - p"}, {"u": -1.5}, {"p": -1.875}),
+                  dict(free="p", step=0.2, bounds={"p": (-2.0, 2.0)}, folds=["u"])),
+    # every step is at min_step, so an event that cannot be located in the hole is reported at the
+    # nearer end of its step
+    "a forced step": (parabola_with_a_hole(), dict(start={"u": 0.01}, free="p", step=0.1, min_step=0.1,
+                                                   events=[QUARTER], bounds={"p": (-1.0, 0.5)})),
+    # the same with the event and the hole at p = 0.24, nearer the start of that step (0.197)
+    "a forced step, nearer its start": (parabola_with_a_hole(0.24), dict(
+        start={"u": 0.01}, free="p", step=0.1, min_step=0.1, bounds={"p": (-1.0, 0.5)},
+        events=[contin.Event("near start", lambda u, p: p[0] - 0.24)])),
+}
+
+
+@pytest.mark.parametrize("case", sorted(TRACES))
+def test_every_residual_reported_is_the_one_measured_at_its_point(case):
+    system, keywords = TRACES[case]
+    branch = contin.trace(system, **keywords)
+    assert branch.status in (contin.Status.CLOSED_LOOP, contin.Status.BOUND_REACHED), branch.message
+    assert len(branch) >= 1
+    measured = [largest_residual(system, branch, x) for x in branch.points]
+    assert branch.residual_norms.tolist() == measured
+    for point in branch.special_points + branch.at:
+        assert point.residual_norm == largest_residual(system, branch, point.point), point.name
+        if point.kind != "at" and branch.points[point.index].tolist() == point.point.tolist():
+            # reported on a row: the row's own Newton iterations, not another point's
+            assert point.newton_iterations == branch.newton_iterations[point.index], point.name
+
+
+def test_a_closing_row_is_the_start_with_the_starts_own_residual():
+    system, keywords = TRACES["closed loop"]
+    branch = contin.trace(system, **keywords)
+    assert branch.status is contin.Status.CLOSED_LOOP
+    assert branch.residual_norms[0] > 0.0  # measured: the guess 1.3 is corrected to rounding level
+    assert branch.points[-1].tolist() == branch.points[0].tolist()
+    assert branch.residual_norms[-1] == branch.residual_norms[0]
+    assert branch.residual_norms[-2] != branch.residual_norms[0]
+
+
+def test_an_event_reported_on_the_start_of_a_forced_step_is_that_row():
+    # The event p = 0.24 in its hole is nearer the step's first point (p = 0.197, |g| = 0.043; the end,
+    # p = 0.288, has 0.048): it is reported on that row, with that row's Newton iterations.
+    system, keywords = TRACES["a forced step, nearer its start"]
+    branch = contin.trace(system, **keywords)
+    (event,) = branch.special("event")
+    assert event.values["p"] == pytest.approx(0.1971889730, abs=1e-9)
+    assert branch.points[event.index].tolist() == event.point.tolist()
+    assert event.newton_iterations == branch.newton_iterations[event.index] > 0
+    assert len(np.unique(branch.points, axis=0)) == len(branch)
+
+
+def test_an_event_reported_on_the_end_of_a_forced_step_is_one_row():
+    # The event p = 0.25 lies in the hole: its step (p = 0.197 to 0.288) is at min_step, so it is
+    # reported on the nearer end, p = 0.288 (|g| = 0.038 there, 0.053 at the start of the step), located
+    # to the step's length. That end is one row of the branch, not two.
+    system, keywords = TRACES["a forced step"]
+    branch = contin.trace(system, **keywords)
+    (event,) = branch.special("event")
+    assert branch.points[event.index].tolist() == event.point.tolist()
+    assert event.values["p"] == pytest.approx(0.2881207816, abs=1e-9)
+    step = float(np.linalg.norm(branch.points[event.index] - branch.points[event.index - 1]))
+    assert event.located_to == pytest.approx(step, rel=1e-12)
+    assert np.all(branch.steps[1:] > 0.0), "two rows are the same point"
+    assert len(np.unique(branch.points, axis=0)) == len(branch)
+
+
+def test_bounds_and_requested_values_are_named_with_every_digit_they_need():
+    # %g writes 1000000.5 as 1e+06; the names keep the value, and short values stay short.
+    branch = contin.trace(line(), {"u": 1e6}, free="p", parameters={"p": 1e6}, step=1.0, max_step=1.0,
+                          at={"u": [1e6 + 0.25, 1e6 + 1.0]}, bounds={"p": (0.0, 1e6 + 1.5)})
+    assert sorted(point.name for point in branch.at) == ["u = 1000000.25", "u = 1000001.0"]
+    (bound,) = branch.special("bound")
+    assert bound.name == "p = 1000001.5"
+    assert branch.message.startswith("completed: the branch reached a bound p = 1000001.5 at ")
+    short = contin.trace(line(), {"u": 0.0}, free="p", step=0.1, at={"u": [0.25]}, bounds={"p": (-1.0, 0.5)})
+    assert [point.name for point in short.at] == ["u = 0.25"]
+    assert short.special("bound")[0].name == "p = 0.5"
+
+
+def test_a_requested_value_just_past_a_start_on_another_is_aimed_at():
+    # The start u = 2 is itself a requested value; the next, 2.5, lies within the first step (1.0 along
+    # u = p moves u by 0.707), so that step lands on it exactly: its point is a row of the branch.
+    branch = contin.trace(line(), {"u": 2.0}, free="p", parameters={"p": 2.0}, step=1.0, max_step=1.0,
+                          at={"u": [2.0, 2.5]}, bounds={"p": (0.0, 3.2)})
+    assert [(point.name, point.index) for point in branch.at] == [("u = 2", 0), ("u = 2.5", 1)]
+    assert branch.points[1].tolist() == [2.5, 2.5]
+    assert branch.at[1].located_to == 0.0
+
+
+def test_an_event_that_dips_and_returns_inside_one_step_far_from_zero_is_found_twice():
+    # g = (p - 1e6)^2 - 0.01 is negative only for |p - 1e6| < 0.1: a step of 1 on u = p from
+    # p = 1e6 - 0.5 can pass both zeros with g > 0 at its ends. Its slope along the branch changes sign at
+    # p = 1e6, which splits the step, but only if the difference step is large enough to be seen
+    # beside p ~ 1e6 (a step scaled down by the coordinates' size is below their rounding).
+    dip = contin.Event("dip", lambda u, p: (p[0] - 1e6) ** 2 - 0.01)
+    branch = contin.trace(line(), {"u": 1e6 - 0.5}, free="p", parameters={"p": 1e6 - 0.5}, step=1.0,
+                          max_step=1.0, events=[dip], bounds={"p": (0.0, 1e6 + 0.5)})
+    zeros = [point.values["p"] - 1e6 for point in branch.special("event")]
+    assert zeros == pytest.approx([-0.1, 0.1], abs=1e-8)
+
+
+def test_a_point_located_on_a_straight_branch_far_from_zero_is_on_its_step():
+    # On u = p near 1e6 the Newton tolerance reaches 1e3 * 1e-10 * 1e6 = 0.1, more than 1 % of a step of
+    # 1: an event located exactly on the chord still lies on the step's arc, so the step is kept at
+    # once (no rejection, no note) and the event is located to rounding.
+    mid = contin.Event("mid", lambda u, p: p[0] - 1e6 - 0.3)
+    branch = contin.trace(line(), {"u": 1e6}, free="p", parameters={"p": 1e6}, step=1.0, max_step=1.0,
+                          min_step=1e-6, events=[mid], bounds={"p": (0.0, 1e6 + 2.0)})
+    assert branch.stats["rejections"] == {}
+    assert "notes" not in branch.stats
+    (event,) = branch.special("event")
+    assert event.values["p"] == pytest.approx(1e6 + 0.3, abs=1e-8)
+    assert event.located_to < 1e-9
+
+
+def test_a_helix_that_passes_near_its_start_is_not_a_closed_loop():
+    # u = cos(w / e), v = sin(w / e): after one turn (u, v) is back and w has moved by 2 pi e = 5e-5.
+    # A step of 0.005 turns the tangent by 0.005, so the arc lies within 0.25 * 0.005 * 0.005 = 6e-6 of
+    # its chord: a start 5e-5 away was not passed. The trace goes on to its bound.
+    e = 5e-5 / (2.0 * math.pi)
+
+    def residual(u, p):
+        return [u[0] - math.cos(p[0] / e), u[1] - math.sin(p[0] / e)]
+
+    def jacobian(u, p):
+        return [[1.0, 0.0], [0.0, 1.0]]
+
+    def parameter_jacobian(u, p):
+        return [[math.sin(p[0] / e) / e], [-math.cos(p[0] / e) / e]]
+
+    helix = contin.CallableSystem(residual, ["u", "v"], {"w": 0.0}, jacobian=jacobian,
+                                  parameter_jacobian=parameter_jacobian)
+    branch = contin.trace(helix, [1.0, 0.0], free="w", step=0.005, max_step=0.005, max_points=3000,
+                          bounds={"w": (-1.0, 7.5e-5)})
+    assert branch.status is contin.Status.BOUND_REACHED, branch.message
+    assert branch.special("closed_loop") == ()
+    assert branch.points[-1, 2] == 7.5e-5
+
+
+def test_a_turn_of_the_interpolant_beyond_the_step_is_not_a_turn_inside_it():
+    # p'(s) = 2.15 - 3 s + s^2 (values 0 and 5.9/6, slopes 2.15 and 0.15 over a length of 1): its
+    # minimum (-0.1) is at s = 1.5, past the step, and p' > 0 on [0, 1], so nothing turns inside.
+    assert not _turns_twice(0.0, 5.9 / 6.0, 2.15, 0.15, 1.0)
+    # p'(s) = 2.1 - 6 s + 4 s^2 (values 0 and 2.6/6, slopes 2.1 and 0.1): zeros at s = 0.556 and 0.944,
+    # both inside, with the end slopes of one sign: a turn and a return inside the step.
+    assert _turns_twice(0.0, 2.6 / 6.0, 2.1, 0.1, 1.0)
+
+
+def test_a_large_systems_point_is_described_by_a_few_coordinates_and_its_largest():
+    # 60 unknowns u_i = c_i p with the largest |c| at u41: a message names u0, u1, u2, the count, the
+    # largest and the free parameter, not 61 values.
+    c = np.ones(60)
+    c[41] = -7.0
+    system = contin.CallableSystem(lambda u, p: u - c * p[0], [f"u{i}" for i in range(60)], {"p": 1.0},
+                                   jacobian=lambda u, p: np.eye(60), parameter_jacobian=lambda u, p: -c[:, None])
+    branch = contin.trace(system, c * 1.0, free="p", step=0.1, max_points=2)
+    assert branch.status is contin.Status.MAX_POINTS
+    (x,) = branch.points[-1:]
+    assert branch.message == (
+        f"completed: the maximum number of points was reached (2) at u0 = {x[0]:.6g}, u1 = {x[1]:.6g}, u2 = {x[2]:.6g}, ... of 60 "
+        f"unknowns, the largest u41 = {x[41]:.6g}, p = {x[60]:.6g}")
+    # the largest among the first three is not named twice
+    c[41], c[1] = 1.0, -7.0
+    branch = contin.trace(system, c * 1.0, free="p", step=0.1, max_points=2)
+    x = branch.points[-1]
+    assert branch.message.endswith(f"u2 = {x[2]:.6g}, ... of 60 unknowns, p = {x[60]:.6g}")
