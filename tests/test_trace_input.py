@@ -177,3 +177,16 @@ def test_refusals_come_before_any_evaluation():
         with pytest.raises(contin.InputError):
             contin.trace(system, [0.0, 0.0], free="p", **keywords)
     assert calls == []
+
+
+@pytest.mark.parametrize("size, expected", [
+    (1, "the residual returned 3 values but the system has 1 unknown; give one equation per unknown"),
+    (2, "the residual returned 3 values but the system has 2 unknowns; give one equation per unknown"),
+])
+def test_a_residual_of_the_wrong_size_is_refused_with_its_whole_message(size, expected):
+    system = contin.CallableSystem(lambda u, p: [0.0, 0.0, 0.0], [f"u{i}" for i in range(size)], {"p": 0.0},
+                                   jacobian=lambda u, p: np.eye(size),
+                                   parameter_jacobian=lambda u, p: np.zeros((size, 1)))
+    with pytest.raises(contin.InputError) as refused:
+        contin.trace(system, [0.0] * size, free="p")
+    assert str(refused.value) == expected
