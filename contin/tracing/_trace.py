@@ -935,7 +935,7 @@ class _Run:
                 return True
         index = end if end is not None else self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
-            located = Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0)
+            located = own(xb, tb)
             self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
         if self.on_point is not None:
             self._notify(index, xb)
@@ -1109,12 +1109,6 @@ class _Run:
             return False
         gap = _length(x - xa - along * unit)
         return gap <= length * math.sin(min(phi, 0.5 * math.pi)) + 0.01 * length + reach
-
-    def _on_row(self, x: np.ndarray, t: np.ndarray) -> Located | None:
-        """The last accepted point as a Located, if ``x`` is that point (so it is not appended twice)."""
-        if self.rows and x is self.rows[-1]:
-            return Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0, 0.0)
-        return None
 
     def _bound_reached(self, coordinate: int, level: float, index: int, located: Located) -> None:
         name = self.columns[coordinate]
