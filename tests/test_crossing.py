@@ -174,7 +174,9 @@ def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
     assert [sp.index for sp in folds] == [sp.index for sp in critical]
     events = branch.special("event")
     assert [(sp.index, sp.name, sp.info["terminal"]) for sp in events] == [(sp.index, "d = 0", False) for sp in critical]
-    assert sum("lies within" in note for note in branch.stats["notes"]) == 2
+    # a note for each of them, each time: the fold, then the event
+    assert [note.split(" lies within")[0] for note in branch.stats["notes"] if "lies within" in note] == [
+        "the fold in p", "the event 'd = 0'"] * 2
     assert [note for note in branch.stats["notes"] if "lies within" in note][0].startswith(
         "the fold in p lies within 0.0025 in d of the critical point")
     d = branch.column("d")
@@ -393,3 +395,45 @@ def test_of_two_crossing_coordinates_the_passage_runs_along_the_one_that_enters_
         assert np.sum(np.abs(d + near) < 1e-12) == 1 and np.sum(np.abs(e + near) < 1e-12) == 0
     others = np.delete(np.arange(len(d)), critical.index)
     assert e[others] == pytest.approx(0.5 * d[others], abs=1e-12)
+
+
+def test_what_the_jump_crosses_is_reported_at_the_singular_point_in_kind_order_with_a_note_each():
+    # From d = -0.8 the branch rises in p to 0.625 at d = -0.5 (the fold), then falls through
+    # p = 1/2 and a = p + d = 1/2 only at the singular point d = 0 (exact: p = (1 - d - d^2)/2,
+    # a = (1 + d - d^2)/2). So the bound p >= 0.5, the event a - 1/2 and the terminal event p - 1/2
+    # all change sign inside the jump: each is reported on the singular point's row, what only
+    # reports first, then the bound (which gives the status), then the terminal event; none is
+    # reported where it is not zero (e.g. at the passage's entry, after a step over the whole region).
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    a_half = contin.Event("a half", lambda u, p: u[0] - 0.5)
+    p_half = contin.Event("p half", lambda u, p: p[0] - 0.5, terminal=True)
+    for max_step in (0.05, 0.3):
+        branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, max_step=max_step,
+                       bounds={"d": [-0.9, 0.9], "p": [0.5, 1.0]}, events=[p_half, a_half], **start())
+        assert branch.message == "completed: the branch reached a bound p = 0.5 at a = 0.5, d = 0, p = 0.5"
+        (critical,) = branch.special("critical")
+        assert critical.index == len(branch.points) - 1
+        after = [(sp.kind, sp.name) for sp in branch.special_points if sp.index == critical.index]
+        assert after == [("critical", "critical point"), ("event", "a half"), ("bound", "p = 0.5"), ("event", "p half")]
+        assert [sp.kind for sp in branch.special_points if sp.index != critical.index] == ["fold"]
+        jump = branch.special("bound")[0].located_to
+        assert 0.02 < jump < 0.06  # the jump from d = +-gap: a chord of about 2 gap sqrt(1 + (da/dd)^2 + ...)
+        assert branch.stats["notes"] == [
+            f"the event 'a half' lies within 0.02 in d of the critical point: reported there, located to {jump:.3g}",
+            f"the bound p = 0.5 lies within 0.02 in d of the critical point: reported there, located to {jump:.3g}",
+            f"the terminal event 'p half' lies within 0.02 in d of the critical point: reported there, located to {jump:.3g}"]
+
+
+def test_a_requested_value_inside_the_jump_is_reported_at_the_singular_point():
+    # p = 1/2 only at d = 0 (exact, above), p = 0.55 at d = (-1 + sqrt(0.6)) / 2 on the near side.
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]},
+                   at={"p": [0.5, 0.55]}, **start())
+    (critical,) = branch.special("critical")
+    assert [(sp.name, sp.index) for sp in branch.at] == [("p = 0.55", branch.at[0].index), ("p = 0.5", critical.index)]
+    assert branch.at[0].values["d"] == pytest.approx((-1.0 + math.sqrt(0.6)) / 2.0, abs=1e-9)
+    assert branch.points[branch.at[0].index][2] == 0.55
+    assert branch.at[1].values == {"a": 0.5, "d": 0.0, "p": 0.5}
+    assert branch.stats["notes"] == [
+        f"the requested value p = 0.5 lies within 0.02 in d of the critical point: reported there, located to "
+        f"{branch.at[1].located_to:.3g}"]

@@ -78,14 +78,28 @@ def test_branches_crossing_at_a_shallow_angle_give_their_branch_point_from_the_d
     assert np.abs(u - lam ** 2).max() <= 1e-5  # never left the traced parabola
 
 
-def test_at_one_point_the_bound_comes_before_an_event_and_ends_the_trace():
-    # Catches the order of special points at one place losing the bound's first rank: the event
-    # g = p - 1 is zero exactly on the bound p <= 1 of u = p, where the step lands (exact); the bound
-    # is taken first and ends the trace, so nothing after it, the event included, is reported.
+def test_at_one_point_an_event_is_reported_before_the_bound_that_ends_the_trace():
+    # Catches a stop hiding what was located at the stop itself: the event g = p - 1 is zero exactly
+    # on the bound p <= 1 of u = p (exact), where the step lands. Both are one point, so their order
+    # is the kinds' (what only reports, then what stops), not the round-off in their positions: the
+    # event is a row and a special point, then the bound ends the trace.
     event = contin.Event("g", lambda u, p: p[0] - 1.0)
-    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.1, bounds={"p": (-0.5, 1.0)}, events=[event])
+    for step in (0.1, 0.3, 0.45):
+        branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=step, bounds={"p": (-0.5, 1.0)}, events=[event])
+        assert branch.status is contin.Status.BOUND_REACHED
+        assert [(sp.kind, sp.values["p"]) for sp in branch.special_points] == [("event", pytest.approx(1.0, abs=1e-12)), ("bound", 1.0)]
+        assert [sp.index for sp in branch.special_points] == [len(branch.points) - 2, len(branch.points) - 1]
+
+
+def test_a_terminal_event_on_a_bound_is_reported_and_the_bound_ends_the_trace():
+    # Both stop the trace at one point (exact, as above): the bound gives the status, the terminal
+    # event is still a special point of its own, and nothing is reported twice.
+    event = contin.Event("g", lambda u, p: p[0] - 1.0, terminal=True)
+    branch = contin.trace(line_system(), {"u": 0.0}, free="p", step=0.3, bounds={"p": (-0.5, 1.0)}, events=[event])
     assert branch.status is contin.Status.BOUND_REACHED
-    assert [(sp.kind, sp.values["p"]) for sp in branch.special_points] == [("bound", 1.0)]
+    assert branch.message == "completed: the branch reached a bound p = 1 at u = 1, p = 1"
+    assert [sp.kind for sp in branch.special_points] == ["bound", "event"]
+    assert [sp.values["p"] for sp in branch.special_points] == pytest.approx([1.0, 1.0], abs=1e-12)
 
 
 def test_a_double_zero_of_the_branch_point_test_is_stepped_past_not_retried():

@@ -159,6 +159,8 @@ def check_tutorial_outputs(outputs: dict, restart_at: int) -> None:
     # meeting q = 0.2 again on the lower part only.
     restarted = outputs["contin run --from results/cabinet-record.json --restart-at 12 --direction -1"]
     assert "status: bound_reached" in restarted
-    assert [b["values"] for b in _special_lines(restarted, "bound")] == [{"q": 0.0, "t": 0.0}]
+    # it ends in the corner q = 0, t = 0, on both bounds at once: each is a special point
+    assert [b["values"] for b in _special_lines(restarted, "bound")] == [{"q": 0.0, "t": 0.0}] * 2
+    assert "bound  q = 0  t = 0, q = 0" in restarted and "bound  t = 0  t = 0, q = 0" in restarted
     (again,) = _special_lines(restarted, "q = 0.2")
     assert again["values"]["t"] == pytest.approx(at[0]["values"]["t"], abs=1e-9) and again["values"]["t"] < folds[0]["values"]["t"]

@@ -11,8 +11,12 @@ import math
 import numpy as np
 import pytest
 
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
 import contin
-from contin.tracing._trace import _turns_twice
+from contin.tracing._locate import Located
+from contin.tracing._trace import _in_branch_order, _turns_twice
 
 
 def line(slope: float = 1.0):
@@ -215,3 +219,49 @@ def test_a_large_systems_point_is_described_by_a_few_coordinates_and_its_largest
     branch = contin.trace(system, c * 1.0, free="p", step=0.1, max_points=2)
     x = branch.points[-1]
     assert branch.message.endswith(f"u2 = {x[2]:.6g}, ... of 60 unknowns, p = {x[60]:.6g}")
+
+
+def test_a_requested_value_located_inside_a_step_is_a_row_of_its_own():
+    # Near the fold of u^2 + p^2 = 1 at p = 1 (exact) the branch crosses p = 0.99999 too flatly to aim
+    # a step at it, so both crossings, u = +-sqrt(1 - 0.99999^2) (exact), are located inside steps.
+    # Each is a row holding exactly those values, not the row before it (the second would be the
+    # fold's).
+    branch = contin.trace(CIRCLE, [1.0], free="p", at={"p": [0.99999]}, bounds={"p": [-2.0, 2.0]}, max_step=0.2)
+    root = math.sqrt(1.0 - 0.99999 ** 2)
+    # u is known to the Newton tolerance over |df/du| = 2|u|: 1e-10 / 0.009, about 1.1e-8
+    assert [sp.values["u"] for sp in branch.at] == pytest.approx([root, -root], abs=2e-8)
+    for sp in branch.at:
+        assert branch.points[sp.index] == pytest.approx([sp.values["u"], sp.values["p"]], abs=0.0)
+    fold = branch.special("fold")[0]
+    assert fold.values["p"] == pytest.approx(1.0, abs=1e-12)
+    assert [sp.index for sp in branch.at] == [fold.index - 1, fold.index + 1]
+
+
+def test_a_start_is_noted_as_moved_beyond_a_thousandth_of_its_size():
+    # u = p^2 at p = 1 from u = 1 + d: the start correction at fixed p moves it by d exactly. The note
+    # is made past 1e-3 (1 + max |x0|) = 1e-3 (2 + d): at d = 0.0025, not at d = 0.0015.
+    square = contin.CallableSystem(lambda u, p: [u[0] - p[0] ** 2], ["u"], {"p": 1.0},
+                                   jacobian=lambda u, p: [[1.0]], parameter_jacobian=lambda u, p: [[-2.0 * p[0]]])
+    moved = contin.trace(square, [1.0025], free="p", bounds={"p": [0.0, 2.0]})
+    assert moved.stats["notes"] == ["the start was moved by 0.0025 to reach the curve, to u = 1, p = 1"]
+    assert "notes" not in contin.trace(square, [1.0015], free="p", bounds={"p": [0.0, 2.0]}).stats
+
+
+def _item(fraction, kind, payload, x):
+    return (fraction, kind, payload, Located(fraction, np.array(x, dtype=float), np.array([1.0, 0.0]), 0.0, 1, 1e-10, 0.0))
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(st.permutations(range(5)), st.lists(st.floats(-1e-12, 1e-12), min_size=5, max_size=5))
+def test_points_located_at_one_point_are_ordered_by_kind_whatever_the_round_off(order, jitter):
+    # A fold, a requested value, an event that only reports, a bound and a terminal event at one point
+    # (their fractions and coordinates differ by round-off only), and an event a little earlier on the
+    # branch: the earlier event first, then the reporting kinds by name, the bound, the terminal event.
+    stop = contin.Event("stop", lambda u, p: p[0], terminal=True)
+    note = contin.Event("note", lambda u, p: p[0])
+    at_one = [("fold", 0), ("at", (0, 0.5)), ("event", note), ("bound", (1, 0.5)), ("event", stop)]
+    items = [_item(0.5 + jitter[k], *at_one[k], [0.5 + jitter[k], 0.5]) for k in order]
+    items.append(_item(0.4, "event", note, [0.4, 0.4]))
+    ordered = [(kind, getattr(payload, "name", None)) for _, kind, payload, _ in _in_branch_order(items, 1e-10)]
+    assert ordered == [("event", "note"), ("at", None), ("event", "note"), ("fold", None), ("bound", None),
+                       ("event", "stop")]

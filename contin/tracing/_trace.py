@@ -77,6 +77,41 @@ def _turns_twice(value_a: float, value_b: float, slope_a: float, slope_b: float,
     return extreme * d0 < 0.0
 
 
+def _same_point(a: Located, b: Located, tolerance: float) -> bool:
+    """Whether two located points are one point, so that their order along the branch is round-off's to
+    decide: they lie within a few times the location ``tolerance`` of each other, or within 1e-9 of
+    their size. (A point located only roughly, e.g. from a forced step's bracket, is not widened by
+    its ``located_to``: its coordinates still tell which side of a bound it lies.)"""
+    reach = 10.0 * tolerance + 1e-9 * (1.0 + float(np.abs(a.x).max(initial=0.0)))
+    return float(np.abs(a.x - b.x).max(initial=0.0)) <= reach
+
+
+def _stop_rank(kind: str, payload) -> int:
+    """Where a kind goes among the points located at one point: what only reports first, then what
+    stops the trace (a bound, then a terminal event), the start of a passage (which drops the rest of
+    the step) last."""
+    if kind == "bound":
+        return 1
+    if kind == "event" and payload.terminal:
+        return 2
+    return 3 if kind == "passage" else 0
+
+
+def _in_branch_order(found: list, tolerance: float) -> list:
+    """The points located inside a step, ``(fraction, kind, payload, located)``, in their order along
+    the branch: by fraction, except that points located at one point (:func:`_same_point`) are
+    ordered by kind (:func:`_stop_rank`, then the kind's name), not by the round-off in their
+    fractions, so a stop never hides what was located at the stop itself."""
+    groups: list[list] = []
+    for item in sorted(found, key=lambda item: item[0]):
+        if groups and _same_point(groups[-1][0][3], item[3], tolerance):
+            groups[-1].append(item)
+        else:
+            groups.append([item])
+    return [item for group in groups
+            for item in sorted(group, key=lambda item: (_stop_rank(item[1], item[2]), item[1], item[0]))]
+
+
 def start_vector(system: System, start) -> np.ndarray:
     """Start values of the unknowns from a mapping, a sequence, or the system's defaults."""
     if start is None:
@@ -637,11 +672,11 @@ class _Run:
                 h = max(options.min_step, step_now * self.controller.shrink)
                 continue
             self.extended.counters.accepted_steps += 1
-            self.jacobian = correction.jacobian
-            if stop is RESUME:
+            if stop is RESUME:  # the trace goes on from a point inside the step (its tests are set there)
                 x, t = self.rows[-1], self.tangents[-1]
                 curvature = None
                 continue
+            self.jacobian = correction.jacobian
             if stop:
                 return
             if passage is not None:
@@ -740,7 +775,7 @@ class _Run:
         each level it crosses is crossed once and is located on that piece. Everything found is
         ordered along the branch by its projection on the chord (the tangent turns by less than
         ``max_turn`` over a step, so that order is the order along the arc), and a stop (a bound, a
-        terminal event) keeps every point before it and none after it.
+        terminal event) keeps every point before it and at it (:func:`_in_branch_order`) and none after it.
 
         Returns True if the trace stops, False if it goes on, and None — with nothing changed — if a
         special point could not be located, or the count of unstable eigenvalues changed by more than
@@ -888,15 +923,12 @@ class _Run:
             # A start on a special point (e.g. a restart from a fold) is not a new special point.
             near = 1e-9 * (1.0 + float(np.linalg.norm(xa)))
             found = [item for item in found if item[1] in ("at", "bound") or float(np.linalg.norm(item[3].x - xa)) > near]
-        kinds_order = {"bound": 0, "event": 1}
-        found.sort(key=lambda item: (item[0], kinds_order.get(item[1], 2)))
+        found = _in_branch_order(found, options.location_tolerance)
         end = None  # the row of b, once a point reported on b itself (a forced step's bracket) appends it
+        stop = None  # the point where the trace stops: what else was located there is still reported
         for fraction, kind, payload, located in found:
-            if kind == "at":
-                coordinate, value = payload
-                index = len(self.rows) - 1
-                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
-                continue
+            if stop is not None and not _same_point(stop, located, options.location_tolerance):
+                break
             if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
                 index = len(self.rows) - 1  # reported on the point before the step (not located closer)
             elif located.x is xb:
@@ -905,9 +937,15 @@ class _Run:
                 index = end
             else:
                 index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
+            if kind == "at":
+                coordinate, value = payload
+                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
+                continue
             if kind == "passage":
-                # From here on the steps fix the passage coordinate; the rest of this step is dropped.
+                # From here on the steps fix the passage coordinate; the rest of this step is dropped,
+                # so the test functions start again from the entry point, not from the dropped end.
                 self.passage.begin(located.x, payload)
+                self._tests_from(located.x, located.tangent)
                 if self.on_point is not None:
                     self._notify(index, located.x)
                 return RESUME
@@ -926,13 +964,15 @@ class _Run:
             elif kind == "event":
                 event = payload
                 self.special.append(self.special_point(event.kind, event.name, index, located, {"terminal": event.terminal}))
-                if event.terminal:
+                if event.terminal and stop is None:
                     self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at {self.describe(located.x)}")
-                    return True
+                    stop = located
             else:
                 coordinate, level = payload
-                self._bound_reached(coordinate, level, index, located)
-                return True
+                self._bound_reached(coordinate, level, index, located, stop is None)
+                stop = stop or located
+        if stop is not None:
+            return True
         index = end if end is not None else self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
             located = own(xb, tb)
@@ -940,6 +980,20 @@ class _Run:
         if self.on_point is not None:
             self._notify(index, xb)
         return False
+
+    def _tests_from(self, x: np.ndarray, t: np.ndarray) -> None:
+        """The test functions' values, signs and trend at x (tangent t), where the trace goes on from a
+        point inside the step just taken (the entry of a passage) instead of from its end."""
+        _, jacobian = self.extended.linearise(x)
+        try:
+            factors = factorise_bordered(jacobian, t, self.extended.solver)
+            self.signs = self.test_signs(factors, float(t @ t), t, jacobian)
+            self.jacobian = jacobian
+        except SingularMatrix:
+            pass  # the entry lies on a singular point itself: the end's signs are the best known
+        self.zero_ahead = self.zero_ahead_before = None
+        self.event_values = [self.event_value(event, x) for event in self.events]
+        self.event_slopes = [self.event_slope(event, x, t) for event in self.events]
 
     def _across(self, a, b, correction, signs) -> bool:
         """The jump of a passage across the singular point, from a (c = +gap) to b (c = -gap).
@@ -989,26 +1043,46 @@ class _Run:
         if self.on_point is not None:
             self._notify(index, x_c)
         across = Located(0.5, x_c, unit, residual_norm, 0, length, 0.0)
-        stop = False
+
+        def noted(what: str) -> None:
+            self.notes.append(f"the {what} lies within {passage.gap:g} in {key_name} of the {crossing.name}: "
+                              f"reported there, located to {length:.3g}")
+
         for coordinate in self.folds:
             if crossed(ta[coordinate], tb[coordinate]):
                 name = self.columns[coordinate]
                 self.special.append(self.special_point("fold", f"fold in {name}", index, across, {"coordinate": name}))
-                self.notes.append(f"the fold in {name} lies within {passage.gap:g} in {key_name} of the "
-                                  f"{crossing.name}: reported there, located to {length:.3g}")
+                noted(f"fold in {name}")
         values_b = [self.event_value(event, xb) for event in self.events]
-        for k, event in enumerate(self.events):
-            if crossed(self.event_values[k], values_b[k], event.direction):
-                self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": event.terminal}))
-                if event.terminal and not stop:
-                    self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at "
-                                                       f"{self.describe(x_c)}")
-                    stop = True
-        for coordinate, low, high in self.bounds:
-            for level in (low, high):
-                if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0 and not stop:
-                    self._bound_reached(coordinate, level, index, across)
-                    stop = True
+        events = [event for k, event in enumerate(self.events)
+                  if crossed(self.event_values[k], values_b[k], event.direction)]
+        bounds = [(coordinate, level) for coordinate, low, high in self.bounds for level in (low, high)
+                  if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0]
+        at_b = []
+        for coordinate, values in self.at:
+            low, high = sorted((xa[coordinate], xb[coordinate]))
+            for value in values[(values > low) & (values < high)]:
+                name = f"{self.columns[coordinate]} = {_number(value)}"
+                self.at_points.append(self.special_point("at", name, index, across))
+                noted(f"requested value {name}")
+            at_b += [(coordinate, float(value)) for value in values[values == xb[coordinate]]]
+        # in the order of points located at one point (_stop_rank): what only reports, the bounds, the
+        # terminal events; the first stop gives the status
+        stop = False
+        for event in (event for event in events if not event.terminal):
+            self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": False}))
+            noted(f"event {event.name!r}")
+        for coordinate, level in bounds:
+            self._bound_reached(coordinate, level, index, across, not stop)
+            noted(f"bound {self.columns[coordinate]} = {_number(level)}")
+            stop = True
+        for event in (event for event in events if event.terminal):
+            self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": True}))
+            noted(f"terminal event {event.name!r}")
+            if not stop:
+                self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at "
+                                                   f"{self.describe(x_c)}")
+            stop = True
         self.zero_ahead = self.zero_ahead_before = None  # across a singular crossing the trend is lost
         self.branch_retries = 0
         self.signs = signs
@@ -1017,6 +1091,10 @@ class _Run:
         if stop:
             return True
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
+        for coordinate, value in at_b:
+            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index,
+                                                     Located(1.0, xb, tb, correction.residual_norm,
+                                                             correction.iterations, 0.0, 0.0)))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -1110,10 +1188,11 @@ class _Run:
         gap = _length(x - xa - along * unit)
         return gap <= length * math.sin(min(phi, 0.5 * math.pi)) + 0.01 * length + reach
 
-    def _bound_reached(self, coordinate: int, level: float, index: int, located: Located) -> None:
+    def _bound_reached(self, coordinate: int, level: float, index: int, located: Located, stops: bool = True) -> None:
         name = self.columns[coordinate]
         self.special.append(self.special_point("bound", f"{name} = {_number(level)}", index, located, {"coordinate": name}))
-        self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
+        if stops:
+                self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
 
     def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
         """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
