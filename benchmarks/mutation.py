@@ -46,7 +46,10 @@ _TRACING_TESTS = (
     "tests/test_follow.py", "tests/test_switching.py", "tests/test_trace_input.py",
     "tests/test_trace_points.py",
 )
-_ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py", "tests/test_envelope_robustness.py")
+# the envelope's own tests, then those of its derivatives in the model's parameters (sensitivities and
+# uncertainty bands use EnvelopeSystem.parameter_derivatives)
+_ENVELOPE_TESTS = ("tests/test_envelope.py", "tests/test_mutation_thermo.py", "tests/test_envelope_robustness.py",
+                   "tests/test_corner_sensitivity.py", "tests/test_envelope_uncertainty.py")
 # module name -> (source file, the tests of that feature run against each of its mutants)
 MODULES = {
     "trace": ("contin/tracing/_trace.py", _TRACING_TESTS),

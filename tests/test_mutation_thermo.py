@@ -276,3 +276,87 @@ def test_closing_at_a_critical_point_is_a_completed_status():
     assert diagram.message.startswith("completed: the two-phase region closes at the critical point x1 = ")
     assert "\n" not in diagram.message
     assert [sp["kind"] for sp in diagram.special_points] == ["critical"]
+
+
+# -- what an envelope reports besides its rows ------------------------------------------------------
+def test_the_columns_the_summary_and_the_work_per_point_are_as_documented(envelope):
+    assert envelope.columns == ("T", "P", "side", "v_feed", "v_incipient", "stable", "K_methane", "K_propane")
+    stats = envelope.stats
+    assert stats["points"] == len(envelope.rows)
+    assert stats["jacobian_evaluations_per_point"] == stats["jacobian_evaluations"] / (len(envelope.rows) - 1)
+    found = ", ".join(f"{sp['kind']} T = {sp['values']['T']:.5g} K, P = {sp['values']['P']:.5g} Pa"
+                      for sp in envelope.special_points)
+    assert repr(envelope) == (f"<Envelope of 2 components (Peng-Robinson): {len(envelope.rows)} points; {found}; "
+                              "status bound_reached>")
+
+
+def test_a_stability_check_stopped_by_ctrl_c_keeps_the_rows_unchecked(monkeypatch):
+    from contin_thermo.curves import _stability
+
+    def stopped(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(_stability, "check_points", stopped)
+    interrupted = trace_envelope(BLEND, Z, check_stability=True)
+    assert (interrupted.status, interrupted.success) == ("interrupted", False)
+    assert interrupted.message == "interrupted: the stability check was stopped; the traced points are kept, unchecked"
+    assert set(interrupted.column("stable")) == {None} and len(interrupted.rows) > 20
+    assert interrupted.quality_lines == ()
+
+
+def test_a_liquid_dense_stretch_that_returns_to_the_bubble_point_is_noted():
+    # 89 % methane + 11 % n-heptane, Peng-Robinson, kij = 0 (an invented feed): past the critical point
+    # the incipient phase is a dense liquid for a while, then the branch reaches the bubble point. The
+    # run completes, and a note names the first and last rows of that stretch.
+    mixture = Mixture((lookup("methane"), lookup("n-heptane")), family("pr"))
+    envelope = trace_envelope(mixture, [0.89, 0.11], check_stability=False)
+    assert envelope.success and envelope.status == "bound_reached"
+    sides = list(envelope.column("side"))
+    dense = [i for i, side in enumerate(sides) if side == "liquid-liquid"]
+    assert dense and sides[-1] == "bubble" and dense == list(range(dense[0], dense[-1] + 1))
+    T, P = envelope.column("T"), envelope.column("P")
+    first, last = dense[0], dense[-1]
+    assert (f"from T = {T[first]:.6g} K, P = {P[first]:.6g} Pa to T = {T[last]:.6g} K, P = {P[last]:.6g} Pa the "
+            "incipient phase is liquid-dense (rows labelled liquid-liquid)") in envelope.notes
+
+
+def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
+    # Two copies of propane (kij = 0) are one fluid to the model: the saturation curve, traced until the
+    # phase volumes nearly meet (a terminal event of kind near_critical), then the fluid's own critical
+    # point. At Tc, Pc the cubic has a triple root, so 3 Z_c = 1 - Omega_b (exact for the model).
+    from contin_thermo.models._helmholtz import GAS_CONSTANT
+
+    propane = lookup("propane")
+    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
+                    family("pr"))
+    envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
+    assert (envelope.status, envelope.success) == ("terminal_event", True)
+    assert envelope.message == "completed: the saturation curve ends at the critical point"
+    assert envelope.notes == ("the components cannot be told apart by the model: dew and bubble curves coincide "
+                              "with the saturation curve of one fluid",)
+    (critical,) = envelope.special_points
+    assert critical["kind"] == "critical" and critical["index"] == len(envelope.rows) - 1
+    z_c = (1.0 - family("pr").omega_b) / 3.0
+    assert critical["info"]["v"] == pytest.approx(z_c * GAS_CONSTANT * propane.Tc / propane.Pc, rel=1e-8)
+    (near,) = envelope.branch.special("near_critical")
+    assert near.index == len(envelope.rows) - 1 and near.info["terminal"] is True
+    stats = envelope.stats
+    assert stats["points"] == len(envelope.rows)
+    assert stats["jacobian_evaluations_per_point"] == stats["jacobian_evaluations"] / (len(envelope.rows) - 1)
+    assert set(envelope.column("side")) == {"dew"}
+
+
+def test_a_warm_start_lands_on_the_same_dew_point_for_less_work_and_a_trivial_guess_is_not_taken(envelope):
+    from contin_thermo.curves._envelope import start_coordinates
+
+    guess = start_coordinates(envelope.to_dict())
+    warm = trace_envelope(BLEND, Z, check_stability=False, start=guess, max_points=3)
+    assert warm.rows[0][:2] == pytest.approx(envelope.rows[0][:2], rel=1e-10)
+    assert 1 <= warm.stats["start_newton_iterations"] < envelope.stats["start_newton_iterations"]
+    # a guess on the trivial solution (K = 1, one volume): Newton stays there, so Wilson's K-values
+    # start it instead, after the guess's own work
+    n = len(Z)
+    trivial = [0.0] * n + [guess[n], guess[n + 1], guess[n + 1], guess[-1]]
+    cold = trace_envelope(BLEND, Z, check_stability=False, start=trivial, max_points=3)
+    assert cold.rows[0][:2] == pytest.approx(envelope.rows[0][:2], rel=1e-10)
+    assert cold.stats["start_newton_iterations"] > envelope.stats["start_newton_iterations"]

@@ -274,7 +274,7 @@ def dew_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.
     return _start_point(mixture, z, pressure, beta)[0]
 
 
-def _start_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float = 1.0,
+def _start_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float,
                  guess: Sequence[float] | None = None) -> tuple[np.ndarray, int]:
     """Start coordinates (u, ln P) at ``pressure`` and the Newton iterations spent on them.
 
@@ -302,22 +302,17 @@ def _start_point(mixture: Mixture, z: np.ndarray, pressure: float, beta: float =
     else:
         spent = 0
 
-    def condition(lnT: float) -> float:
-        K = mixture.wilson(math.exp(lnT), pressure)
-        if beta >= 1.0:
-            return math.log(float(np.sum(z / K)))
-        return float(np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0))))
+    def rachford_rice(K: np.ndarray) -> np.ndarray:
+        # sum z (K - 1) / (1 + beta (K - 1)) over the last axis; for the dew point (beta = 1), 1 - sum z / K
+        return np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0)), axis=-1)
 
     grid = np.linspace(math.log(20.0), math.log(5000.0), 200)
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-        K = mixture.wilson(np.exp(grid)[:, None], pressure)  # the whole grid at once, (200, N)
-        if beta >= 1.0:
-            values = np.log(np.sum(z / K, axis=1))
-        else:
-            values = np.sum(z * (K - 1.0) / (1.0 + beta * (K - 1.0)), axis=1)
+        values = rachford_rice(mixture.wilson(np.exp(grid)[:, None], pressure))  # the whole grid at once
     signs = np.sign(values)
     changes = np.flatnonzero((signs[:-1] != signs[1:]) & np.isfinite(values[:-1]) & np.isfinite(values[1:]))
-    lnT = brentq(condition, grid[changes[0]], grid[changes[0] + 1], xtol=1e-12) if changes.size else None
+    lnT = (brentq(lambda lnT: float(rachford_rice(mixture.wilson(math.exp(lnT), pressure))),
+                  grid[changes[0]], grid[changes[0] + 1], xtol=1e-12) if changes.size else None)
     if lnT is None:
         raise InputError(f"--from-pressure {pressure:g} Pa: Wilson's K-values give no dew point; try a lower pressure")
     T = math.exp(lnT)
@@ -703,7 +698,7 @@ def trace_envelope(
     betas = _check_quality(quality)
     n = mixture.size
     system = EnvelopeSystem(mixture, z, 0.0)
-    x0, start_iterations = _start_point(mixture, z, float(from_pressure), guess=start)
+    x0, start_iterations = _start_point(mixture, z, float(from_pressure), 1.0, guess=start)
     lnP0 = math.log(from_pressure)
     setup = time.perf_counter() - began
     if float(np.max(np.abs(x0[:n]))) < 1e-8:
@@ -897,7 +892,7 @@ def _one_fluid(mixture, z, system, x0, lnP0, max_points, began, setup, check_sta
                  jacobian_evaluations=system.evaluations,
                  jacobian_evaluations_per_point=system.evaluations / max(1, len(points) - 1))
     return Envelope(mixture, z, columns, rows, specials, status, message, success, stats,
-                    np.asarray(branch.residual_norms), (), (branch,), tuple(notes))
+                    np.asarray(branch.residual_norms), (), branch, tuple(notes))
 
 
 def _special(kind: str, index: int, T: float, P: float, located: float, info: dict,
