@@ -139,7 +139,7 @@ def test_a_requested_value_just_past_a_start_on_another_is_aimed_at():
                           at={"u": [2.0, 2.5]}, bounds={"p": (0.0, 3.2)})
     assert [(point.name, point.index) for point in branch.at] == [("u = 2", 0), ("u = 2.5", 1)]
     assert branch.points[1].tolist() == [2.5, 2.5]
-    assert branch.at[1].located_to == 0.0
+    assert [point.located_to for point in branch.at] == [0.0, 0.0]  # both are rows, exactly
 
 
 def test_an_event_that_dips_and_returns_inside_one_step_far_from_zero_is_found_twice():
@@ -265,3 +265,39 @@ def test_points_located_at_one_point_are_ordered_by_kind_whatever_the_round_off(
     ordered = [(kind, getattr(payload, "name", None)) for _, kind, payload, _ in _in_branch_order(items, 1e-10)]
     assert ordered == [("event", "note"), ("at", None), ("event", "note"), ("fold", None), ("bound", None),
                        ("event", "stop")]
+
+
+@pytest.mark.parametrize(("unknowns", "shortened"), [(49, False), (50, True)])
+def test_a_point_is_described_in_full_up_to_fifty_coordinates(unknowns, shortened):
+    # 49 unknowns and the free parameter are 50 coordinates, all named; one more and the message names
+    # the first three, the count and the parameter (u_i = p, exact).
+    system = contin.CallableSystem(lambda u, p: u - p[0], [f"u{i}" for i in range(unknowns)], {"p": 1.0},
+                                   jacobian=lambda u, p: np.eye(unknowns),
+                                   parameter_jacobian=lambda u, p: -np.ones((unknowns, 1)))
+    branch = contin.trace(system, np.ones(unknowns), free="p", step=0.5, max_points=2)
+    where = branch.message.split(" at ", 1)[1]
+    value = f"{branch.points[-1][-1]:.6g}"  # every coordinate has moved by the same amount
+    assert value != "1"
+    if shortened:
+        assert where == f"u0 = {value}, u1 = {value}, u2 = {value}, ... of {unknowns} unknowns, p = {value}"
+    else:
+        assert where == ", ".join([f"u{i} = {value}" for i in range(unknowns)] + [f"p = {value}"])
+
+
+def test_a_start_on_a_bound_heading_out_ends_there_with_the_starts_own_figures():
+    # u = p from p = 1 on the bound p <= 1, heading up: the trace ends at its start, and the bound's
+    # point is that row, exactly (located_to 0), with the start correction's residual and iterations.
+    branch = contin.trace(line(), {"u": 1.0}, free="p", parameters={"p": 1.0}, bounds={"p": (0.0, 1.0)}, direction=1)
+    assert branch.message == "completed: the branch reached a bound p = 1 at u = 1, p = 1"
+    (bound,) = branch.special_points
+    assert (bound.kind, bound.index, bound.located_to) == ("bound", 0, 0.0)
+    assert bound.residual_norm == branch.residual_norms[0] == 0.0
+    assert bound.newton_iterations == branch.newton_iterations[0]
+
+
+def test_a_coordinate_whose_slope_only_touches_zero_inside_a_step_does_not_turn():
+    # Hermite data u(0) = 0, u(1) = 1, slopes 1 and 1, over a length 3: the derivative along the step
+    # is 3 - 12 s + 12 s^2 = 12 (s - 1/2)^2 (exact in floating point), zero at s = 1/2 without a sign
+    # change: an inflexion, not a turn and a return.
+    assert not _turns_twice(0.0, 1.0, 1.0, 1.0, 3.0)
+    assert _turns_twice(0.0, 0.999, 1.0, 1.0, 3.0)  # a little less rise: the slope dips below zero
