@@ -437,3 +437,46 @@ def test_a_requested_value_inside_the_jump_is_reported_at_the_singular_point():
     assert branch.stats["notes"] == [
         f"the requested value p = 0.5 lies within 0.02 in d of the critical point: reported there, located to "
         f"{branch.at[1].located_to:.3g}"]
+
+
+def test_a_terminal_event_inside_the_jump_stops_the_trace_at_the_singular_point():
+    # p - 1/2 vanishes on this branch only at the singular point (exact, above): the trace stops there.
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    p_half = contin.Event("p half", lambda u, p: p[0] - 0.5, terminal=True)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, events=[p_half], **start())
+    assert branch.message == "completed: stopped by a terminal event 'p half' at a = 0.5, d = 0, p = 0.5"
+    assert [(sp.kind, sp.index) for sp in branch.special_points][1:] == [("critical", len(branch.points) - 1),
+                                                                           ("event", len(branch.points) - 1)]
+
+
+def test_every_row_of_a_passage_is_told_to_the_caller_once_in_order():
+    # on_point hears of each accepted point as it is made: the entry, the passage steps, the singular
+    # point, the point after the jump and the rest, each once, with the special points found so far.
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    heard = []
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, at={"p": [0.5]},
+                   on_point=lambda index, x, special: heard.append((index, x.tolist(), [sp.kind for sp in special])),
+                   **start())
+    told = [index for index, _, _ in heard]
+    assert told == sorted(set(told)) and told[0] == 0  # the start too, each once, in order
+    assert all(x == branch.points[index].tolist() for index, x, _ in heard)
+    # only the rows of points located inside an ordinary step (here the fold and the bound that ends
+    # the trace) are not accepted points
+    assert set(range(len(branch.points))) - set(told) == {sp.index for sp in branch.special_points
+                                                           if sp.kind in ("fold", "bound")}
+    (critical,) = branch.special("critical")
+    assert heard[critical.index][2] == ["fold", "critical"]
+
+
+def test_a_requested_value_on_the_far_end_of_the_jump_is_that_row():
+    # The jump lands on d = +gap exactly (the passage fixes d), so d = gap is the row after the
+    # singular point, not a point located inside the jump; d = -gap is the row before it.
+    crossing = Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]},
+                   at={"d": [-0.02, 0.02]}, **start())
+    (critical,) = branch.special("critical")
+    assert critical.info["gap"] == 0.02
+    assert [(sp.name, sp.index, sp.located_to) for sp in branch.at] == [
+        ("d = -0.02", critical.index - 1, 0.0), ("d = 0.02", critical.index + 1, 0.0)]
+    assert [branch.points[sp.index][1] for sp in branch.at] == [-0.02, 0.02]
+    assert not [note for note in branch.stats.get("notes", ()) if "requested value" in note]
