@@ -433,7 +433,7 @@ def test_a_requested_value_inside_the_jump_is_reported_at_the_singular_point():
     assert [(sp.name, sp.index) for sp in branch.at] == [("p = 0.55", branch.at[0].index), ("p = 0.5", critical.index)]
     assert branch.at[0].values["d"] == pytest.approx((-1.0 + math.sqrt(0.6)) / 2.0, abs=1e-9)
     assert branch.points[branch.at[0].index][2] == 0.55
-    assert branch.at[1].values == {"a": 0.5, "d": 0.0, "p": 0.5}
+    assert branch.at[1].values == {"a": 0.5, "d": 0.0, "p": 0.5} and branch.at[1].kind == "at"
     assert branch.stats["notes"] == [
         f"the requested value p = 0.5 lies within 0.02 in d of the critical point: reported there, located to "
         f"{branch.at[1].located_to:.3g}"]
@@ -479,4 +479,5 @@ def test_a_requested_value_on_the_far_end_of_the_jump_is_that_row():
     assert [(sp.name, sp.index, sp.located_to) for sp in branch.at] == [
         ("d = -0.02", critical.index - 1, 0.0), ("d = 0.02", critical.index + 1, 0.0)]
     assert [branch.points[sp.index][1] for sp in branch.at] == [-0.02, 0.02]
+    assert [sp.kind for sp in branch.at] == ["at", "at"]
     assert not [note for note in branch.stats.get("notes", ()) if "requested value" in note]

@@ -301,3 +301,74 @@ def test_a_coordinate_whose_slope_only_touches_zero_inside_a_step_does_not_turn(
     # change: an inflexion, not a turn and a return.
     assert not _turns_twice(0.0, 1.0, 1.0, 1.0, 3.0)
     assert _turns_twice(0.0, 0.999, 1.0, 1.0, 3.0)  # a little less rise: the slope dips below zero
+
+
+def test_a_start_that_does_not_converge_says_how_far_it_got_in_one_line():
+    # exp(u) + 1 = 0 has no solution: Newton from u = 0 diverges; the message gives the residual and
+    # the iterations of the row it keeps, and advice.
+    system = contin.CallableSystem(lambda u, p: [math.exp(u[0]) + p[0]], ["u"], {"p": 1.0})
+    branch = contin.trace(system, {"u": 0.0}, free="p")
+    assert branch.message == (f"stopped: Newton did not converge at the start point: largest residual "
+                              f"{branch.residual_norms[0]:.3g} after {branch.newton_iterations[0]} iterations "
+                              "(Newton diverged); give a better start guess")
+    assert branch.residual_norms[0] >= 1.0 and branch.newton_iterations[0] >= 1
+
+
+def test_a_closed_loop_says_after_how_many_points():
+    system, keywords = TRACES["closed loop"]
+    branch = contin.trace(system, **keywords)
+    assert branch.message == f"completed: the branch came back to its start (a closed loop) after {len(branch.points)} points"
+
+
+def test_the_default_largest_step_is_one_half():
+    # On a straight branch the step grows to max_step and stays there (u = p, exact).
+    branch = contin.trace(line(), {"u": 0.0}, free="p", bounds={"p": (-1.0, 20.0)})
+    assert max(branch.steps) == pytest.approx(0.5, rel=1e-12)
+    assert sum(step == pytest.approx(0.5, rel=1e-12) for step in branch.steps) >= 20
+
+
+def test_a_large_systems_largest_unknown_is_named_from_the_fourth_on():
+    # 60 unknowns u_i = c_i p, the largest |c| at u3 (the first not shown anyway): it is named.
+    c = np.ones(60)
+    c[3] = 5.0
+    system = contin.CallableSystem(lambda u, p: u - c * p[0], [f"u{i}" for i in range(60)], {"p": 1.0},
+                                   jacobian=lambda u, p: np.eye(60), parameter_jacobian=lambda u, p: -c[:, None])
+    branch = contin.trace(system, c * 1.0, free="p", step=0.1, max_points=2)
+    x = branch.points[-1]
+    assert branch.message.endswith(f"u2 = {x[2]:.6g}, ... of 60 unknowns, the largest u3 = {x[3]:.6g}, p = {x[60]:.6g}")
+
+
+def test_a_flat_coordinates_requested_values_do_not_stop_another_from_being_aimed_at():
+    # On a = 0.001 p the branch is nearly flat in a (|t_a| < 0.01 |t|), so a's requested values are
+    # located afterwards, not aimed at; p's (looked at after a's: by name) are aimed at all the same:
+    # with an a value that is never reached, the trace is the one with p's value alone, row for row.
+    flat = contin.CallableSystem(lambda u, p: [u[0] - 0.001 * p[0]], ["a"], {"p": 0.0},
+                                 jacobian=lambda u, p: [[1.0]], parameter_jacobian=lambda u, p: [[-0.001]])
+    alone = contin.trace(flat, {"a": 0.0}, free="p", at={"p": [0.75]}, bounds={"p": (-1.0, 2.0)})
+    both = contin.trace(flat, {"a": 0.0}, free="p", at={"a": [5.0], "p": [0.75]}, bounds={"p": (-1.0, 2.0)})
+    assert np.array_equal(both.points, alone.points)
+    assert [(sp.name, sp.located_to) for sp in both.at] == [("p = 0.75", 0.0)]
+    (row,) = [i for i, p in enumerate(both.column("p")) if p == 0.75]
+    assert both.at[0].index == row and both.steps[row] < 0.5  # a step shortened to land on it
+
+
+def test_turning_once_inside_a_step_is_not_turning_twice():
+    # Hermite data with end slopes 1 and -0.5 (one sign change: a single turn, which the end slopes
+    # show), u(1) - u(0) = -0.5: the derivative 1 - 6 s + 4.5 s^2 has its minimum, -1, at s = 2/3, yet
+    # there is one turn, not two.
+    assert not _turns_twice(0.0, -0.5, 1.0, -0.5, 1.0)
+
+
+@pytest.mark.parametrize(("x", "on"), [((-0.04, 0.0), True), ((-0.06, 0.0), False), ((-0.5, 0.0), False),
+                                       ((1.04, 0.0), True), ((1.06, 0.0), False),
+                                       ((0.5, 0.005), True), ((0.5, -0.02), False)])
+def test_a_located_point_is_on_a_straight_steps_arc_within_five_percent_along_and_one_across(x, on):
+    # A step of length 1 along (1, 0) with both end tangents along the chord (phi = 0): its arc is the
+    # chord, with 5 % of slack along it, 1 % across it, and the Newton tolerance's reach.
+    from types import SimpleNamespace
+
+    from contin.tracing._trace import _Run
+
+    run = SimpleNamespace(options=contin.TraceOptions())
+    a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([1.0, 0.0]), np.array([1.0, 0.0]))
+    assert _Run._on_arc(run, np.array(x), a, b) is on

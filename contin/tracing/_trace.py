@@ -796,7 +796,7 @@ class _Run:
 
         splits: list[Located] = []  # turning points of watched coordinates and events: the step's pieces
 
-        def own(x: np.ndarray, t: np.ndarray, located_to: float = 0.0, value: float = 0.0) -> Located:
+        def own(x: np.ndarray, t: np.ndarray, located_to: float = 0.0) -> Located:
             """One of the step's own points (its first point, which is the last row, a split point, or
             its end) as a Located with that point's own residual and Newton iterations, never another
             point's."""
@@ -807,16 +807,18 @@ class _Run:
                 residual_norm, iterations = split.residual_norm, split.iterations
             else:
                 residual_norm, iterations = self.residuals[-1], self.iterations[-1]
-            return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to, value)
+            return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to, 0.0)
 
-        def unlocated(ends, f_a: float, f_b: float, prefer_first: bool = False) -> Located | None:
-            """None (retry a shorter step), or with force the nearer bracketing point."""
+        def unlocated(ends, f_a: float | None = None, f_b: float | None = None) -> Located | None:
+            """None (retry a shorter step), or with force a bracketing point: the one where the test
+            function (``f_a``, ``f_b`` at the two ends) is nearer zero, or without them the first (a
+            bound or the entry of a passage, which the trace must not pass)."""
             if not force:
                 return None
             (x0, t0), (x1, t1) = ends
-            use_first = prefer_first or abs(f_a) < abs(f_b)
+            use_first = f_a is None or abs(f_a) < abs(f_b)
             x, t = (x0, t0) if use_first else (x1, t1)
-            return own(x, t, length, f_a if use_first else f_b)
+            return own(x, t, length)
 
         near_crossing = self.passage is not None and self.passage.active
         patient = not force and self.branch_retries < _BRANCH_RETRIES
@@ -1142,7 +1144,7 @@ class _Run:
             entries = []
             for key, level in passage.entries(x0, x1):
                 located = locate_level(self.extended, (x0, t0), (x1, t1), key, level, options)
-                located = located or unlocated((first, last), x0[key] - level, x1[key] - level, True)
+                located = located or unlocated((first, last))
                 if located is None:
                     return None
                 entries.append((float((located.x - x0) @ (x1 - x0)), key, located))
@@ -1160,7 +1162,7 @@ class _Run:
                     located = own(x0, t0)
                 else:
                     located = locate_level(self.extended, (x0, t0), (x1, t1), coordinate, level, options)
-                    located = located or unlocated((first, last), x0[coordinate] - level, x1[coordinate] - level, True)
+                    located = located or unlocated((first, last))
                     if located is None:
                         return None
                 found.append(("bound", (coordinate, level), located))
