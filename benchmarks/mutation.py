@@ -57,7 +57,7 @@ MODULES = {
     "events": ("contin/systems/_events.py", _TRACING_TESTS),
     "status": ("contin/results/_status.py", _TRACING_TESTS + ("tests/test_cli_run.py",)),
     "crossing": ("contin/tracing/_crossing.py", _TRACING_TESTS),
-    "linear": ("contin/tracing/_linear.py", _TRACING_TESTS + ("tests/test_sparse.py",)),
+    "linear": ("contin/tracing/_linear.py", ("tests/test_linear_contract.py",) + _TRACING_TESTS + ("tests/test_sparse.py",)),
     "sensitivity": ("contin/studies/_sensitivity.py",
                     ("tests/test_sensitivity.py", "tests/test_mutation_engine.py")),
     "record": ("contin/results/_record.py", ("tests/test_record.py", "tests/test_mutation_engine.py")),

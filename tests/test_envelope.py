@@ -147,6 +147,7 @@ def test_quality_lines_end_at_the_critical_point(gas):
         (dict(z=[0.5, 0.5, 0.2, -0.2]), "every mole fraction of the feed must be positive"),
         (dict(z=[0.5, 0.3, 0.1, 0.05]), "sum to 0.95"),
         (dict(z=[0.25] * 4, from_pressure=-1.0), "--from-pressure -1.0 must be a positive pressure"),
+        (dict(z=[0.25] * 4, from_pressure=0.0), "--from-pressure 0.0 must be a positive pressure in Pa"),
         (dict(z=[0.25] * 4, quality=[1.5]), "--quality 1.5 must lie strictly between 0 and 1"),
     ],
 )

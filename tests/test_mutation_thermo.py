@@ -6,11 +6,13 @@ Found by mutation testing (benchmarks/mutation.py); each test names the break it
 from __future__ import annotations
 
 import dataclasses
+import math
 from pathlib import Path
 
 import numpy as np
 import pytest
 
+import contin_thermo
 from contin_thermo.curves._binary import pxy
 from contin_thermo.models._components import lookup
 from contin_thermo.curves._envelope import _assemble, trace_envelope
@@ -344,6 +346,7 @@ def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
     assert stats["points"] == len(envelope.rows)
     assert stats["jacobian_evaluations_per_point"] == stats["jacobian_evaluations"] / (len(envelope.rows) - 1)
     assert set(envelope.column("side")) == {"dew"}
+    assert envelope.columns == ("T", "P", "side", "v_feed", "v_incipient", "stable", "K_propane-a", "K_propane-b")
 
 
 def test_a_warm_start_lands_on_the_same_dew_point_for_less_work_and_a_trivial_guess_is_not_taken(envelope):
@@ -360,3 +363,136 @@ def test_a_warm_start_lands_on_the_same_dew_point_for_less_work_and_a_trivial_gu
     cold = trace_envelope(BLEND, Z, check_stability=False, start=trivial, max_points=3)
     assert cold.rows[0][:2] == pytest.approx(envelope.rows[0][:2], rel=1e-10)
     assert cold.stats["start_newton_iterations"] > envelope.stats["start_newton_iterations"]
+
+
+def test_the_envelope_system_answers_every_call_of_the_system_interface_alike(envelope):
+    # residual, its Jacobian function and parameter_jacobian (what sensitivities and other callers use) against the
+    # one linearise the engine calls, and both Jacobians against central differences of the residual.
+    from contin_thermo.curves._envelope import EnvelopeSystem
+
+    system = EnvelopeSystem(BLEND, Z, 0.0)
+    n = BLEND.size
+    assert list(system.unknowns) == ["lnK_methane", "lnK_propane", "lnT", "lnV_feed", "lnV_incipient"]
+    assert list(system.equations) == ["fugacity_methane", "fugacity_propane", "pressure_feed", "pressure_incipient", "sum"]
+    row = envelope.branch.points[len(envelope.rows) // 3]
+    u, p = row[:-1], np.array([row[-1]])
+    r, J, dp = system.linearise(u, p, 0)
+    assert system.residual(u, p) == pytest.approx(r, abs=1e-13)  # the residual alone: another path, same values
+    assert np.array_equal(system.jacobian_function(u, p), J)
+    assert np.array_equal(system.parameter_jacobian(u, p)[:, 0], dp)
+    h = 1e-6
+    for k in range(u.size):
+        step = np.zeros_like(u)
+        step[k] = h
+        difference = (system.residual(u + step, p) - system.residual(u - step, p)) / (2 * h)
+        assert J[:, k] == pytest.approx(difference, rel=1e-5, abs=1e-7), k
+    difference = (system.residual(u, p + h) - system.residual(u, p - h)) / (2 * h)
+    assert dp == pytest.approx(difference, rel=1e-5, abs=1e-7)
+    assert np.abs(r).max() <= 1e-9 and n == 2
+
+
+def test_the_envelope_system_counts_each_jacobian_once_and_keeps_one_temperature_memo():
+    from contin_thermo.curves._envelope import EnvelopeSystem
+
+    system = EnvelopeSystem(BLEND, Z, 0.0)
+    u, p = np.array([1.0, -1.0, math.log(250.0), -5.0, -8.0]), np.array([math.log(2e6)])
+    system.residual(u, p)
+    assert system.evaluations == 0  # a residual alone is not a Jacobian evaluation
+    system.jacobian_function(u, p)
+    system.linearise(u, p, 0)
+    assert system.evaluations == 2
+    first = system._attraction(250.0)
+    assert system._attraction(250.0) is first and system._attraction(260.0) is not first
+
+
+def test_a_run_stopped_by_its_point_limit_claims_no_bubble_point_and_no_missing_critical_point():
+    partial = trace_envelope(BLEND, Z, check_stability=False, max_points=12)
+    assert (partial.status, partial.success) == ("max_points", True)
+    assert partial.message.startswith("completed: the maximum number of points was reached (12) at T = ")
+    assert "bubble point" not in partial.message
+    stopped = contin_thermo.trace_envelope(contin_thermo.mixture(["methane", "n-decane"], "pr"), [0.9, 0.1],
+                                           check_stability=False)
+    assert stopped.status == "liquid_liquid" and stopped.special("critical") is not None
+    assert "no critical point was passed on this branch" not in stopped.notes
+
+
+def test_the_timings_add_up_to_no_more_than_the_call(envelope):
+    import time
+
+    began = time.perf_counter()
+    timed = trace_envelope(BLEND, Z, check_stability=True)
+    wall = time.perf_counter() - began
+    stats = timed.stats
+    assert stats["setup_seconds"] >= stats.get("engine_setup_seconds", 0.0) >= 0.0
+    assert stats["setup_seconds"] >= float(timed.branch.stats.get("setup_seconds", 0.0))
+    assert min(stats["trace_seconds"], stats["stability_seconds"]) > 0.0
+    assert stats["setup_seconds"] + stats["trace_seconds"] + stats["stability_seconds"] <= wall
+
+
+def test_the_critical_points_facts_name_the_key_component_not_the_engines_coordinate(envelope):
+    info = envelope.special("critical")["info"]
+    assert info["key_component"] in ("methane", "propane")
+    assert not {"coordinate", "gap", "tangent"} & set(info)
+
+
+def test_metastable_stretches_are_the_runs_of_rows_flagged_not_stable(envelope):
+    rows = [list(row) for row in envelope.rows[:7]]
+    for row, flag in zip(rows, [True, False, False, True, False, None, False], strict=True):
+        row[5] = flag
+    flagged = dataclasses.replace(envelope, rows=rows)
+    assert flagged.metastable_stretches() == [(1, 2), (4, 4), (6, 6)]
+
+
+def test_a_second_critical_point_turns_the_sides_back_to_dew(envelope):
+    # Passing a critical point swaps the phases' roles; passing another swaps them back. Two rows of
+    # the passage (|ln K| <= 0.1, so never liquid-liquid) taken as critical points: the row between
+    # them is bubble, the rows after the second dew again.
+    from contin_thermo.curves._envelope import _phase_sides
+
+    points = envelope.branch.points
+    n = BLEND.size
+    c = envelope.special("critical")["index"]
+    lnK, T = points[:, :n], np.exp(points[:, n])
+    assert np.abs(lnK[c - 3:c + 4]).max() <= 0.1
+    sides = _phase_sides(BLEND, Z, lnK, np.exp(points[:, n + 1]), np.exp(points[:, n + 2]), T, [c - 2, c])
+    assert list(sides[c - 3:c + 2]) == ["dew", "dew", "bubble", "bubble", "dew"]
+
+
+def test_a_highest_temperature_that_is_not_a_located_fold_is_a_failed_check_even_on_the_second_row(envelope):
+    # The branch without its folds of T, and row 1 made the hottest: an interior maximum nobody
+    # located. (Only the first and last rows may be the highest without a fold: the branch's ends.)
+    branch = envelope.branch
+    n = BLEND.size
+    points = branch.points.copy()
+    points[1, n] = points[:, n].max() + 0.01
+    folds_gone = tuple(sp for sp in branch.special_points if not (sp.kind == "fold" and sp.info.get("coordinate") == "lnT"))
+    _, _, _, (status, message, success), _ = _assemble(
+        BLEND, Z, dataclasses.replace(branch, points=points, special_points=folds_gone), 1e5)
+    T1 = math.exp(points[1, n])
+    assert (status, success) == ("inconsistent", False)
+    assert message == ("stopped: the traced envelope fails its own checks: the highest temperature traced "
+                       f"({T1:.8g} K, row 1) is not a located cricondentherm")
+
+
+def test_a_warm_start_on_a_saturation_point_with_k_1_is_taken_and_a_failed_one_is_not():
+    # One fluid in two names (propane twice) at 4 MPa, near its critical pressure: the start has
+    # K = 1 with the two volumes apart (ln of their ratio below 1, yet well above 1e-3), a true
+    # saturation point, so a warm start from it is kept; a guess from which Newton fails is dropped for
+    # Wilson's K-values, and the start is converged either way.
+    from contin_thermo.curves._envelope import EnvelopeSystem, _start_point
+
+    propane = lookup("propane")
+    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
+                    family("pr"))
+    z = np.array([0.3, 0.7])
+    cold, cold_work = _start_point(twins, z, 4e6, 1.0)
+    assert np.abs(cold[:2]).max() < 1e-4 and 1e-3 < abs(cold[3] - cold[4]) < 1.0
+    warm, warm_work = _start_point(twins, z, 4e6, 1.0, guess=cold)
+    assert np.array_equal(warm, cold) or warm == pytest.approx(cold, abs=1e-12)
+    assert warm_work < cold_work
+    hopeless = cold.copy()
+    hopeless[2] += 3.0  # twenty times the temperature: Newton does not converge from there
+    again, _ = _start_point(twins, z, 4e6, 1.0, guess=hopeless)
+    system = EnvelopeSystem(twins, z, 0.0)
+    assert np.abs(system.residual(again[:-1], again[-1:])).max() <= 1e-9
+    assert again == pytest.approx(cold, abs=1e-9)
