@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 import contin_thermo
+from contin import InputError
 from contin_thermo.curves._binary import pxy
 from contin_thermo.models._components import lookup
 from contin_thermo.curves._envelope import _assemble, trace_envelope
@@ -496,3 +497,174 @@ def test_a_warm_start_on_a_saturation_point_with_k_1_is_taken_and_a_failed_one_i
     system = EnvelopeSystem(twins, z, 0.0)
     assert np.abs(system.residual(again[:-1], again[-1:])).max() <= 1e-9
     assert again == pytest.approx(cold, abs=1e-9)
+
+
+# -- the tangent-plane test's bookkeeping of roots and known phases ---------------------------------
+@pytest.mark.parametrize(("P", "x1", "lower"), [(2.8e6, 0.2, 1), (1.0e6, 0.2, 2), (2.4e6, 0.3, 2)])
+def test_the_root_of_lower_gibbs_energy_is_the_one_with_the_smaller_sum_of_x_ln_phi(P, x1, lower):
+    # Against the mixture's own scalar fugacities on each root (another path through the model): the
+    # molar Gibbs energy of a phase of fixed T, P, x differs between roots by RT sum x ln phi.
+    from contin_thermo.curves._stability import _roots_used, ln_phi_batch
+
+    w = np.array([x1, 1.0 - x1])
+    T = DEW_T
+    liquid_v, vapour_v = BLEND.volume_roots(T, P, w)
+    assert liquid_v < vapour_v  # two roots here
+    gibbs = [float(w @ BLEND.ln_phi(T, P, w, phase)) for phase in ("liquid", "vapour")]
+    assert (1 if gibbs[0] < gibbs[1] else 2) == lower
+    A = BLEND.attraction_roots(T)[0]
+    for which, expected in ((0, lower), (1, 1), (2, 2)):
+        assert _roots_used(BLEND, T, P, w[None, :], A, np.array([which])).tolist() == [expected]
+    batch = ln_phi_batch(BLEND, T, P, np.vstack([w, w]), A, np.array([1, 2]))
+    assert batch[0] == pytest.approx(BLEND.ln_phi(T, P, w, "liquid"), abs=1e-12)
+    assert batch[1] == pytest.approx(BLEND.ln_phi(T, P, w, "vapour"), abs=1e-12)
+    # the feed at its dew point has one root (it is both): 0, whichever root is asked for
+    one = np.array([[0.5, 0.5]])
+    assert BLEND.volume_roots(T, DEW_P, one[0])[0] == BLEND.volume_roots(T, DEW_P, one[0])[1]
+    assert _roots_used(BLEND, T, DEW_P, one, A, np.array([1])).tolist() == [0]
+    assert _roots_used(BLEND, T, DEW_P, one, A, np.array([2])).tolist() == [0]
+
+
+def test_a_known_phase_with_two_roots_is_matched_on_its_own_root_and_within_1e_3_only():
+    # At 2.8 MPa and the blend's dew temperature, x = (0.2, 0.8) has a liquid and a vapour root: known
+    # as the liquid, a trial of that composition on the liquid root is it, on the vapour root it is
+    # another phase; a composition 2e-3 away is another phase on either root, 5e-4 away it is it.
+    from contin_thermo.curves._stability import _on_known
+
+    T, P = DEW_T, 2.8e6
+    k = np.array([0.2, 0.8])
+    A = BLEND.attraction_roots(T)[0]
+    phases = [(k, 1)]
+    rows = np.array([k, k, k + [5e-4, -5e-4], k + [2e-3, -2e-3], k + [2e-3, -2e-3]])
+    which = np.array([1, 2, 1, 1, 2])
+    assert _on_known(BLEND, T, P, rows, which, phases, A).tolist() == [True, False, True, False, False]
+    # known with one root (0), it is matched on whatever root the trial takes
+    assert _on_known(BLEND, T, P, rows[:2], which[:2], [(k, 0)], A).tolist() == [True, True]
+
+
+def test_the_batched_fugacities_are_the_mixtures_own_on_each_root_over_a_wide_range():
+    # ln_phi_batch (roots of the cubic from its companion matrix, polished by Newton) against
+    # Mixture.ln_phi (the mixture's own volume roots), methane + n-decane under Peng-Robinson from 1 kPa
+    # to 50 MPa and 200 K to 300 K: one model, two paths, to round-off.
+    from contin_thermo.curves._stability import ln_phi_batch
+
+    mixture = Mixture((lookup("methane"), lookup("n-decane")), family("pr"))
+    for T in (200.0, 250.0, 300.0):
+        A = mixture.attraction_roots(T)[0]
+        for P in (1e3, 1e5, 1e7, 5e7):
+            w = np.array([[0.01, 0.99], [0.1, 0.9], [0.5, 0.5]])
+            for root, phase in ((1, "liquid"), (2, "vapour")):
+                batch = ln_phi_batch(mixture, T, P, w, A, np.full(3, root))
+                for k in range(3):
+                    assert batch[k] == pytest.approx(mixture.ln_phi(T, P, w[k], phase), abs=1e-11), (T, P, k, phase)
+
+
+def test_newtons_method_for_a_stationary_point_converges_at_second_order_with_its_exact_hessian():
+    # The blend at 250 K and 3 MPa is deep inside its envelope. From 5 % off a methane-rich stationary
+    # point of tm, Newton in alpha = 2 sqrt(W) (Michelsen 1982) converges in a handful of iterations
+    # (second order: the error squares each time), to a point where ln W_i + ln phi_i(w) - d_i = 0.
+    from contin_thermo.curves._stability import _newton, ln_phi_batch
+
+    T, P = 250.0, 3e6
+    A = BLEND.attraction_roots(T)[0]
+    d = np.log(Z) + ln_phi_batch(BLEND, T, P, Z[None, :], A)[0]
+    tm, w, ln_W, count, root = _newton(BLEND, T, P, d, np.log([0.95130284, 0.04869716]) + np.log(1.76) + [0.05, -0.05])
+    assert root == 1 and count <= 6
+    phase = "liquid" if root == 1 else "vapour"
+    assert np.abs(ln_W + BLEND.ln_phi(T, P, w, phase) - d).max() <= 1e-9
+    assert w == pytest.approx([0.95130284, 0.04869716], abs=1e-7)
+    # at a stationary point tm = 1 - sum W (Michelsen 1982)
+    assert tm == pytest.approx(1.0 - float(np.exp(ln_W).sum()), abs=1e-9) and tm < -0.5
+
+
+@pytest.mark.parametrize("n", [2, 3, 5])
+def test_each_pure_trial_is_a_composition_with_a_thousandth_shared_by_the_others(n):
+    from contin_thermo.curves._stability import _pure_trials
+
+    trials = _pure_trials(n)
+    assert trials.shape == (n, n)
+    assert trials.sum(axis=1) == pytest.approx(np.ones(n), abs=1e-15)
+    for i in range(n):
+        assert trials[i, i] == 1.0 - 1e-3
+        assert np.delete(trials[i], i) == pytest.approx(np.full(n - 1, 1e-3 / (n - 1)), rel=1e-15)
+
+
+def test_the_work_counted_includes_newtons_iterations_where_the_sign_needed_settling():
+    # 1 % below the blend's dew pressure the lowest trials end near tm = 0 unconverged, so Newton
+    # settles their sign: the work counted is the trial sweeps plus Newton's iterations.
+    from contin_thermo.curves import _stability
+
+    calls = []
+    real = _stability._newton
+
+    def counted(*args, **kwargs):
+        result = real(*args, **kwargs)
+        calls.append(result[3])
+        return result
+
+    def free(*args, **kwargs):  # the same answers, counted as no work
+        tm, w, ln_W, _, root = real(*args, **kwargs)
+        return tm, w, ln_W, 0, root
+
+    try:
+        _stability._newton = counted
+        again = tangent_plane_test(BLEND, DEW_T, DEW_P * 0.99, Z)
+        _stability._newton = free
+        sweeps_only = tangent_plane_test(BLEND, DEW_T, DEW_P * 0.99, Z)
+    finally:
+        _stability._newton = real
+    assert again.stable and again.tm == 0.0 and sweeps_only.stable
+    assert calls and all(count >= 1 for count in calls)
+    assert again.iterations == sweeps_only.iterations + sum(calls)
+    assert sweeps_only.iterations >= 4  # at least one sweep of every trial (two Wilson, two pure)
+    assert tangent_plane_test(BLEND, DEW_T, DEW_P * 0.99, Z).iterations == again.iterations
+
+
+def test_a_diagrams_summary_and_repr_say_what_it_is_line_by_line():
+    diagram = pxy(BLEND, 250.0)
+    critical = diagram.special("critical") if hasattr(diagram, "special") else next(
+        sp for sp in diagram.special_points if sp["kind"] == "critical")
+    x1, P = critical["values"]["x1"], critical["values"]["P"]
+    lines = diagram.summary()
+    assert lines[:5] == ["pxy diagram", "  model    : Peng-Robinson", f"  status   : {diagram.message}",
+                         f"  points   : {len(diagram.rows)}", f"  critical : x1 = {x1:.6g}, P = {P:.6g} Pa"]
+    assert lines[5].startswith("Caution: cubic equations of state are approximate")
+    assert repr(diagram) == (f"<pxy diagram of methane + propane at T = 250 K (Peng-Robinson): {len(diagram.rows)} "
+                             "points; critical; status terminal_event>")
+    azeotropic = pxy(Mixture((lookup("ethane"), lookup("carbon dioxide")), family("pr"), np.array([[0, 0.25], [0.25, 0]])),
+                     250.0)
+    assert [sp["kind"] for sp in azeotropic.special_points] == ["azeotrope"]
+    assert repr(azeotropic).endswith(f"points; azeotrope; status {azeotropic.status}>")
+    two = dataclasses.replace(azeotropic, special_points=[*azeotropic.special_points, *diagram.special_points])
+    assert repr(two).endswith(f"points; azeotrope, critical; status {azeotropic.status}>")
+
+
+@pytest.mark.parametrize(("kind", "fixed", "other"), [("pxy", 250.0, "lnP"), ("txy", 2e6, "lnT")])
+def test_the_binary_system_names_its_unknowns_and_starts_on_the_pure_second_components_saturation(kind, fixed, other):
+    # The start is converged (its residual vanishes at x1 = 0) and is a real saturation point: the two
+    # volumes apart, K_2 = 1 and K_1 = y1 / x1 from the light component's infinite dilution, not 1.
+    from contin_thermo.curves._binary import _BinarySystem, _start
+
+    system = _BinarySystem(BLEND, kind, fixed)
+    assert list(system.unknowns) == ["lnK_1", "lnK_2", other, "lnV_liquid", "lnV_vapour"]
+    u0 = _start(BLEND, kind, fixed)
+    assert np.abs(system.residual(u0, np.array([0.0]))).max() <= 1e-9
+    assert u0[1] == pytest.approx(0.0, abs=1e-12) and u0[0] > 0.5 and u0[4] - u0[3] > 1e-3
+
+
+def test_bad_binary_inputs_are_refused_with_the_whole_message():
+    from contin_thermo.curves._binary import txy
+
+    three = Mixture((lookup("methane"), lookup("ethane"), lookup("propane")), family("pr"))
+    with pytest.raises(InputError) as caught:
+        pxy(three, 200.0)
+    assert str(caught.value) == "--mixture must name exactly two components for pxy, not 3"
+    propane, butane = lookup("propane"), lookup("n-butane")
+    pair = Mixture((propane, butane), family("pr"))
+    with pytest.raises(InputError) as caught:
+        pxy(pair, butane.Tc)  # exactly at the critical temperature: refused too
+    assert str(caught.value).startswith(f"--temperature {butane.Tc:g} K is at or above the critical temperature of n-butane")
+    with pytest.raises(InputError) as caught:
+        txy(pair, 1e-7)
+    assert str(caught.value) == ("--pressure 1e-07 Pa is below 1e-06 Pa, where no saturation point of n-butane can be "
+                                 "computed; give a higher pressure")

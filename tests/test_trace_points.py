@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 
 import contin
 from contin.tracing._locate import Located
-from contin.tracing._trace import _in_branch_order, _turns_twice
+from contin.tracing._trace import _in_branch_order, _same_point, _turns_twice
 
 
 def line(slope: float = 1.0):
@@ -370,5 +370,49 @@ def test_a_located_point_is_on_a_straight_steps_arc_within_five_percent_along_an
     from contin.tracing._trace import _Run
 
     run = SimpleNamespace(options=contin.TraceOptions())
+    a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([1.0, 0.0]), np.array([1.0, 0.0]))
+    assert _Run._on_arc(run, np.array(x), a, b) is on
+
+
+def test_a_step_that_lands_exactly_on_a_branch_point_is_retried_shorter_and_the_point_still_found():
+    # u (u^2 - p) = 0 along u = 0 from p = -1: a first step of 1 lands exactly on the pitchfork at the
+    # origin, where [dF/dx; t] = [[0, 0], [0, 1]] is singular (exact). The step is refused for that,
+    # retried shorter, and the branch point is located between two regular points.
+    pitchfork = contin.CallableSystem(lambda u, p: [u[0] * (u[0] ** 2 - p[0])], ["u"], {"p": -1.0},
+                                      jacobian=lambda u, p: [[3 * u[0] ** 2 - p[0]]],
+                                      parameter_jacobian=lambda u, p: [[-u[0]]])
+    branch = contin.trace(pitchfork, [0.0], free="p", step=1.0, max_step=1.0, bounds={"p": (-1.0, 0.5)})
+    assert branch.stats["rejections"] == {"singular bordered Jacobian": 1}
+    assert [(sp.kind, sp.values) for sp in branch.special_points] == [
+        ("branch_point", {"u": 0.0, "p": pytest.approx(0.0, abs=1e-10)}), ("bound", {"u": 0.0, "p": 0.5})]
+
+
+def test_the_trace_time_is_measured_within_the_call():
+    import time
+
+    began = time.perf_counter()
+    branch = contin.trace(CIRCLE, {"u": 1.0}, free="p", step=0.1)
+    wall = time.perf_counter() - began
+    assert 0.0 < branch.stats["trace_seconds"] <= wall  # (setup_seconds is the system's, made earlier)
+
+
+@pytest.mark.parametrize(("distance", "same"), [(1.9e-9, True), (2.1e-9, False), (2.9e-9, False)])
+def test_two_located_points_are_one_within_1e_9_of_their_size(distance, same):
+    # at |x| = 1 with a location tolerance of 0 the reach is 1e-9 (1 + 1) = 2e-9
+    a = Located(0.5, np.array([1.0, 0.0]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+    b = Located(0.5, np.array([1.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+    assert _same_point(a, b, 0.0) is same
+    assert _same_point(a, b, 1e-10) is True  # ten times the tolerance on top: 1e-9 more
+
+
+@pytest.mark.parametrize(("x", "on"), [((1.05 + 0.5e-9, 0.0), True), ((1.05 + 2e-9, 0.0), False),
+                                       ((0.5, 0.01 + 0.5e-9), True), ((0.5, 0.01 + 2e-9), False)])
+def test_the_arcs_slack_includes_a_billionth_of_the_step(x, on):
+    # as above, with a Newton tolerance of 0: the only reach is 1e-9 of the step's length
+    from types import SimpleNamespace
+
+    from contin.tracing._trace import _Run
+
+    run = SimpleNamespace(options=SimpleNamespace(tolerance=0.0))
     a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([1.0, 0.0]), np.array([1.0, 0.0]))
     assert _Run._on_arc(run, np.array(x), a, b) is on

@@ -504,9 +504,7 @@ class _Run:
                 f"the Jacobian dF/du is singular at the corrected start point ({self.describe(correction.x)})"
             ) from None
         reference = row if self.initial_tangent is not None else row * self.options.direction
-        t = tangent(bordered, reference)
-        if self.initial_tangent is None and t[n] == 0.0:
-            t = reference.copy()
+        t = tangent(bordered, reference)  # with the row e_n its last entry is 1 / |z| > 0 before orienting
         self.jacobian = correction.jacobian
         self.signs = self.test_signs(bordered, float(row @ t), t, correction.jacobian)
         self.event_values = [self.event_value(event, correction.x) for event in self.events]
