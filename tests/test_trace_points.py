@@ -416,3 +416,20 @@ def test_the_arcs_slack_includes_a_billionth_of_the_step(x, on):
     run = SimpleNamespace(options=SimpleNamespace(tolerance=0.0))
     a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([1.0, 0.0]), np.array([1.0, 0.0]))
     assert _Run._on_arc(run, np.array(x), a, b) is on
+
+
+def test_two_real_eigenvalues_crossing_inside_one_step_are_both_located_and_noted_once():
+    # u1' = (0.3 - p) u1 - u1^3, u2' = (0.35 - p) u2 - u2^3 along u = 0: two pitchforks, at p = 0.3 and
+    # p = 0.35 (exact). A step over both leaves the branch-point test's sign as it was, but the count
+    # of eigenvalues with positive real part falls from 2 to 0, more than the crossings located: the
+    # step is retried shorter until each is located. The neutral saddle between them (eigenvalues
+    # -+0.025 at p = 0.325) is noted once, however often the retries meet it in a row.
+    with pytest.warns(contin.StructureWarning, match="splits into 2 independent subsystems"):
+        system = contin.SymbolicSystem({"f1": "(0.3 - p)*u1 - u1**3", "f2": "(0.35 - p)*u2 - u2**3"},
+                                       {"u1": 0.0, "u2": 0.0}, {"p": 0.0}, kind="ode")
+    branch = contin.trace(system, free="p", step=0.2, max_step=0.5, bounds={"p": (0.0, 1.0)})
+    assert [(sp.kind, sp.values["p"]) for sp in branch.special_points] == [
+        ("branch_point", pytest.approx(0.3, abs=1e-9)), ("branch_point", pytest.approx(0.35, abs=1e-9)), ("bound", 1.0)]
+    notes = branch.stats["notes"]
+    assert len(notes) == len(set(notes)) >= 1
+    assert notes[0].startswith("neutral saddle (real eigenvalues -0.025 and 0.025) at u1 = 0, u2 = 0, p = 0.325")

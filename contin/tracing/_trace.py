@@ -1258,7 +1258,8 @@ class _Run:
             "linear_solver": self.extended.solver.name,
         }
         if self.notes:
-            stats["notes"] = list(self.notes)
+            # a note repeated at once is one note (a step retried shorter may make the same note again)
+            stats["notes"] = [note for k, note in enumerate(self.notes) if k == 0 or note != self.notes[k - 1]]
         for key, method in (("structure", "structure_summary"), ("symbolic", "symbolic_summary")):
             describe = getattr(self.system, method, None)
             if callable(describe):
