@@ -970,7 +970,8 @@ class _Run:
             else:
                 coordinate, level = payload
                 self._bound_reached(coordinate, level, index, located, stop is None)
-                stop = stop or located
+                if stop is None:
+                    stop = located
         if stop is not None:
             return True
         index = end if end is not None else self.append(xb, tb, correction.iterations, correction.residual_norm)
