@@ -668,3 +668,42 @@ def test_bad_binary_inputs_are_refused_with_the_whole_message():
         txy(pair, 1e-7)
     assert str(caught.value) == ("--pressure 1e-07 Pa is below 1e-06 Pa, where no saturation point of n-butane can be "
                                  "computed; give a higher pressure")
+
+
+@pytest.mark.parametrize(("kind", "value", "message"), [
+    ("pxy", -5.0, "--temperature -5.0 must be a positive number"),
+    ("pxy", math.nan, "--temperature nan must be a positive number"),
+    ("txy", 0.0, "--pressure 0.0 must be a positive number"),
+    ("txy", True, "--pressure True must be a positive number"),
+])
+def test_a_fixed_value_that_is_not_a_positive_number_is_refused_in_words(kind, value, message):
+    from contin_thermo.curves._binary import txy
+
+    with pytest.raises(InputError) as caught:
+        (pxy if kind == "pxy" else txy)(BLEND, value)
+    assert str(caught.value) == message
+
+
+def test_the_critical_end_of_a_txy_diagram_is_a_row_on_the_model_at_the_fixed_pressure():
+    # methane + carbon dioxide at 6 MPa (as in tests/test_binary.py): the critical row's volume gives
+    # back the fixed pressure through the equation of state, and x1 = y1 there.
+    from contin_thermo.curves._binary import txy
+
+    mixture = Mixture((lookup("methane"), lookup("carbon dioxide")), family("pr"))
+    diagram = txy(mixture, 6e6)
+    (critical,) = [sp for sp in diagram.special_points if sp["kind"] == "critical"]
+    assert critical["name"] == "critical point" and critical["index"] == len(diagram.rows) - 1
+    x1, y1, T, v_liquid, v_vapour = diagram.rows[-1]
+    assert x1 == y1 == critical["values"]["x1"] and v_liquid == v_vapour and T == critical["values"]["T"]
+    assert mixture.pressure(T, v_liquid, np.array([x1, 1.0 - x1])) == pytest.approx(6e6, rel=1e-9)
+    assert critical["info"]["note"] == "Heidemann-Khalil critical point of the binary at the fixed pressure"
+
+
+def test_a_closing_whose_critical_point_is_not_found_says_so(monkeypatch):
+    from contin_thermo.curves import _binary
+
+    monkeypatch.setattr(_binary, "_critical_end", lambda *args: None)
+    diagram = pxy(BLEND, 250.0)
+    assert (diagram.status, diagram.success) == ("critical_not_located", False)
+    assert diagram.message == "stopped: the two-phase region closes here, but its critical point was not located"
+    assert [sp["kind"] for sp in diagram.special_points] == []
