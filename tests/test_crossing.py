@@ -92,6 +92,19 @@ def test_a_land_function_that_fails_or_lands_elsewhere_leaves_an_estimate_and_a_
     def raising(before, after):
         raise RuntimeError("no convergence")
 
+    def misshapen(before, after):
+        return Landing(np.array([0.5, 0.0]), located_to=0.0)  # two coordinates of three
+
+    def not_finite(before, after):
+        return Landing(np.array([0.5, math.nan, 0.5]), located_to=0.0)
+
+    for land in (misshapen, not_finite):
+        branch = trace(SYSTEM, free="p", crossing=Crossing(["d"], land=land), direction=1,
+                       bounds={"d": [-0.9, 0.9]}, **start())
+        assert branch.status.label == "bound_reached"
+        assert "estimate" in branch.special("crossing")[0].info
+        assert [note.endswith("does not lie between the points around it; its position is estimated")
+                for note in branch.stats["notes"]] == [True]
     for land in (far_away, raising):
         branch = trace(SYSTEM, free="p", crossing=Crossing(["d"], land=land), direction=1,
                        bounds={"d": [-0.9, 0.9]}, **start())
@@ -172,6 +185,7 @@ def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
     assert [sp.info["gap"] for sp in critical] == [crossing.smallest_gap] * 2  # halved from 0.02
     folds = branch.special("fold")
     assert [sp.index for sp in folds] == [sp.index for sp in critical]
+    assert [sp.name for sp in folds] == ["fold in p", "fold in p"]
     events = branch.special("event")
     assert [(sp.index, sp.name, sp.info["terminal"]) for sp in events] == [(sp.index, "d = 0", False) for sp in critical]
     # a note for each of them, each time: the fold, then the event

@@ -239,3 +239,21 @@ def test_each_solver_assembles_dg_dx_in_its_own_format_from_either_format():
         assert sparse.issparse(made) and made.format == "csr" and np.array_equal(made.toarray(), expected)
         assert np.array_equal(dense(made), expected)
     assert dense(expected) is expected
+
+
+def test_the_sparse_solver_takes_a_dense_jacobian_too():
+    ju, jp, row = bordered(5, 4)
+    matrix = np.vstack([np.column_stack([ju, jp]), row])
+    for block in (True, False):
+        factors = SparseLU(block=block).factorise(np.column_stack([ju, jp]), row)
+        assert factors.solve(np.ones(5)) == pytest.approx(np.linalg.solve(matrix, np.ones(5)), rel=1e-10)
+
+
+def test_the_log_determinant_of_a_nearly_singular_matrix_is_measured_not_refused():
+    # diag(1, 5e-14) bordered by (0, 0, 1): below the pivot ratio for factorise, yet its determinant,
+    # 5e-14, is what locating a branch point needs
+    ju, jp, row = np.diag([1.0, 5e-14]), np.zeros(2), np.array([0.0, 0.0, 1.0])
+    for solver in (DenseLU(), SparseLU(block=False), SparseLU()):
+        jacobian = solver.assemble(sparse.csr_array(ju) if solver.sparse else ju, jp)
+        sign, logarithm = solver.log_determinant(jacobian, row)
+        assert sign == 1.0 and logarithm == pytest.approx(math.log(5e-14), rel=1e-12)

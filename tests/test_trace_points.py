@@ -433,3 +433,26 @@ def test_two_real_eigenvalues_crossing_inside_one_step_are_both_located_and_note
     notes = branch.stats["notes"]
     assert len(notes) == len(set(notes)) >= 1
     assert notes[0].startswith("neutral saddle (real eigenvalues -0.025 and 0.025) at u1 = 0, u2 = 0, p = 0.325")
+
+
+def test_a_closed_loop_ends_on_its_start_row_with_the_starts_own_figures_after_a_step_no_longer_than_the_rest():
+    system, keywords = TRACES["closed loop"]
+    branch = contin.trace(system, **keywords, max_step=0.1)
+    assert branch.status is contin.Status.CLOSED_LOOP
+    assert np.array_equal(branch.points[-1], branch.points[0])
+    assert np.array_equal(branch.tangents[-1], branch.tangents[0])
+    assert branch.residual_norms[-1] == branch.residual_norms[0]
+    assert branch.newton_iterations[-1] == branch.newton_iterations[0]
+    assert branch.steps[-1] == pytest.approx(float(np.linalg.norm(branch.points[-1] - branch.points[-2])), rel=1e-15)
+    # the start was passed inside the last step, not ahead of it: that step is no longer than the others
+    assert branch.steps[-1] <= max(branch.steps[1:-1])
+    (closing,) = branch.special("closed_loop")
+    assert (closing.index, closing.name) == (len(branch.points) - 1, "back at the start")
+
+
+def test_one_point_reaches_ten_location_tolerances():
+    # at x = 0 with a location tolerance of 1e-8 the reach is 1e-7 + 1e-9
+    a = Located(0.5, np.zeros(2), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+    for distance, same in ((1.0e-7, True), (1.05e-7, False)):
+        b = Located(0.5, np.array([0.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+        assert _same_point(a, b, 1e-8) is same

@@ -113,7 +113,6 @@ class DenseLU(LinearSolver):
     cost more than the factorisation at the sizes this is for, a few hundred unknowns at most)."""
 
     name = "dense_lu"
-    sparse = False
     chord = False
 
     def assemble(self, ju, jp: np.ndarray) -> np.ndarray:
