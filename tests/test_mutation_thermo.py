@@ -707,3 +707,45 @@ def test_a_closing_whose_critical_point_is_not_found_says_so(monkeypatch):
     assert (diagram.status, diagram.success) == ("critical_not_located", False)
     assert diagram.message == "stopped: the two-phase region closes here, but its critical point was not located"
     assert [sp["kind"] for sp in diagram.special_points] == []
+
+
+def test_the_envelope_columns_units_are_those_written():
+    from contin_thermo.curves._envelope import ENVELOPE_UNITS
+
+    assert ENVELOPE_UNITS == {"T": "K", "P": "Pa", "side": "", "v_feed": "m3/mol", "v_incipient": "m3/mol",
+                              "stable": "", "P_std": "Pa"}
+
+
+def test_a_feed_of_the_wrong_size_is_refused_in_words():
+    with pytest.raises(InputError) as caught:
+        trace_envelope(BLEND, [0.2, 0.3, 0.5])
+    assert str(caught.value) == "the feed has 3 mole fractions for 2 components"
+
+
+def test_the_one_fluid_rows_hold_the_vapour_as_the_feed_and_the_liquid_as_the_incipient_phase():
+    # On the saturation curve of one fluid (propane twice) the dew-side feed is the vapour: the larger
+    # volume root, and the incipient phase the liquid, the smaller, each a root of the cubic.
+    propane = lookup("propane")
+    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
+                    family("pr"))
+    envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
+    for T, P, _, v_feed, v_incipient, *_ in envelope.rows[:-1]:
+        liquid, vapour = twins.volume_roots(T, P, np.array([0.3, 0.7]))
+        assert v_feed == pytest.approx(vapour, rel=1e-8) and v_incipient == pytest.approx(liquid, rel=1e-8)
+        assert v_feed > v_incipient
+
+
+def test_a_warm_start_of_a_three_component_feed_keeps_the_start_pressure():
+    # (ln K x3, ln T, ln V x2, ln P): the warm start's Newton fixes ln P, the last of the n + 4
+    # coordinates, index n + 3, whatever n is.
+    from contin_thermo.curves._envelope import start_coordinates
+
+    mixture = Mixture((lookup("methane"), lookup("ethane"), lookup("n-butane")), family("pr"))
+    z = np.array([0.7, 0.2, 0.1])
+    cold = trace_envelope(mixture, z, check_stability=False, max_points=3)
+    guess = np.array(start_coordinates(cold.to_dict()))
+    guess[:3] *= 1.001  # a neighbouring model's start
+    warm = trace_envelope(mixture, z, check_stability=False, max_points=3, start=list(guess))
+    assert warm.rows[0][1] == pytest.approx(1e5, rel=1e-14) and warm.rows[0][0] == pytest.approx(cold.rows[0][0], rel=1e-10)
+    # taken, not dropped for Wilson's K-values (which would add the cold start's work to the warm one's)
+    assert warm.stats["start_newton_iterations"] <= cold.stats["start_newton_iterations"]
