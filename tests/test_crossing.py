@@ -185,7 +185,7 @@ def test_a_branch_that_meets_the_second_family_twice_passes_it_twice():
     assert [sp.info["gap"] for sp in critical] == [crossing.smallest_gap] * 2  # halved from 0.02
     folds = branch.special("fold")
     assert [sp.index for sp in folds] == [sp.index for sp in critical]
-    assert [sp.name for sp in folds] == ["fold in p", "fold in p"]
+    assert [(sp.name, sp.info["coordinate"]) for sp in folds] == [("fold in p", "p"), ("fold in p", "p")]
     events = branch.special("event")
     assert [(sp.index, sp.name, sp.info["terminal"]) for sp in events] == [(sp.index, "d = 0", False) for sp in critical]
     # a note for each of them, each time: the fold, then the event

@@ -265,7 +265,12 @@ def test_azeotrope_has_equal_phase_compositions():
     diagram = pxy(mixture, 250.0)
     (azeotrope,) = [sp for sp in diagram.special_points if sp["kind"] == "azeotrope"]
     row = diagram.rows[azeotrope["index"]]
-    assert row[0] == azeotrope["values"]["x1"]
+    assert azeotrope["name"] == "azeotrope"
+    assert row[0] == azeotrope["values"]["x1"] and row[2] == azeotrope["values"]["P"]
+    # the volume columns are the cubic's roots for each phase at the row's T and P
+    for x1, y1, P, v_liquid, v_vapour in diagram.rows[1:-1:7]:
+        assert v_liquid == pytest.approx(mixture.volume_roots(250.0, P, np.array([x1, 1 - x1]))[0], rel=1e-8)
+        assert v_vapour == pytest.approx(mixture.volume_roots(250.0, P, np.array([y1, 1 - y1]))[1], rel=1e-8)
     assert abs(row[0] - row[1]) <= 1e-8 * row[0]
     assert 0.0 < row[0] < 1.0 and row[3] < row[4]  # distinct liquid and vapour volumes
     # and the pressure is a maximum there: above both neighbouring rows
@@ -697,6 +702,7 @@ def test_the_critical_end_of_a_txy_diagram_is_a_row_on_the_model_at_the_fixed_pr
     assert x1 == y1 == critical["values"]["x1"] and v_liquid == v_vapour and T == critical["values"]["T"]
     assert mixture.pressure(T, v_liquid, np.array([x1, 1.0 - x1])) == pytest.approx(6e6, rel=1e-9)
     assert critical["info"]["note"] == "Heidemann-Khalil critical point of the binary at the fixed pressure"
+    assert diagram.message == f"completed: the two-phase region closes at the critical point x1 = {x1:.6g}, T = {T:.6g} K"
 
 
 def test_a_closing_whose_critical_point_is_not_found_says_so(monkeypatch):

@@ -430,6 +430,9 @@ def test_two_real_eigenvalues_crossing_inside_one_step_are_both_located_and_note
     branch = contin.trace(system, free="p", step=0.2, max_step=0.5, bounds={"p": (0.0, 1.0)})
     assert [(sp.kind, sp.values["p"]) for sp in branch.special_points] == [
         ("branch_point", pytest.approx(0.3, abs=1e-9)), ("branch_point", pytest.approx(0.35, abs=1e-9)), ("bound", 1.0)]
+    # the system's own structure is handed on with the branch
+    assert branch.stats["structure"] == system.structure_summary()
+    assert branch.stats["structure"]["independent_subsystems"] == 2
     notes = branch.stats["notes"]
     assert len(notes) == len(set(notes)) >= 1
     assert notes[0].startswith("neutral saddle (real eigenvalues -0.025 and 0.025) at u1 = 0, u2 = 0, p = 0.325")
@@ -456,3 +459,14 @@ def test_one_point_reaches_ten_location_tolerances():
     for distance, same in ((1.0e-7, True), (1.05e-7, False)):
         b = Located(0.5, np.array([0.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
         assert _same_point(a, b, 1e-8) is same
+
+
+def test_a_fixed_parameter_exactly_on_its_bound_is_inside_them():
+    # bounds on a parameter that is not traced are checked against its value: its ends belong to it
+    system = contin.CallableSystem(lambda u, p: [u[0] - p[0] * p[1]], ["u"], {"p": 0.0, "q": 2.0},
+                                   jacobian=lambda u, p: [[1.0]])
+    for bounds in ((0.0, 2.0), (2.0, 3.0)):
+        branch = contin.trace(system, [0.0], free="p", bounds={"q": bounds, "p": (-1.0, 1.0)})
+        assert branch.status is contin.Status.BOUND_REACHED
+    with pytest.raises(contin.InputError, match=r"^parameter 'q' is fixed at 2.0, outside its bounds \[2.5, 3.0\]$"):
+        contin.trace(system, [0.0], free="p", bounds={"q": (2.5, 3.0)})
