@@ -124,11 +124,13 @@ def test_at_a_fold_the_whole_bordered_matrix_is_factorised_instead():
 
 
 def test_a_pivot_of_df_du_below_1e_8_of_the_largest_falls_back_but_not_above_it():
-    for eps, kind in ((2e-8, BlockFactors), (5e-9, SparseFactors)):
+    # relative to the largest pivot, whatever its size (here 1 and 100)
+    for largest, eps, kind in ((1.0, 2e-8, BlockFactors), (1.0, 5e-9, SparseFactors),
+                               (100.0, 2e-6, BlockFactors), (100.0, 5e-7, SparseFactors)):
         solver = SparseLU()
-        ju, jp, row = np.diag([1.0, eps]), np.array([0.0, 1.0]), np.array([0.0, 1.0, 1.0])
+        ju, jp, row = np.diag([largest, eps]), np.array([0.0, 1.0]), np.array([0.0, 1.0, 1.0])
         factors = solver.factorise(solver.assemble(sparse.csr_array(ju), jp), row)
-        assert isinstance(factors, kind), eps
+        assert isinstance(factors, kind), (largest, eps)
         matrix = np.vstack([np.column_stack([ju, jp]), row])
         assert factors.solve(np.array([1.0, 1.0, 1.0])) == pytest.approx(np.linalg.solve(matrix, [1.0, 1.0, 1.0]), rel=1e-9)
 
@@ -225,6 +227,7 @@ def test_the_solver_for_each_choice_and_format():
     mine = SparseLU(block=False)
     assert choose_solver(mine, np.eye(2)) is mine
     assert (DenseLU.name, DenseLU.sparse, DenseLU.chord) == ("dense_lu", False, False)
+    assert (_linear.LinearSolver.name, _linear.LinearSolver.sparse) == ("abstract", False)  # a solver's defaults
     assert (SparseLU.name, SparseLU.sparse, SparseLU().chord, SparseLU().block, SparseLU().ordering) == (
         "sparse_lu", True, True, True, None)
 
