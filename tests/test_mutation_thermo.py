@@ -346,6 +346,7 @@ def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
     assert critical["kind"] == "critical" and critical["index"] == len(envelope.rows) - 1
     z_c = (1.0 - family("pr").omega_b) / 3.0
     assert critical["info"]["v"] == pytest.approx(z_c * GAS_CONSTANT * propane.Tc / propane.Pc, rel=1e-8)
+    assert critical["info"]["note"] == "the critical point of the one fluid (Heidemann-Khalil)"
     (near,) = envelope.branch.special("near_critical")
     assert near.index == len(envelope.rows) - 1 and near.info["terminal"] is True
     stats = envelope.stats
@@ -416,6 +417,7 @@ def test_a_run_stopped_by_its_point_limit_claims_no_bubble_point_and_no_missing_
     assert (partial.status, partial.success) == ("max_points", True)
     assert partial.message.startswith("completed: the maximum number of points was reached (12) at T = ")
     assert "bubble point" not in partial.message
+    assert partial.notes[-1] == "no critical point was passed on this branch"
     stopped = contin_thermo.trace_envelope(contin_thermo.mixture(["methane", "n-decane"], "pr"), [0.9, 0.1],
                                            check_stability=False)
     assert stopped.status == "liquid_liquid" and stopped.special("critical") is not None
@@ -755,3 +757,38 @@ def test_a_warm_start_of_a_three_component_feed_keeps_the_start_pressure():
     assert warm.rows[0][1] == pytest.approx(1e5, rel=1e-14) and warm.rows[0][0] == pytest.approx(cold.rows[0][0], rel=1e-10)
     # taken, not dropped for Wilson's K-values (which would add the cold start's work to the warm one's)
     assert warm.stats["start_newton_iterations"] <= cold.stats["start_newton_iterations"]
+
+
+def test_the_summary_names_each_metastable_stretch_by_its_first_and_last_rows(envelope):
+    rows = [list(row) for row in envelope.rows]
+    for row in rows:
+        row[5] = True
+    for i in (3, 4, 5):
+        rows[i][5] = False
+    flagged = dataclasses.replace(envelope, rows=rows)
+    lines = flagged.summary()
+    assert lines[0] == "phase envelope"
+    a, b = rows[3], rows[5]
+    (line,) = [line for line in lines if line.strip().startswith("metastable")]
+    assert line.endswith(f"dew side from T = {a[0]:.6f} K, P = {a[1]:.6g} Pa to T = {b[0]:.6f} K, "
+                         f"P = {b[1]:.6g} Pa (another phase split is more stable)"), line
+
+
+def test_a_row_beyond_the_cricondenbar_fails_the_check_in_words(envelope):
+    branch = envelope.branch
+    points = branch.points.copy()
+    top = envelope.special("cricondenbar")
+    i = top["index"] - 4
+    points[i, -1] = points[top["index"], -1] + 0.01
+    _, _, _, (status, message, success), _ = _assemble(BLEND, Z, dataclasses.replace(branch, points=points), 1e5)
+    P = math.exp(points[i, -1])
+    assert (status, success) == ("inconsistent", False)
+    assert message == ("stopped: the traced envelope fails its own checks: "
+                       f"row {i} lies beyond the cricondenbar ({P:.8g} against {top['values']['P']:.8g} Pa)")
+
+
+def test_a_feed_that_does_not_sum_to_one_within_a_millionth_is_refused():
+    with pytest.raises(InputError) as caught:
+        trace_envelope(BLEND, [0.5, 0.5 + 1.5e-6])
+    assert str(caught.value) == "the mole fractions sum to 1.0000015, not 1; fix them or pass --normalise"
+    assert trace_envelope(BLEND, [0.5, 0.5 + 0.5e-6], check_stability=False, max_points=3).rows

@@ -470,3 +470,40 @@ def test_a_fixed_parameter_exactly_on_its_bound_is_inside_them():
         assert branch.status is contin.Status.BOUND_REACHED
     with pytest.raises(contin.InputError, match=r"^parameter 'q' is fixed at 2.0, outside its bounds \[2.5, 3.0\]$"):
         contin.trace(system, [0.0], free="p", bounds={"q": (2.5, 3.0)})
+
+
+def test_a_trace_interrupted_by_ctrl_c_keeps_its_rows_and_says_so():
+    calls = []
+
+    def residual(u, p):
+        calls.append(1)
+        if len(calls) > 12:
+            raise KeyboardInterrupt
+        return [u[0] - p[0]]
+
+    system = contin.CallableSystem(residual, ["u"], {"p": 0.0}, jacobian=lambda u, p: [[1.0]],
+                                   parameter_jacobian=lambda u, p: [[-1.0]])
+    branch = contin.trace(system, {"u": 0.0}, free="p", step=0.1)
+    assert branch.status is contin.Status.INTERRUPTED and not branch.success
+    assert branch.message == f"{contin.Status.INTERRUPTED.message}: keyboard interrupt"
+    assert len(branch.points) >= 2 and isinstance(branch.cause, KeyboardInterrupt)
+
+
+def test_a_terminal_event_names_itself_and_where_and_a_clean_trace_has_no_cause():
+    event = contin.Event("half", lambda u, p: p[0] - 0.5, terminal=True)
+    branch = contin.trace(line(), {"u": 0.0}, free="p", step=0.3, events=[event])
+    assert branch.message == "completed: stopped by a terminal event 'half' at u = 0.5, p = 0.5"
+    assert branch.cause is None
+
+
+def test_a_start_on_a_requested_value_is_a_requested_point_of_kind_at():
+    branch = contin.trace(line(), {"u": 0.25}, free="p", parameters={"p": 0.25}, at={"p": [0.25]},
+                          bounds={"p": (0.0, 1.0)})
+    assert [(sp.kind, sp.name, sp.index) for sp in branch.at][0] == ("at", "p = 0.25", 0)
+
+
+def test_a_systems_own_setup_time_is_counted_in_the_setup():
+    system = line()
+    system.setup_seconds = 5.0
+    branch = contin.trace(system, {"u": 0.0}, free="p", max_points=3)
+    assert 5.0 <= branch.stats["setup_seconds"] < 6.0
