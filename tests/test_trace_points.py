@@ -507,3 +507,23 @@ def test_a_systems_own_setup_time_is_counted_in_the_setup():
     system.setup_seconds = 5.0
     branch = contin.trace(system, {"u": 0.0}, free="p", max_points=3)
     assert 5.0 <= branch.stats["setup_seconds"] < 6.0
+
+
+def test_options_may_be_given_as_one_object_or_as_keywords_but_not_both():
+    branch = contin.trace(line(), {"u": 0.0}, free="p", bounds={"p": (-1.0, 3.0)},
+                          options=contin.TraceOptions(max_step=0.25, step=0.25))
+    assert max(branch.steps) == pytest.approx(0.25, rel=1e-12)
+    with pytest.raises(contin.InputError) as caught:
+        contin.trace(line(), {"u": 0.0}, free="p", options=contin.TraceOptions(), step=0.1)
+    assert str(caught.value) == "give either options=TraceOptions(...) or the step/tolerance keywords, not both"
+
+
+@pytest.mark.parametrize("sign", ["", "-"])
+def test_a_shallow_crossing_is_found_by_the_determinants_trend_whatever_its_sign(sign):
+    # (u - lam^2)(u + 0.03 lam - lam^2) = 0, and its negative: two parabolas crossing at the origin at a
+    # shallow angle (exact). Negating F flips the sign of det [dF/dx; t] along the branch; the trend
+    # that finds a hop across the crossing must work with either sign.
+    system = contin.SymbolicSystem({"f": f"{sign}(u - lam**2)*(u + 0.03*lam - lam**2)"}, {"u": 0.25}, {"lam": -0.5})
+    branch = contin.trace(system, free="lam", bounds={"lam": (-0.5, 0.5)}, max_points=400)
+    (point,) = branch.special("branch_point")
+    assert abs(point.values["lam"]) <= 1e-10 and abs(point.values["u"]) <= 1e-10
