@@ -792,3 +792,14 @@ def test_a_feed_that_does_not_sum_to_one_within_a_millionth_is_refused():
         trace_envelope(BLEND, [0.5, 0.5 + 1.5e-6])
     assert str(caught.value) == "the mole fractions sum to 1.0000015, not 1; fix them or pass --normalise"
     assert trace_envelope(BLEND, [0.5, 0.5 + 0.5e-6], check_stability=False, max_points=3).rows
+
+
+@pytest.mark.parametrize(("kind", "fixed", "what"), [("pxy", 250.0, "temperature"), ("txy", 2e6, "pressure")])
+def test_a_pure_component_saturation_that_newton_cannot_find_is_refused_in_words(monkeypatch, kind, fixed, what):
+    from contin_thermo.curves import _binary
+
+    monkeypatch.setattr(_binary, "_newton", lambda system, x, fixed_index, value: (x, 1.0, False))
+    with pytest.raises(InputError) as caught:
+        _binary._start(BLEND, kind, fixed)
+    assert str(caught.value) == (f"no saturation point of propane found at the given {what}; "
+                                 "is it below the critical point?")

@@ -168,8 +168,7 @@ def _start(mixture: Mixture, kind: str, fixed: float) -> np.ndarray:
                              f"{mixture.names[1]} can be computed; give a higher pressure")
         T = Tc / (1 - math.log(P / Pc) / (5.373 * (1 + omega)))
     x = np.array([0.0, 1.0])
-    K = mixture.wilson(T, P)
-    K[1] = 1.0
+    K = mixture.wilson(T, P)  # K_1 starts Newton; K_2 = 1 at x1 = 0 (ln K_2 = 0 below)
     v_liquid = mixture.volume(T, P, np.array([1e-12, 1.0]), "liquid")
     v_vapour = mixture.volume(T, P, np.array([1e-12, 1.0]), "vapour")
     system = EnvelopeSystem(mixture, x)
