@@ -629,8 +629,7 @@ def test_the_work_counted_includes_newtons_iterations_where_the_sign_needed_sett
 
 def test_a_diagrams_summary_and_repr_say_what_it_is_line_by_line():
     diagram = pxy(BLEND, 250.0)
-    critical = diagram.special("critical") if hasattr(diagram, "special") else next(
-        sp for sp in diagram.special_points if sp["kind"] == "critical")
+    (critical,) = [sp for sp in diagram.special_points if sp["kind"] == "critical"]
     x1, P = critical["values"]["x1"], critical["values"]["P"]
     lines = diagram.summary()
     assert lines[:5] == ["pxy diagram", "  model    : Peng-Robinson", f"  status   : {diagram.message}",

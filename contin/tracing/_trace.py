@@ -516,7 +516,7 @@ class _Run:
         for coordinate, values in self.at:
             for value in values[values == correction.x[coordinate]]:
                 located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0, 0.0)
-                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
+                self._at_point(coordinate, value, index, located)
         if self.on_point is not None:
             self._notify(index, correction.x)
 
@@ -938,8 +938,7 @@ class _Run:
             else:
                 index = self.append(located.x, located.tangent, located.iterations, located.residual_norm)
             if kind == "at":
-                coordinate, value = payload
-                self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
+                self._at_point(*payload, index, located)
                 continue
             if kind == "passage":
                 # From here on the steps fix the passage coordinate; the rest of this step is dropped,
@@ -976,8 +975,7 @@ class _Run:
             return True
         index = end if end is not None else self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
-            located = own(xb, tb)
-            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index, located))
+            self._at_point(coordinate, value, index, own(xb, tb))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -1055,35 +1053,33 @@ class _Run:
                 self.special.append(self.special_point("fold", f"fold in {name}", index, across, {"coordinate": name}))
                 noted(f"fold in {name}")
         values_b = [self.event_value(event, xb) for event in self.events]
-        events = [event for k, event in enumerate(self.events)
-                  if crossed(self.event_values[k], values_b[k], event.direction)]
-        bounds = [(coordinate, level) for coordinate, low, high in self.bounds for level in (low, high)
-                  if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0]
+        crossed_here = [("event", event) for k, event in enumerate(self.events)
+                        if crossed(self.event_values[k], values_b[k], event.direction)]
+        crossed_here += [("bound", (coordinate, level)) for coordinate, low, high in self.bounds for level in (low, high)
+                         if (xa[coordinate] - level) * (xb[coordinate] - level) < 0.0]
         at_b = []
         for coordinate, values in self.at:
             low, high = sorted((xa[coordinate], xb[coordinate]))
             for value in values[(values > low) & (values < high)]:
-                name = f"{self.columns[coordinate]} = {_number(value)}"
-                self.at_points.append(self.special_point("at", name, index, across))
-                noted(f"requested value {name}")
+                noted(f"requested value {self._at_point(coordinate, value, index, across)}")
             at_b += [(coordinate, float(value)) for value in values[values == xb[coordinate]]]
         # in the order of points located at one point (_stop_rank): what only reports, the bounds, the
         # terminal events; the first stop gives the status
         stop = False
-        for event in (event for event in events if not event.terminal):
-            self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": False}))
-            noted(f"event {event.name!r}")
-        for coordinate, level in bounds:
-            self._bound_reached(coordinate, level, index, across, not stop)
-            noted(f"bound {self.columns[coordinate]} = {_number(level)}")
-            stop = True
-        for event in (event for event in events if event.terminal):
-            self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": True}))
-            noted(f"terminal event {event.name!r}")
-            if not stop:
+        for kind, payload in sorted(crossed_here, key=lambda item: _stop_rank(*item)):
+            if kind == "bound":
+                coordinate, level = payload
+                self._bound_reached(coordinate, level, index, across, not stop)
+                noted(f"bound {self.columns[coordinate]} = {_number(level)}")
+                stop = True
+                continue
+            event = payload
+            self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": event.terminal}))
+            noted(f"{'terminal event' if event.terminal else 'event'} {event.name!r}")
+            if event.terminal and not stop:
                 self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at "
                                                    f"{self.describe(x_c)}")
-            stop = True
+            stop = stop or event.terminal
         self.zero_ahead = self.zero_ahead_before = None  # across a singular crossing the trend is lost
         self.branch_retries = 0
         self.signs = signs
@@ -1093,9 +1089,7 @@ class _Run:
             return True
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
-            self.at_points.append(self.special_point("at", f"{self.columns[coordinate]} = {_number(value)}", index,
-                                                     Located(1.0, xb, tb, correction.residual_norm,
-                                                             correction.iterations, 0.0, 0.0)))
+            self._at_point(coordinate, value, index, Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -1189,11 +1183,17 @@ class _Run:
         gap = _length(x - xa - along * unit)
         return gap <= length * math.sin(min(phi, 0.5 * math.pi)) + 0.01 * length + reach
 
+    def _at_point(self, coordinate: int, value: float, index: int, located: Located) -> str:
+        """Report the requested value ``value`` of ``coordinate`` on row ``index``; returns its name."""
+        name = f"{self.columns[coordinate]} = {_number(value)}"
+        self.at_points.append(self.special_point("at", name, index, located))
+        return name
+
     def _bound_reached(self, coordinate: int, level: float, index: int, located: Located, stops: bool = True) -> None:
         name = self.columns[coordinate]
         self.special.append(self.special_point("bound", f"{name} = {_number(level)}", index, located, {"coordinate": name}))
         if stops:
-                self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
+            self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
 
     def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
         """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
