@@ -21,6 +21,13 @@ from contin_thermo.models._eos import family
 from contin_thermo.models._mixture import Mixture
 from contin_thermo.curves._stability import tangent_plane_test
 
+def propane_twins() -> Mixture:
+    """Propane under two names (kij = 0): one fluid to the model."""
+    propane = lookup("propane")
+    return Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
+                   family("pr"))
+
+
 # An invented 50/50 blend (demo composition) under Peng-Robinson.
 BLEND = Mixture((lookup("methane"), lookup("propane")), family("pr"))
 Z = np.array([0.5, 0.5])
@@ -335,8 +342,7 @@ def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
     from contin_thermo.models._helmholtz import GAS_CONSTANT
 
     propane = lookup("propane")
-    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
-                    family("pr"))
+    twins = propane_twins()
     envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
     assert (envelope.status, envelope.success) == ("terminal_event", True)
     assert envelope.message == "completed: the saturation curve ends at the critical point"
@@ -489,9 +495,7 @@ def test_a_warm_start_on_a_saturation_point_with_k_1_is_taken_and_a_failed_one_i
     # Wilson's K-values, and the start is converged either way.
     from contin_thermo.curves._envelope import EnvelopeSystem, _start_point
 
-    propane = lookup("propane")
-    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
-                    family("pr"))
+    twins = propane_twins()
     z = np.array([0.3, 0.7])
     cold, cold_work = _start_point(twins, z, 4e6, 1.0)
     assert np.abs(cold[:2]).max() < 1e-4 and 1e-3 < abs(cold[3] - cold[4]) < 1.0
@@ -732,9 +736,7 @@ def test_a_feed_of_the_wrong_size_is_refused_in_words():
 def test_the_one_fluid_rows_hold_the_vapour_as_the_feed_and_the_liquid_as_the_incipient_phase():
     # On the saturation curve of one fluid (propane twice) the dew-side feed is the vapour: the larger
     # volume root, and the incipient phase the liquid, the smaller, each a root of the cubic.
-    propane = lookup("propane")
-    twins = Mixture((dataclasses.replace(propane, name="propane-a"), dataclasses.replace(propane, name="propane-b")),
-                    family("pr"))
+    twins = propane_twins()
     envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
     for T, P, _, v_feed, v_incipient, *_ in envelope.rows[:-1]:
         liquid, vapour = twins.volume_roots(T, P, np.array([0.3, 0.7]))
