@@ -816,7 +816,10 @@ class _Run:
             (x0, t0), (x1, t1) = ends
             use_first = f_a is None or abs(f_a) < abs(f_b)
             x, t = (x0, t0) if use_first else (x1, t1)
-            return own(x, t, length)
+            estimates.append(own(x, t, length))
+            return estimates[-1]
+
+        estimates: list[Located] = []  # the bracketing points unlocated() gave: each gets a note when reported
 
         near_crossing = self.passage is not None and self.passage.active
         patient = not force and self.branch_retries < _BRANCH_RETRIES
@@ -910,9 +913,9 @@ class _Run:
             # critical point) is not on this step's arc: retry a shorter step, where it cannot.
             if not force:
                 return None
-            for item in strays:
-                self.notes.append(f"a {item[1]} located at {self.describe(item[3].x)} lies off the branch "
-                                  "between the points around it (another solution family nearby?)")
+            for _, kind, payload, located in strays:
+                self.notes.append(f"the {self._named(kind, payload)} located at {self.describe(located.x)} lies off "
+                                  "the branch between the points around it (another solution family nearby?)")
         # Everything between a and b is located: from here on the branch changes.
         self._update_trend(length, signs)
         self.branch_retries = 0
@@ -920,15 +923,20 @@ class _Run:
         self.event_values = values[-1]
         self.event_slopes = slopes_b
         if len(self.rows) == 1:
-            # A start on a special point (e.g. a restart from a fold) is not a new special point.
+            # A start on a special point (e.g. a restart from a fold) is not a new special point; a
+            # forced step's estimate on the start (its bracketing point, the start itself) is one.
             near = 1e-9 * (1.0 + float(np.linalg.norm(xa)))
-            found = [item for item in found if item[1] in ("at", "bound") or float(np.linalg.norm(item[3].x - xa)) > near]
+            found = [item for item in found if item[1] in ("at", "bound") or item[3].x is xa
+                     or float(np.linalg.norm(item[3].x - xa)) > near]
         found = _in_branch_order(found, options.location_tolerance)
         end = None  # the row of b, once a point reported on b itself (a forced step's bracket) appends it
         stop = None  # the point where the trace stops: what else was located there is still reported
         for fraction, kind, payload, located in found:
             if stop is not None and not _same_point(stop, located, options.location_tolerance):
                 break
+            if any(located is estimate for estimate in estimates):
+                self.notes.append(f"the {self._named(kind, payload)} between {self.describe(xa)} and {self.describe(xb)} "
+                                  f"could not be located at min_step: reported at the nearer end, located to {length:.3g}")
             if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
                 index = len(self.rows) - 1  # reported on the point before the step (not located closer)
             elif located.x is xb:
@@ -987,7 +995,6 @@ class _Run:
         try:
             factors = factorise_bordered(jacobian, t, self.extended.solver)
             self.signs = self.test_signs(factors, float(t @ t), t, jacobian)
-            self.jacobian = jacobian
         except SingularMatrix:
             pass  # the entry lies on a singular point itself: the end's signs are the best known
         self.zero_ahead = self.zero_ahead_before = None
@@ -1051,7 +1058,7 @@ class _Run:
             if crossed(ta[coordinate], tb[coordinate]):
                 name = self.columns[coordinate]
                 self.special.append(self.special_point("fold", f"fold in {name}", index, across, {"coordinate": name}))
-                noted(f"fold in {name}")
+                noted(self._named("fold", coordinate))
         values_b = [self.event_value(event, xb) for event in self.events]
         crossed_here = [("event", event) for k, event in enumerate(self.events)
                         if crossed(self.event_values[k], values_b[k], event.direction)]
@@ -1070,12 +1077,12 @@ class _Run:
             if kind == "bound":
                 coordinate, level = payload
                 self._bound_reached(coordinate, level, index, across, not stop)
-                noted(f"bound {self.columns[coordinate]} = {_number(level)}")
+                noted(self._named(kind, payload))
                 stop = True
                 continue
             event = payload
             self.special.append(self.special_point(event.kind, event.name, index, across, {"terminal": event.terminal}))
-            noted(f"{'terminal event' if event.terminal else 'event'} {event.name!r}")
+            noted(self._named(kind, event))
             if event.terminal and not stop:
                 self.finish(Status.TERMINAL_EVENT, f"{Status.TERMINAL_EVENT.message} {event.name!r} at "
                                                    f"{self.describe(x_c)}")
@@ -1166,8 +1173,9 @@ class _Run:
 
         The arc leaves a along ta and reaches b along tb; if its tangent stays within an angle phi of
         the chord (phi: the larger of the end tangents' angles to the chord, which the turn limit keeps
-        small), it stays within L sin(phi) / 2 of the chord of length L. Twice that, plus the reach of
-        the Newton tolerance, is allowed.
+        small), it stays within L sin(phi) / 2 of the chord of length L. Twice that, plus 1 % of L and
+        the reach of the Newton tolerance (and 1e-9 L for rounding), is allowed across the chord, and
+        5 % of L beyond either end along it.
         """
         (xa, ta), (xb, tb) = a, b
         chord = xb - xa
@@ -1182,6 +1190,19 @@ class _Run:
             return False
         gap = _length(x - xa - along * unit)
         return gap <= length * math.sin(min(phi, 0.5 * math.pi)) + 0.01 * length + reach
+
+    def _named(self, kind: str, payload) -> str:
+        """A located point in words, as a note names it (e.g. "fold in T", "terminal event 'dew'")."""
+        if kind == "fold":
+            return f"fold in {self.columns[payload]}"
+        if kind == "event":
+            return f"{'terminal event' if payload.terminal else 'event'} {payload.name!r}"
+        if kind in ("at", "bound"):
+            coordinate, value = payload
+            return f"{'requested value' if kind == 'at' else 'bound'} {self.columns[coordinate]} = {_number(value)}"
+        if kind == "passage":
+            return f"entry of the passage of the {self.passage.crossing.name}"
+        return {"branch_point": "branch point", "hopf": "Hopf point"}[kind]
 
     def _at_point(self, coordinate: int, value: float, index: int, located: Located) -> str:
         """Report the requested value ``value`` of ``coordinate`` on row ``index``; returns its name."""
