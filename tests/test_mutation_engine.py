@@ -297,6 +297,8 @@ def _hermite_turns(value_a, value_b, slope_a, slope_b, length):
     (-1.0, -1.0, -1.0, False), # a straight fall
     (0.0, -0.5, -0.5, True),   # falling ends with no net change: two turns
     (1.0, 1.0, -1.0, False),   # slopes of opposite signs: one turn, seen by the end slopes
+    (0.0, 1.0, 0.0, False),    # the end is a turn (slope 0): seen by the end slopes, not a second one
+    (0.0, 0.0, 1.0, False),    # the start is a turn: likewise
 ])
 def test_a_coordinate_that_turns_twice_inside_a_step_is_seen(value_b, slope_a, slope_b, twice):
     from contin.tracing._trace import _turns_twice

@@ -407,15 +407,17 @@ def test_two_located_points_are_one_within_1e_9_of_their_size(distance, same):
 
 @pytest.mark.parametrize(("x", "on"), [((1.05 + 0.5e-9, 0.0), True), ((1.05 + 2e-9, 0.0), False),
                                        ((0.5, 0.01 + 0.5e-9), True), ((0.5, 0.01 + 2e-9), False)])
-def test_the_arcs_slack_includes_a_billionth_of_the_step(x, on):
-    # as above, with a Newton tolerance of 0: the only reach is 1e-9 of the step's length
+@pytest.mark.parametrize("length", [1.0, 1e-3])
+def test_the_arcs_slack_includes_a_billionth_of_the_step(x, on, length):
+    # as above, with a Newton tolerance of 0: the only reach is 1e-9 of the step's length, for a
+    # short step as for a long one (the whole picture scaled by the length)
     from types import SimpleNamespace
 
     from contin.tracing._trace import _Run
 
     run = SimpleNamespace(options=SimpleNamespace(tolerance=0.0))
-    a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([1.0, 0.0]), np.array([1.0, 0.0]))
-    assert _Run._on_arc(run, np.array(x), a, b) is on
+    a, b = (np.zeros(2), np.array([1.0, 0.0])), (np.array([length, 0.0]), np.array([1.0, 0.0]))
+    assert _Run._on_arc(run, length * np.array(x), a, b) is on
 
 
 def test_two_real_eigenvalues_crossing_inside_one_step_are_both_located_and_noted_once():
