@@ -807,6 +807,8 @@ class _Run:
                 residual_norm, iterations = self.residuals[-1], self.iterations[-1]
             return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to, 0.0)
 
+        estimates: list[Located] = []  # the bracketing points unlocated() gave: each gets a note when reported
+
         def unlocated(ends, f_a: float | None = None, f_b: float | None = None) -> Located | None:
             """None (retry a shorter step), or with force a bracketing point: the one where the test
             function (``f_a``, ``f_b`` at the two ends) is nearer zero, or without them the first (a
@@ -819,7 +821,8 @@ class _Run:
             estimates.append(own(x, t, length))
             return estimates[-1]
 
-        estimates: list[Located] = []  # the bracketing points unlocated() gave: each gets a note when reported
+        def estimated(located: Located) -> bool:
+            return any(located is estimate for estimate in estimates)
 
         near_crossing = self.passage is not None and self.passage.active
         patient = not force and self.branch_retries < _BRANCH_RETRIES
@@ -926,7 +929,7 @@ class _Run:
             # A start on a special point (e.g. a restart from a fold) is not a new special point; a
             # forced step's estimate on the start (its bracketing point, the start itself) is one.
             near = 1e-9 * (1.0 + float(np.linalg.norm(xa)))
-            found = [item for item in found if item[1] in ("at", "bound") or item[3].x is xa
+            found = [item for item in found if item[1] in ("at", "bound") or estimated(item[3])
                      or float(np.linalg.norm(item[3].x - xa)) > near]
         found = _in_branch_order(found, options.location_tolerance)
         end = None  # the row of b, once a point reported on b itself (a forced step's bracket) appends it
@@ -934,7 +937,7 @@ class _Run:
         for fraction, kind, payload, located in found:
             if stop is not None and not _same_point(stop, located, options.location_tolerance):
                 break
-            if any(located is estimate for estimate in estimates):
+            if estimated(located):
                 self.notes.append(f"the {self._named(kind, payload)} between {self.describe(xa)} and {self.describe(xb)} "
                                   f"could not be located at min_step: reported at the nearer end, located to {length:.3g}")
             if located.x is xa or (fraction == 0.0 and np.array_equal(located.x, xa)):
@@ -958,7 +961,7 @@ class _Run:
                 return RESUME
             if kind == "fold":
                 name = self.columns[payload]
-                self.special.append(self.special_point("fold", f"fold in {name}", index, located, {"coordinate": name}))
+                self.special.append(self.special_point("fold", self._named(kind, payload), index, located, {"coordinate": name}))
             elif kind == "branch_point":
                 self.special.append(self.special_point("branch_point", "branch point", index, located))
             elif kind == "hopf":
@@ -1057,7 +1060,8 @@ class _Run:
         for coordinate in self.folds:
             if crossed(ta[coordinate], tb[coordinate]):
                 name = self.columns[coordinate]
-                self.special.append(self.special_point("fold", f"fold in {name}", index, across, {"coordinate": name}))
+                self.special.append(self.special_point("fold", self._named("fold", coordinate), index, across,
+                                                       {"coordinate": name}))
                 noted(self._named("fold", coordinate))
         values_b = [self.event_value(event, xb) for event in self.events]
         crossed_here = [("event", event) for k, event in enumerate(self.events)
@@ -1199,22 +1203,26 @@ class _Run:
             return f"{'terminal event' if payload.terminal else 'event'} {payload.name!r}"
         if kind in ("at", "bound"):
             coordinate, value = payload
-            return f"{'requested value' if kind == 'at' else 'bound'} {self.columns[coordinate]} = {_number(value)}"
+            return f"{'requested value' if kind == 'at' else 'bound'} {self._level(coordinate, value)}"
         if kind == "passage":
             return f"entry of the passage of the {self.passage.crossing.name}"
         return {"branch_point": "branch point", "hopf": "Hopf point"}[kind]
 
+    def _level(self, coordinate: int, value: float) -> str:
+        """A value of a coordinate in words, as requested values and bounds are named ("T = 350")."""
+        return f"{self.columns[coordinate]} = {_number(value)}"
+
     def _at_point(self, coordinate: int, value: float, index: int, located: Located) -> str:
         """Report the requested value ``value`` of ``coordinate`` on row ``index``; returns its name."""
-        name = f"{self.columns[coordinate]} = {_number(value)}"
+        name = self._level(coordinate, value)
         self.at_points.append(self.special_point("at", name, index, located))
         return name
 
     def _bound_reached(self, coordinate: int, level: float, index: int, located: Located, stops: bool = True) -> None:
-        name = self.columns[coordinate]
-        self.special.append(self.special_point("bound", f"{name} = {_number(level)}", index, located, {"coordinate": name}))
+        name = self._level(coordinate, level)
+        self.special.append(self.special_point("bound", name, index, located, {"coordinate": self.columns[coordinate]}))
         if stops:
-            self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} = {_number(level)} at {self.describe(located.x)}")
+            self.finish(Status.BOUND_REACHED, f"{Status.BOUND_REACHED.message} {name} at {self.describe(located.x)}")
 
     def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
         """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
