@@ -44,7 +44,7 @@ _TRACING_TESTS = (
     "tests/test_branch_points.py", "tests/test_branch_point_location.py", "tests/test_inside_step.py",
     "tests/test_stepsize.py", "tests/test_newton_tolerance.py", "tests/test_hopf.py",
     "tests/test_follow.py", "tests/test_switching.py", "tests/test_trace_input.py",
-    "tests/test_trace_points.py", "tests/test_trace_step_ends.py",
+    "tests/test_trace_points.py", "tests/test_trace_step_ends.py", "tests/test_trace_limits.py",
 )
 # the envelope's own tests, then those of its derivatives in the model's parameters (sensitivities and
 # uncertainty bands use EnvelopeSystem.parameter_derivatives)

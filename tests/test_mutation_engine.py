@@ -424,7 +424,7 @@ def test_a_level_of_a_coordinate_is_located_on_the_branch_between_two_points():
         chord = xb - xa
         assert located.fraction == pytest.approx(float((located.x - xa) @ chord) / float(chord @ chord), abs=1e-12)
         assert 0.0 < located.fraction < 1.0
-        assert located.value == 0.0 and located.located_to == 0.0
+        assert located.located_to == 0.0
         assert abs(located.tangent @ np.array([located.x[1], -located.x[0]])) == pytest.approx(1.0, abs=1e-9)
 
 
@@ -460,7 +460,7 @@ def test_a_level_starts_newton_from_the_linear_interpolate_and_an_end_level_is_t
     # A level equal to an end's coordinate is that end: fraction 0 or 1 exactly, one Newton iteration.
     for end, fraction in ((a, 0.0), (b, 1.0)):
         located = locate_level(extended, a, b, 1, float(end[0][1]), TraceOptions())
-        assert (located.fraction, located.located_to, located.value, located.iterations) == (fraction, 0.0, 0.0, 1)
+        assert (located.fraction, located.located_to, located.iterations) == (fraction, 0.0, 1)
         assert located.x == pytest.approx(end[0], abs=1e-15)
 
 
@@ -484,7 +484,7 @@ def test_a_zero_is_located_in_few_trials_and_none_when_no_point_can_be_corrected
     assert len(calls) == 2 + 11  # the two ends, then the Illinois trials: it stops once located
     assert located.info == {}
     with pytest.raises(dataclasses.FrozenInstanceError):
-        located.value = 1.0
+        located.located_to = 1.0
     # A system with no solution inside the chord: the first correction fails and there is nothing.
     nowhere = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 + 1.0], ["u"], {"p": 0.0})
     broken = Extended(nowhere, np.array([0.0]), 0, Counters())

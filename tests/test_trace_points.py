@@ -248,7 +248,7 @@ def test_a_start_is_noted_as_moved_beyond_a_thousandth_of_its_size():
 
 
 def _item(fraction, kind, payload, x):
-    return (fraction, kind, payload, Located(fraction, np.array(x, dtype=float), np.array([1.0, 0.0]), 0.0, 1, 1e-10, 0.0))
+    return (fraction, kind, payload, Located(fraction, np.array(x, dtype=float), np.array([1.0, 0.0]), 0.0, 1, 1e-10))
 
 
 @settings(max_examples=60, deadline=None, derandomize=True)
@@ -399,8 +399,8 @@ def test_the_trace_time_is_measured_within_the_call():
 @pytest.mark.parametrize(("distance", "same"), [(1.9e-9, True), (2.1e-9, False), (2.9e-9, False)])
 def test_two_located_points_are_one_within_1e_9_of_their_size(distance, same):
     # at |x| = 1 with a location tolerance of 0 the reach is 1e-9 (1 + 1) = 2e-9
-    a = Located(0.5, np.array([1.0, 0.0]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
-    b = Located(0.5, np.array([1.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+    a = Located(0.5, np.array([1.0, 0.0]), np.array([1.0, 0.0]), 0.0, 1, 0.0)
+    b = Located(0.5, np.array([1.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0)
     assert _same_point(a, b, 0.0) is same
     assert _same_point(a, b, 1e-10) is True  # ten times the tolerance on top: 1e-9 more
 
@@ -457,9 +457,9 @@ def test_a_closed_loop_ends_on_its_start_row_with_the_starts_own_figures_after_a
 
 def test_one_point_reaches_ten_location_tolerances():
     # at x = 0 with a location tolerance of 1e-8 the reach is 1e-7 + 1e-9
-    a = Located(0.5, np.zeros(2), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+    a = Located(0.5, np.zeros(2), np.array([1.0, 0.0]), 0.0, 1, 0.0)
     for distance, same in ((1.0e-7, True), (1.05e-7, False)):
-        b = Located(0.5, np.array([0.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0, 0.0)
+        b = Located(0.5, np.array([0.0, distance]), np.array([1.0, 0.0]), 0.0, 1, 0.0)
         assert _same_point(a, b, 1e-8) is same
 
 

@@ -272,7 +272,7 @@ def _refine_branch_point(extended: Extended, x: np.ndarray, options, radius: flo
         return None, first
     norm = float(abs(residual).max()) if residual.size else 0.0
     located_to = max(previous, 4.0 * np.finfo(float).eps * (1.0 + float(np.linalg.norm(z))))
-    return Located(0.0, z, np.zeros(n + 1), norm, iteration, located_to, 0.0), first
+    return Located(0.0, z, np.zeros(n + 1), norm, iteration, located_to), first
 
 
 def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
@@ -327,7 +327,7 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
             break
         value = _scaled_determinant(jacobian, unit, log_scale)
         t = _tangent_or(jacobian, unit, ta)
-        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations, bracket.width, value)
+        best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations, bracket.width)
         if value == 0.0 or bracket.update(trial, value):
             break
     if best is None:
@@ -337,11 +337,10 @@ def locate_branch_point(extended: Extended, a: tuple[np.ndarray, np.ndarray], b:
         return None
     if refined is None:
         located_to = max(bracket.located_to, first if math.isfinite(first) else length)
-        return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to,
-                       best.value)
+        return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, located_to)
     fraction = min(1.0, max(0.0, float((refined.x - xa) @ chord) / (length * length)))
     return Located(fraction, refined.x, best.tangent, refined.residual_norm, refined.iterations,
-                   refined.located_to, best.value)
+                   refined.located_to)
 
 
 # -- Hopf points -----------------------------------------------------------------------------------

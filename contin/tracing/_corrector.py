@@ -20,6 +20,9 @@ CHORD_CONTRACTION = 0.2
 # The stall diagnosis: a residual within this fraction of its equation's term sizes is at (or near)
 # the rounding level of the evaluation, so more Newton iterations cannot bring it down.
 _NEAR_ROUNDING = 1e-9
+# A residual within this fraction of its terms is rounding noise even when the last iteration halved
+# it (a thousand times machine epsilon): that halving may be chance.
+_AT_ROUNDING = 1e3 * np.finfo(float).eps
 
 
 def term_sizes(jacobian: np.ndarray, x: np.ndarray) -> np.ndarray:
@@ -49,13 +52,19 @@ def residual_converged(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray
 
 
 def _stalled_reason(residual: np.ndarray, jacobian: np.ndarray, x: np.ndarray, tolerance: float,
-                    relative_tolerance: float, norm: float) -> str | None:
-    """The failure reason when the residual is already near the rounding level of its terms, else None."""
+                    relative_tolerance: float, norm: float, falling: bool = False) -> str | None:
+    """The failure reason when the residual is already near the rounding level of its terms, else None.
+
+    ``falling``: the last iteration at least halved the residual. Newton still converging (linearly,
+    as at a multiple root) has not stalled, however small its residual: it needs more iterations,
+    not a looser tolerance. Only within :data:`_AT_ROUNDING` of its terms is a halving taken for
+    noise, and the reason given all the same.
+    """
     if not residual.size or not math.isfinite(norm) or jacobian is None or not all_finite(jacobian):
         return None
     sizes = term_sizes(jacobian, x)
     worst = int(np.argmax(abs(residual) / np.maximum(sizes, 1e-300)))
-    if not abs(residual[worst]) <= _NEAR_ROUNDING * sizes[worst]:
+    if not abs(residual[worst]) <= (_AT_ROUNDING if falling else _NEAR_ROUNDING) * sizes[worst]:
         return None
     return (f"Newton stalled near rounding (largest residual {norm:.3g}, where the terms of its equation "
             f"are of size {sizes[worst]:.3g}, so the tolerance asks for more than rounding allows: raise "
@@ -223,6 +232,7 @@ def correct(
         if converged:
             return Correction(True, x, residual, jacobian, iteration, norm)
         last_step = step
-    reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm)
+    reason = _stalled_reason(residual, jacobian, x, tolerance, relative_tolerance, norm,
+                             falling=norm <= 0.5 * previous_norm)
     return Correction(False, x, residual, jacobian, max_iterations, norm,
                       reason or f"no convergence (in {max_iterations} Newton iterations)")

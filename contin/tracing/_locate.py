@@ -25,7 +25,6 @@ class Located:
         residual_norm: largest residual there.
         iterations: Newton iterations of the last correction.
         located_to: distance along the branch to which the position is known.
-        value: the test function's value there.
     """
 
     fraction: float
@@ -34,7 +33,6 @@ class Located:
     residual_norm: float
     iterations: int
     located_to: float
-    value: float
     info: dict = field(default_factory=dict)
 
 
@@ -145,15 +143,14 @@ def locate_zero(
         t = _tangent_at(correction, unit, ta)
         value = float(test(correction.x, t))
         best = Located(trial, correction.x, t, correction.residual_norm, correction.iterations,
-                       0.0 if value == 0.0 else bracket.width, value)
+                       0.0 if value == 0.0 else bracket.width)
         if value == 0.0:  # an exact zero of the test function: located exactly
             return best
         if bracket.update(trial, value):
             break
     if best is None:
         return None
-    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, bracket.located_to,
-                   best.value)
+    return Located(best.fraction, best.x, best.tangent, best.residual_norm, best.iterations, bracket.located_to)
 
 
 def locate_level(
@@ -185,7 +182,7 @@ def locate_level(
         if -1e-9 <= along <= 1 + 1e-9:
             t = _tangent_at(correction, row, ta)
             return Located(min(max(along, 0.0), 1.0), correction.x, t, correction.residual_norm,
-                           correction.iterations, 0.0, 0.0)
+                           correction.iterations, 0.0)
     return locate_zero(
         extended,
         (xa, ta, xa[coordinate] - level),

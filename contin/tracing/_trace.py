@@ -515,7 +515,7 @@ class _Run:
             self.notes.append(f"the start was moved by {moved:.3g} to reach the curve, to {self.describe(correction.x)}")
         for coordinate, values in self.at:
             for value in values[values == correction.x[coordinate]]:
-                located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0, 0.0)
+                located = Located(0.0, correction.x, t, correction.residual_norm, correction.iterations, 0.0)
                 self._at_point(coordinate, value, index, located)
         if self.on_point is not None:
             self._notify(index, correction.x)
@@ -623,7 +623,7 @@ class _Run:
                                 else factorise_bordered(correction.jacobian, row, self.extended.solver))
                     t_new = tangent(factored, t)
                     cosine = float(t_new @ t)
-                    turn = math.acos(min(1.0, max(-1.0, cosine)))
+                    turn = math.acos(min(1.0, cosine))  # cosine >= 0: tangent() orients t_new along t
                     if passage is not None or self.controller.accepts(turn):
                         accepted = True
                     else:
@@ -805,7 +805,7 @@ class _Run:
                 residual_norm, iterations = split.residual_norm, split.iterations
             else:
                 residual_norm, iterations = self.residuals[-1], self.iterations[-1]
-            return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to, 0.0)
+            return Located(fraction_of(x), x, t, float(residual_norm), int(iterations), located_to)
 
         estimates: list[Located] = []  # the bracketing points unlocated() gave: each gets a note when reported
 
@@ -862,7 +862,6 @@ class _Run:
         watched = self.watched
         if not force and any(_turns_twice(xa[c], xb[c], ta[c], tb[c], length) for c in set(self.folds) | watched):
             return None  # a coordinate seems to turn twice inside the step (its end slopes agree): subdivide
-        free_folds = 0
         for coordinate in sorted(set(self.folds) | watched):
             if not crossed(ta[coordinate], tb[coordinate]):
                 continue
@@ -873,7 +872,6 @@ class _Run:
                 return None
             if coordinate in self.folds:
                 found.append((fraction_of(located.x), "fold", coordinate, located))
-                free_folds += coordinate == self.extended.n
             if coordinate in watched:
                 splits.append(located)
         slopes_b = [self.event_slope(event, xb, tb) for event in self.events]
@@ -885,11 +883,16 @@ class _Run:
                 if located is not None:
                     splits.append(located)
         if self.hopf and signs[2] >= 0 and before[2] >= 0:
-            # Each Hopf point moves two eigenvalues across the imaginary axis, each fold or branch point
-            # one: a larger change of the count means crossings inside the step that cancel in the test
-            # functions' signs (e.g. two Hopf points). Subdivide until they agree.
-            located_crossings = 2 * hopf_crossings + free_folds + sum(kind == "branch_point" for _, kind, _, _ in found)
+            # Each Hopf point moves two eigenvalues across the imaginary axis, each fold of the free
+            # parameter or branch point one real eigenvalue through zero: a larger change of the count
+            # means crossings inside the step that cancel in the test functions' signs (e.g. two Hopf
+            # points). Subdivide until they agree. A fold of the free parameter is a turn of the
+            # tangent's last entry, counted whether or not folds are reported. An odd change left over
+            # is one more real eigenvalue through zero, a branch point not looked for: it needs no
+            # shorter step (a hidden Hopf pair would leave an even excess on top of it).
             change = abs(signs[2] - before[2])
+            real = int(crossed(ta[self.extended.n], tb[self.extended.n])) + sum(kind == "branch_point" for _, kind, _, _ in found)
+            located_crossings = 2 * hopf_crossings + real + (change - 2 * hopf_crossings - real) % 2
             if change > located_crossings:
                 if not force:
                     return None
@@ -1046,12 +1049,12 @@ class _Run:
         residual_norm = float(abs(residual).max()) if residual.size else 0.0
         unit = chord / length if length > 0.0 else ta
         info["tangent"] = "the chord between the points around it (the Jacobian is singular there)"
-        located = Located(0.5, x_c, unit, residual_norm, 0, located_to, 0.0)
+        located = Located(0.5, x_c, unit, residual_norm, 0, located_to)
         index = self.append(x_c, unit.copy(), 0, residual_norm)
         self.special.append(self.special_point(crossing.kind, crossing.name, index, located, info))
         if self.on_point is not None:
             self._notify(index, x_c)
-        across = Located(0.5, x_c, unit, residual_norm, 0, length, 0.0)
+        across = Located(0.5, x_c, unit, residual_norm, 0, length)
 
         def noted(what: str) -> None:
             self.notes.append(f"the {what} lies within {passage.gap:g} in {key_name} of the {crossing.name}: "
@@ -1100,7 +1103,7 @@ class _Run:
             return True
         index = self.append(xb, tb, correction.iterations, correction.residual_norm)
         for coordinate, value in at_b:
-            self._at_point(coordinate, value, index, Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0, 0.0))
+            self._at_point(coordinate, value, index, Located(1.0, xb, tb, correction.residual_norm, correction.iterations, 0.0))
         if self.on_point is not None:
             self._notify(index, xb)
         return False
@@ -1229,7 +1232,7 @@ class _Run:
         for coordinate, low, high in self.bounds:
             for level, outside in ((low, -1.0), (high, 1.0)):
                 if x[coordinate] == level and t[coordinate] * outside > 0.0:
-                    located = Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0, 0.0)
+                    located = Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0)
                     self._bound_reached(coordinate, level, len(self.rows) - 1, located)
                     return True
         return False
@@ -1255,7 +1258,7 @@ class _Run:
             return False
         gap = float(np.linalg.norm(xa + along * chord - x_start))
         length = math.sqrt(length2)
-        turn = math.acos(min(1.0, max(-1.0, float(ta @ tb))))
+        turn = math.acos(min(1.0, float(ta @ tb)))  # >= 0: tb is oriented along ta
         reach = 1e3 * self.options.tolerance * (1.0 + float(np.abs(x_start).max()))
         if gap > 0.25 * length * turn + 1e-6 * length + reach:
             return False
@@ -1265,7 +1268,7 @@ class _Run:
         self.residuals[-1] = self.residuals[0]
         self.iterations[-1] = self.iterations[0]
         self.steps[-1] = float(np.linalg.norm(x_start - self.rows[-2])) if len(self.rows) > 1 else 0.0
-        located = Located(1.0, x_start, t_start, self.residuals[0], self.iterations[0], gap, 0.0)
+        located = Located(1.0, x_start, t_start, self.residuals[0], self.iterations[0], gap)
         self.special.append(self.special_point("closed_loop", "back at the start", len(self.rows) - 1, located))
         self.finish(Status.CLOSED_LOOP, f"{Status.CLOSED_LOOP.message} after {len(self.rows)} points")
         return True
