@@ -156,6 +156,18 @@ def test_two_real_eigenvalues_through_zero_in_one_step_are_taken_apart_as_a_hidd
     assert steps_over_both == []
 
 
+def test_a_forced_step_that_cannot_explain_the_count_says_so_in_a_note():
+    # The same two eigenvalues with steps of exactly 0.1 from p = -0.95: the step from p = -0.05 to
+    # 0.05 passes both zeros and cannot be shortened, so the count's change of two stands unexplained.
+    system, start_point = transcritical([0.0, 0.01])
+    branch = contin.trace(system, start_point, parameters={"p": -0.95}, free="p", step=0.1, min_step=0.1,
+                          max_step=0.1, bounds={"p": (-1, 1)}, detect=["hopf"])
+    assert branch.status.label == "bound_reached" and branch.stats["rejections"] == {}
+    assert branch.stats["notes"][-1] == (
+        "the number of eigenvalues with positive real part changed from 0 to 2 between u0 = 0, u1 = 0, p = -0.05 "
+        "and u0 = 0, u1 = 0, p = 0.05, more than the 0 crossing(s) located there")
+
+
 def test_a_fold_and_a_branch_point_in_one_forced_step_explain_a_change_of_two():
     # du/dt = -(u^3 - u + p), dv/dt = v (c - p - v) on v = 0. With steps of exactly 0.1 from p = -1
     # the step over the first fold (u = 1/sqrt 3) goes from p = 0.38070 down to 0.37964, so with
