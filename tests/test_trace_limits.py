@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 import pytest
-from test_crossing import SYSTEM, exact_land, start
+from test_crossing import PAIR, SYSTEM, exact_land, on_branch, pair_land, start
 from test_mutation_engine import helix
 
 import contin
@@ -196,3 +196,43 @@ def test_a_bound_on_the_far_end_of_a_jump_is_reported_on_that_row():
     assert (bound.name, bound.index, bound.located_to) == ("d = 0.02", critical.index + 1, 0.0)
     assert bound.index == len(branch.points) - 1 and branch.points[-1, 1] == 0.02
     assert "notes" not in branch.stats
+
+
+def test_a_large_max_correction_lets_the_corrector_move_up_to_twice_the_step():
+    # The unit circle x^2 + p^2 = 1 in steps of exactly 0.85 (max_turn 3): from (1, 0) the predictor
+    # (1, 0.85) is corrected to x = sqrt(1 - 0.85^2) = 0.527, 0.556 of the step away. The default
+    # max_correction (0.5) refuses that; 1.5 allows it, and Newton's own guard lets an iterate go up to
+    # twice the step from the predictor, so every step is taken and the loop closes.
+    circle = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0] ** 2 - 1.0], ["x"], {"p": 0.0},
+                                   jacobian=lambda u, p: [[2 * u[0]]], parameter_jacobian=lambda u, p: [[2 * p[0]]])
+    fixed = dict(step=0.85, min_step=0.85, max_step=0.85, max_turn=3.0, max_points=12)
+    allowed = contin.trace(circle, {"x": 1.0}, free="p", max_correction=1.5, **fixed)
+    assert allowed.status.label == "closed_loop" and allowed.stats["rejections"] == {}
+    assert allowed.points[1] == pytest.approx([math.sqrt(1 - 0.85**2), 0.85], abs=1e-10)
+    refused = contin.trace(circle, {"x": 1.0}, free="p", **fixed)
+    assert refused.status.label == "step_too_small"
+    assert refused.message.endswith("corrector moved too far from the predictor (more than max_correction = 0.5 of the step)")
+
+
+def test_of_two_crossing_coordinates_entering_in_one_step_the_passage_begins_at_the_later():
+    # The pair system (e = d / 2, both zero on the second family) from d = -0.3 with one step of 0.34:
+    # e enters |e| <= 0.1 at d = -0.2 and d enters |d| <= 0.1 at d = -0.1, both inside that step. The
+    # passage begins at the later entry along the branch, d's: a row on d = -0.1, none on e = -0.1.
+    u, p = on_branch(-0.3)
+    crossing = contin.Crossing(["e", "d"], near=0.1, kind="critical", name="critical point", land=pair_land)
+    branch = contin.trace(PAIR, start=[u[0], u[1], 0.5 * u[1]], parameters={"p": p}, free="p", crossing=crossing,
+                          direction=-1, bounds={"d": [-0.9, 0.9]}, step=0.34, max_step=0.34)
+    (critical,) = branch.special("critical")
+    assert critical.info["coordinate"] == "d"
+    assert branch.points[1, 1] == pytest.approx(-0.1, abs=1e-12)  # the entry is the first row after the start
+    assert np.sum(np.abs(branch.column("e") + 0.1) < 1e-12) == 0
+
+
+def test_requested_values_on_the_far_end_of_a_jump_are_kept_whatever_other_coordinates_are_requested():
+    # d = 0.02 is the row after the jump; a requested value of p elsewhere on the branch changes nothing.
+    crossing = contin.Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = contin.trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]},
+                          at={"d": [0.02], "p": [0.3]}, **start())
+    (critical,) = branch.special("critical")
+    names = [(sp.name, sp.index) for sp in branch.at]
+    assert ("d = 0.02", critical.index + 1) in names and sum(name == "p = 0.3" for name, _ in names) == 1
