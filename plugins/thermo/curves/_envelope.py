@@ -812,9 +812,12 @@ def _assemble(mixture: Mixture, z: np.ndarray, branch: contin.Branch, from_press
     elif open_end and success:
         last = bound[-1].index
         status, success = "open_envelope", False
-        message = (f"stopped: the branch runs on to the bound {bound[-1].name} (T = {T[last]:.6g} K, P = {P[last]:.6g} Pa) "
-                   f"as a {side[last]} curve: the model gives no closed envelope for this feed (a liquid-liquid or "
-                   "gas-gas split that goes on to high pressure is the usual cause)")
+        # the bound in the user's terms (the engine's own name is of ln T or ln P)
+        where = (f"P = {P[last]:.6g} Pa (at T = {T[last]:.6g} K)" if bound[-1].info.get("coordinate") == "lnP"
+                 else f"T = {T[last]:.6g} K (at P = {P[last]:.6g} Pa)")
+        message = (f"stopped: the branch runs on to its bound {where} as a {side[last]} curve: the model gives no "
+                   "closed envelope for this feed (a liquid-liquid or gas-gas split that goes on to high pressure "
+                   "is the usual cause)")
     elif liquid.size and success and side[-1] != "liquid-liquid":
         notes.append(f"from T = {T[liquid[0]]:.6g} K, P = {P[liquid[0]]:.6g} Pa to T = {T[liquid[-1]]:.6g} K, "
                      f"P = {P[liquid[-1]]:.6g} Pa the incipient phase is liquid-dense (rows labelled liquid-liquid)")
