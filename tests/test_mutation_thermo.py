@@ -842,3 +842,19 @@ def test_the_incipient_phase_is_told_as_fractions_even_at_a_point_off_the_envelo
     describe = _in_users_terms(BLEND, Z)
     x = np.array([math.log(3.0), math.log(1.0), math.log(250.0), 0.0, math.log(2e6)])
     assert describe(x) == "T = 250 K, P = 2e+06 Pa, where the incipient phase is methane 0.75, propane 0.25"
+
+
+def test_an_envelope_that_runs_on_to_a_temperature_bound_says_so_in_kelvin(envelope):
+    # The traced blend's last row relabelled as reached on a temperature bound (ln T) instead of the
+    # start pressure: an open envelope, named by its T, with the P there.
+    branch = envelope.branch
+    last = branch.special_points[-1]
+    assert (last.kind, last.info) == ("bound", {"coordinate": "lnP"})
+    on_T = dataclasses.replace(last, name=f"lnT = {last.values['lnT']!r}", info={"coordinate": "lnT"})
+    _, _, _, (status, message, success), _ = _assemble(
+        BLEND, Z, dataclasses.replace(branch, special_points=(*branch.special_points[:-1], on_T)), 1e5)
+    T, P = math.exp(last.values["lnT"]), math.exp(last.values["lnP"])
+    assert (status, success) == ("open_envelope", False)
+    assert message == (f"stopped: the branch runs on to its bound T = {T:.6g} K (at P = {P:.6g} Pa) as a bubble curve: "
+                       "the model gives no closed envelope for this feed (a liquid-liquid or gas-gas split that goes "
+                       "on to high pressure is the usual cause)")
