@@ -858,3 +858,21 @@ def test_an_envelope_that_runs_on_to_a_temperature_bound_says_so_in_kelvin(envel
     assert message == (f"stopped: the branch runs on to its bound T = {T:.6g} K (at P = {P:.6g} Pa) as a bubble curve: "
                        "the model gives no closed envelope for this feed (a liquid-liquid or gas-gas split that goes "
                        "on to high pressure is the usual cause)")
+
+
+def test_the_critical_landing_falls_back_to_the_full_search_when_its_polish_fails():
+    # From a bracket whose midpoint is far off (250 K, 1.3e-4 m3/mol) the Heidemann-Khalil polish does
+    # not converge; the full search's critical point (the blend has one) is landed on instead, as the
+    # state K = 1 with both volumes at v_c, to the polish's last step.
+    from contin_thermo.curves._envelope import _critical_landing
+    from contin_thermo.curves._mixture_critical import critical_points, polish_critical
+
+    assert not math.isfinite(polish_critical(BLEND, Z, 250.0, 1.3e-4)[1])
+    (expected,) = critical_points(BLEND, Z)
+    side = np.array([0.01, -0.01, math.log(250.0), math.log(1.3e-4), math.log(1.3e-4), math.log(5e6)])
+    landing = _critical_landing(BLEND, Z)(side, side * np.array([-1, -1, 1, 1, 1, 1]))
+    T, v_feed, v_incipient, P = np.exp(landing.x[2:])
+    assert landing.x[:2].tolist() == [0.0, 0.0] and v_feed == v_incipient
+    assert T == pytest.approx(expected.T, rel=1e-9) and v_feed == pytest.approx(expected.v, rel=1e-9)
+    assert P == pytest.approx(expected.P, rel=1e-9)
+    assert 0.0 <= landing.located_to < 1e-8 and landing.info["method"].startswith("Heidemann-Khalil")
