@@ -60,7 +60,11 @@ MODULES = {
     "linear": ("contin/tracing/_linear.py", ("tests/test_linear_contract.py",) + _TRACING_TESTS + ("tests/test_sparse.py",)),
     "sensitivity": ("contin/studies/_sensitivity.py",
                     ("tests/test_sensitivity.py", "tests/test_mutation_engine.py")),
-    "record": ("contin/results/_record.py", ("tests/test_record.py", "tests/test_mutation_engine.py")),
+    # records are written by `contin run --record` and read back by `--from` and restart: the hostile
+    # records and the command line's record tests are the feature's tests too
+    "record": ("contin/results/_record.py", ("tests/test_record.py", "tests/test_hostile_records.py",
+                                             "tests/test_cli_run.py", "tests/test_cli_run_options.py",
+                                             "tests/test_mutation_engine.py")),
     "envelope": ("plugins/thermo/curves/_envelope.py", _ENVELOPE_TESTS),
     "stability": ("plugins/thermo/curves/_stability.py",
                   ("tests/test_stability.py", "tests/test_mutation_thermo.py",
