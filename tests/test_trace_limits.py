@@ -236,3 +236,13 @@ def test_requested_values_on_the_far_end_of_a_jump_are_kept_whatever_other_coord
     (critical,) = branch.special("critical")
     names = [(sp.name, sp.index) for sp in branch.at]
     assert ("d = 0.02", critical.index + 1) in names and sum(name == "p = 0.3" for name, _ in names) == 1
+
+
+def test_the_singular_point_of_a_passage_took_no_newton_iterations_of_the_engine():
+    # The row of the singular point comes from the crossing's land function (or the midpoint): the
+    # engine's corrector did not run there, and the row and its special point both say 0.
+    crossing = contin.Crossing(["d"], kind="critical", name="critical point", land=exact_land)
+    branch = contin.trace(SYSTEM, free="p", crossing=crossing, direction=1, bounds={"d": [-0.9, 0.9]}, **start())
+    (critical,) = branch.special("critical")
+    assert critical.newton_iterations == 0 and branch.newton_iterations[critical.index] == 0
+    assert branch.newton_iterations[critical.index + 1] >= 1  # the point after the jump was corrected
