@@ -132,6 +132,8 @@ def test_quality_lines_end_at_the_critical_point(gas):
     T_max = envelope.special("cricondentherm")["values"]["T"]
     for line in result.quality_lines:
         assert line.status == "terminal_event"
+        assert line.message == (f"completed: the line ends at the critical point T = {crit['T']:.6g} K, "
+                                f"P = {crit['P']:.6g} Pa, where every line of constant vapour fraction meets")
         assert line.T[-1] == pytest.approx(crit["T"], rel=1e-12) and line.P[-1] == pytest.approx(crit["P"], rel=1e-12)
         distance = np.abs(line.T / crit["T"] - 1) + np.abs(line.P / crit["P"] - 1)
         assert int(np.argmin(distance)) == line.T.size - 1  # it does not run on past the critical point

@@ -876,3 +876,14 @@ def test_the_critical_landing_falls_back_to_the_full_search_when_its_polish_fail
     assert T == pytest.approx(expected.T, rel=1e-9) and v_feed == pytest.approx(expected.v, rel=1e-9)
     assert P == pytest.approx(expected.P, rel=1e-9)
     assert 0.0 <= landing.located_to < 1e-8 and landing.info["method"].startswith("Heidemann-Khalil")
+
+
+def test_the_work_per_point_divides_by_the_steps_even_for_a_two_row_envelope():
+    # Two rows are one step: the Jacobian evaluations per point are the whole count (the start's
+    # included), not half of it. An envelope with no uncertainty band has an empty one.
+    short = trace_envelope(BLEND, Z, check_stability=False, max_points=2)
+    assert (len(short.rows), short.status) == (2, "max_points")
+    assert short.stats["jacobian_evaluations_per_point"] == short.stats["jacobian_evaluations"] / 1
+    assert short.band == ()
+    longer = trace_envelope(BLEND, Z, check_stability=False, max_points=3)
+    assert longer.stats["jacobian_evaluations_per_point"] == longer.stats["jacobian_evaluations"] / 2
