@@ -119,3 +119,31 @@ def test_contin_run_record_holds_the_effective_tolerances(tmp_path, capsys):
     options = json.loads(record.read_text())["options"]
     assert options["tolerance"] == 1e-10 and options["max_step"] == 0.2  # from the file
     assert options["max_iterations"] == 8 and options["corrector"] == "arclength"  # engine defaults
+
+
+def test_a_restart_from_a_record_in_memory_checks_it_and_names_what_is_wrong():
+    problem, branch = traced()
+    record = contin.run_record(branch, input={})
+    count = len(branch.points)
+
+    def refused(source, index=0):
+        with pytest.raises(contin.InputError) as caught:
+            contin.restart(source, index, problem.system)
+        return str(caught.value)
+
+    assert refused(5) == "restart needs a Branch or a run record, not int"
+    assert refused({"result": [1]}) == "run record 'given': result is a list; expected an object"
+    assert refused({"result": {"columns": ["u", "p"], "points": []}}) == "run record 'given' holds no traced points"
+    assert refused({"columns": ["u", "p"], "points": [[1.0]]}) == (
+        "run record 'given': result.points[0] has 1 values; expected 2, one per name of result.columns")
+    tangent_free = {key: value for key, value in record["result"].items() if key != "tangents"}
+    assert refused(dict(tangent_free, points=[[1.0, float("nan")]])) == (
+        "run record 'given': result.points[0][1] is nan; expected a finite number")
+    for index in (True, count, -count - 1, 1.0):
+        assert refused(record, index) == f"--restart-at {index!r}: the branch has points 0 to {count - 1}"
+    # A result without tangents or a free parameter: the last column is the free one and the start's
+    # direction comes from the null vector; -count is the first row.
+    bare = {key: value for key, value in tangent_free.items() if key != "free"}
+    onward = contin.restart(bare, -count, problem.system, step=0.05, bounds={"p": (-1, 1)})
+    assert onward.points[0] == pytest.approx(branch.points[0], abs=1e-12)
+    assert onward.free == "p" and onward.success and len(onward.special("fold")) == 2
