@@ -162,7 +162,7 @@ def test_a_record_of_another_kind_or_version_or_with_no_points_is_named_so(tmp_p
 
 def test_a_record_file_that_is_a_folder_or_not_json_is_refused(tmp_path, capsys):
     code, _, err = run(capsys, "run", "--from", str(tmp_path), "--restart-at", "0")
-    assert code == 2 and "is a folder, not a file" in err
+    assert (code, err) == (2, f"contin: error: run record {str(tmp_path)!r} is a folder, not a file\n")
     (tmp_path / "nan.json").write_text('{"record": "contin run record", "x": NaN}')
     code, _, err = run(capsys, "run", "--from", str(tmp_path / "nan.json"), "--restart-at", "0")
     assert code == 2 and "NaN is not JSON" in err

@@ -147,3 +147,58 @@ def test_a_restart_from_a_record_in_memory_checks_it_and_names_what_is_wrong():
     onward = contin.restart(bare, -count, problem.system, step=0.05, bounds={"p": (-1, 1)})
     assert onward.points[0] == pytest.approx(branch.points[0], abs=1e-12)
     assert onward.free == "p" and onward.success and len(onward.special("fold")) == 2
+
+
+def test_a_record_says_what_it_is_and_where_it_was_made(tmp_path):
+    import datetime
+    import platform
+
+    _, branch = traced()
+    record = contin.run_record(branch, input={"kind": "python"}, command=["contin", "run", "x.toml"])
+    assert (record["record"], record["record_version"]) == ("contin run record", 1)
+    assert list(record["dependencies"]) == ["numpy", "scipy", "sympy", "networkx", "matplotlib", "symengine"]
+    assert record["dependencies"]["numpy"] == np.__version__
+    assert record["python"] == platform.python_version() and record["command"] == ["contin", "run", "x.toml"]
+    created = datetime.datetime.fromisoformat(record["created"])
+    assert created.utcoffset() == datetime.timedelta(0) and created.microsecond == 0
+    assert contin.run_record(branch, input={})["command"] is None
+    back = contin.read_record(contin.write_record(tmp_path / "r.json", record))
+    assert back["command"] == record["command"] and back["created"] == record["created"]
+
+
+def test_each_unreadable_record_is_refused_with_its_whole_message(tmp_path):
+    def refused(text):
+        path = tmp_path / "r.json"
+        path.write_text(text)
+        with pytest.raises(contin.InputError) as caught:
+            contin.read_record(path)
+        return str(caught.value).replace(repr(str(path)), "FILE")
+
+    assert refused('{"record": "contin run record", "x": NaN}') == (
+        "run record FILE is not readable JSON: NaN is not JSON (contin writes non-finite values as null)")
+    assert refused("[" * 100_000 + "]" * 100_000) == "run record FILE is not readable JSON: nested too deeply"
+    assert refused('{"record": "something else"}') == "FILE is not a contin run record (write one with --record FILE)"
+    assert refused('{"record": "contin run record", "record_version": 2, "contin_version": 7}') == (
+        "run record FILE has record version 2 (written by contin unknown); this contin reads version 1: re-run the "
+        "original input with this version")
+    huge = tmp_path / "huge.json"
+    with open(huge, "wb") as stream:  # a sparse file one byte over the limit: refused by its size, unread
+        stream.truncate(256 * 2**20 + 1)
+    with pytest.raises(contin.InputError) as caught:
+        contin.read_record(huge)
+    assert str(caught.value) == f"run record {str(huge)!r} is larger than 256 MiB"
+
+
+def test_a_plug_in_document_record_may_hold_labels_and_nulls_but_not_other_values(tmp_path):
+    document = {"columns": ["T", "side"], "points": [[300.0, "dew"], [None, "bubble"]], "status": "completed"}
+    path = contin.write_record(tmp_path / "d.json", contin.document_record(document, input={"kind": "command"}))
+    back = contin.read_record(path)
+    assert back["result"]["points"] == [[300.0, "dew"], [None, "bubble"]]
+    bad = contin.document_record(dict(document, points=[[300.0, True]]), input={"kind": "command"})
+    contin.write_record(path, bad)
+    with pytest.raises(contin.InputError) as caught:
+        contin.read_record(path)
+    assert str(caught.value) == f"run record {str(path)!r}: result.points[0][1] is a boolean; expected a number"
+    empty = contin.document_record(dict(document, points=[]), input={"kind": "command"})
+    contin.write_record(path, empty)
+    assert contin.read_record(path)["result"]["points"] == []  # a plug-in's empty result is still a record

@@ -177,6 +177,8 @@ def read_input_text(path: str | os.PathLike, what: str, limit: int, missing: str
             raise InputError(f"{what} is larger than {limit // 2**20} MiB")
         with open(path, "rb") as stream:
             raw = stream.read(limit + 1)
+    except InputError:
+        raise  # a folder, a device or too large: already said in full (it is a ValueError too)
     except (FileNotFoundError, NotADirectoryError):
         raise InputError(f"{what} {missing}") from None
     except OSError as error:
