@@ -342,10 +342,16 @@ def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
     from contin_thermo.models._helmholtz import GAS_CONSTANT
 
     propane = lookup("propane")
+    import time
+
     twins = propane_twins()
+    began = time.perf_counter()
     envelope = trace_envelope(twins, [0.3, 0.7], check_stability=False)
+    wall = time.perf_counter() - began
     assert (envelope.status, envelope.success) == ("terminal_event", True)
     assert envelope.message == "completed: the saturation curve ends at the critical point"
+    # the times are parts of the call's own (a consistency check, not a speed test)
+    assert 0.0 <= envelope.stats["trace_seconds"] and envelope.stats["trace_seconds"] + envelope.stats["setup_seconds"] <= wall
     assert envelope.notes == ("the components cannot be told apart by the model: dew and bubble curves coincide "
                               "with the saturation curve of one fluid",)
     (critical,) = envelope.special_points
@@ -355,6 +361,7 @@ def test_one_fluid_in_two_names_ends_at_its_critical_point_with_its_volume():
     assert critical["info"]["note"] == "the critical point of the one fluid (Heidemann-Khalil)"
     (near,) = envelope.branch.special("near_critical")
     assert near.index == len(envelope.rows) - 1 and near.info["terminal"] is True
+    assert near.name == "near critical point"
     stats = envelope.stats
     assert stats["points"] == len(envelope.rows)
     assert stats["jacobian_evaluations_per_point"] == stats["jacobian_evaluations"] / (len(envelope.rows) - 1)
@@ -887,3 +894,38 @@ def test_the_work_per_point_divides_by_the_steps_even_for_a_two_row_envelope():
     assert short.band == ()
     longer = trace_envelope(BLEND, Z, check_stability=False, max_points=3)
     assert longer.stats["jacobian_evaluations_per_point"] == longer.stats["jacobian_evaluations"] / 2
+
+
+
+def test_the_summary_names_each_corner_and_its_state(envelope):
+    lines = envelope.summary()
+    for kind in ("cricondentherm", "critical", "cricondenbar"):
+        sp = envelope.special(kind)
+        (line,) = [line for line in lines if line.split(":")[0].strip() == kind]
+        assert line.endswith(f"T = {sp['values']['T']:.6f} K, P = {sp['values']['P']:.6g} Pa")
+
+
+def test_a_hottest_row_just_before_the_last_that_is_not_a_fold_is_a_failed_check(envelope):
+    # Only the first and the last rows (the branch's ends) may be the hottest without a located fold.
+    branch = envelope.branch
+    n = BLEND.size
+    points = branch.points.copy()
+    k = len(points) - 2
+    points[k, n] = points[:, n].max() + 0.01
+    folds_gone = tuple(sp for sp in branch.special_points if not (sp.kind == "fold" and sp.info.get("coordinate") == "lnT"))
+    _, _, _, (status, message, success), _ = _assemble(
+        BLEND, Z, dataclasses.replace(branch, points=points, special_points=folds_gone), 1e5)
+    assert (status, success) == ("inconsistent", False)
+    assert message.endswith(f"({math.exp(points[k, n]):.8g} K, row {k}) is not a located cricondentherm")
+
+
+def test_a_point_outside_the_model_gives_nan_of_the_systems_own_sizes():
+    # A feed volume below the co-volume: residual, Jacobian and parameter derivative are NaN, shaped as
+    # at any other point (n + 3 unknowns and equations), so the engine can say which is not finite.
+    from contin_thermo.curves._envelope import EnvelopeSystem
+
+    system = EnvelopeSystem(BLEND, Z)
+    u = np.array([0.5, -0.5, math.log(250.0), math.log(1e-9), math.log(1e-3)])
+    r, J, dp = system.evaluate(u, math.log(1e6))
+    assert (r.shape, J.shape, dp.shape) == ((5,), (5, 5), (5,))
+    assert np.isnan(r).all() and np.isnan(J).all() and np.isnan(dp).all()

@@ -677,7 +677,7 @@ class _Run:
             self.extended.counters.accepted_steps += 1
             if stop is RESUME:  # the trace goes on from a point inside the step (its tests are set there)
                 x, t = self.rows[-1], self.tangents[-1]
-                curvature = None
+                curvature = None  # (the passage's steps do not read it)
                 continue
             self.jacobian = correction.jacobian
             if stop:
