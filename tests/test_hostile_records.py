@@ -59,7 +59,7 @@ NAMES = [
 def test_a_record_name_never_becomes_a_path(tmp_path, capsys, saved, name, problem):
     record = json.loads(json.dumps(saved))
     record["input"]["name"] = name
-    code, out, err, before, path = restart_with(tmp_path, capsys, record)
+    code, _, err, before, path = restart_with(tmp_path, capsys, record)
     assert code == 2
     assert err == f"contin: error: run record {str(path)!r}: input.name {problem}\n"
     assert snapshot(tmp_path) == before  # nothing written anywhere under the test folder
@@ -71,7 +71,7 @@ def test_a_record_name_of_255_bytes_is_a_plain_name(tmp_path, capsys, saved):
     # it; the outputs named after it ("...-restart.csv") are then too long, which their own check says.
     record = json.loads(json.dumps(saved))
     record["input"]["name"] = "x" * 251 + ".tml"
-    code, out, err, _, _ = restart_with(tmp_path, capsys, record, "--out", str(tmp_path / "o"))
+    code, _, err, _, _ = restart_with(tmp_path, capsys, record, "--out", str(tmp_path / "o"))
     assert code == 2 and "input.name" not in err
     assert err.startswith("contin: error: --out: the name 'xxx") and err.endswith("is longer than 255 bytes; give a shorter name\n")
 
@@ -146,15 +146,15 @@ def test_each_mistake_in_a_record_is_one_line_naming_the_record_and_field(tmp_pa
 
 @pytest.mark.parametrize("path, value, problem", [
     (("record",), "other", "{file} is not a contin run record (write one with --record FILE)"),
-    (("record_version",), 99, "run record {file} has record version 99 (written by contin {version}); this contin "
-                              "reads version 1: re-run the original input with this version"),
+    (("record_version",), 99, ("run record {file} has record version 99 (written by contin {version}); this "
+                               "contin reads version 1: re-run the original input with this version")),
     (("result", "points"), [], "run record {file} holds no traced points"),
-    (("input", "kind"), "other", "--from {file}: the record was not written by 'contin run' (it holds no problem "
-                                 "file to restart)"),
+    (("input", "kind"), "other", ("--from {file}: the record was not written by 'contin run' (it holds no "
+                                  "problem file to restart)")),
 ])
 def test_a_record_of_another_kind_or_version_or_with_no_points_is_named_so(tmp_path, capsys, saved, path, value,
                                                                            problem):
-    code, out, err, before, file = restart_with(tmp_path, capsys, edited(saved, path, value), "--out", str(tmp_path / "o"))
+    code, _, err, before, file = restart_with(tmp_path, capsys, edited(saved, path, value), "--out", str(tmp_path / "o"))
     assert code == 2
     assert err == "contin: error: " + problem.format(file=repr(str(file)), version=saved["contin_version"]) + "\n"
     assert snapshot(tmp_path) == before

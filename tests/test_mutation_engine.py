@@ -44,8 +44,8 @@ def test_an_event_function_that_raises_ends_the_trace_and_says_so():
                           events=[contin.Event("g", g)])
     assert branch.status is contin.Status.INTERRUPTED
     assert isinstance(branch.cause, ZeroDivisionError)
-    assert "'g'" in branch.message and "ZeroDivisionError" in branch.message
-    assert "\n" not in branch.message
+    assert branch.message == ("interrupted: the trace was stopped before it finished: event 'g' raised "
+                              "ZeroDivisionError: no value past u = 1")
     assert branch.column("u").max() <= 1.0 + 0.1 + 1e-12  # stopped within one step of the failure
 
 

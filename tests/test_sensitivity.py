@@ -54,12 +54,22 @@ def test_bad_input_is_refused():
     system = cubic(1.0)
     branch = contin.trace(system, {"u": 2.0}, free="p", parameters={"p": -6.0}, step=0.05, bounds={"p": (-10, 10)})
     other = contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["x"], {"p": 0.0, "a": 1.0})
-    with pytest.raises(contin.InputError, match="not traced on this system"):
+    with pytest.raises(contin.InputError) as refused:
         contin.sensitivities(branch, other)
+    assert str(refused.value) == "the branch was not traced on this system (its columns and free parameter differ)"
     lonely = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0]], ["u"], {"p": -1.0})
     lonely_branch = contin.trace(lonely, {"u": 1.0}, free="p", step=0.1, bounds={"p": (-1.0, -0.1)})
-    with pytest.raises(contin.InputError, match="no parameter other than the free one"):
+    with pytest.raises(contin.InputError) as refused:
         contin.sensitivities(lonely_branch, lonely)
+    assert str(refused.value) == "the system has no parameter other than the free one ('p') to differentiate by"
+
+
+def test_the_results_cannot_be_changed():
+    system = cubic(1.0)
+    branch = contin.trace(system, {"u": 2.0}, free="p", parameters={"p": -6.0}, step=0.05, bounds={"p": (-10, 10)})
+    result = contin.sensitivities(branch, system)
+    with pytest.raises(AttributeError):
+        result.folds = ()
 
 
 def coupled_fold_system():
@@ -95,23 +105,6 @@ def test_a_fold_moves_by_the_formula_when_the_free_parameter_enters_the_derivati
         assert result.points[i][:, 0] == pytest.approx(exact, rel=1e-9, abs=1e-12)
         checked += 1
     assert checked >= 10
-
-
-def test_the_results_cannot_be_changed_and_bad_input_is_told_in_whole_sentences():
-    system = cubic(1.0)
-    branch = contin.trace(system, {"u": 2.0}, free="p", parameters={"p": -6.0}, step=0.05, bounds={"p": (-10, 10)})
-    result = contin.sensitivities(branch, system)
-    with pytest.raises(AttributeError):
-        result.folds = ()
-    other = contin.CallableSystem(lambda u, p: [u[0] - p[0]], ["x"], {"p": 0.0, "a": 1.0})
-    with pytest.raises(contin.InputError) as refused:
-        contin.sensitivities(branch, other)
-    assert str(refused.value) == "the branch was not traced on this system (its columns and free parameter differ)"
-    lonely = contin.CallableSystem(lambda u, p: [u[0] ** 2 + p[0]], ["u"], {"p": -1.0})
-    lonely_branch = contin.trace(lonely, {"u": 1.0}, free="p", step=0.1, bounds={"p": (-1.0, -0.1)})
-    with pytest.raises(contin.InputError) as refused:
-        contin.sensitivities(lonely_branch, lonely)
-    assert str(refused.value) == "the system has no parameter other than the free one ('p') to differentiate by"
 
 
 def test_a_point_is_singular_below_1e_8_of_the_whole_jacobians_size():

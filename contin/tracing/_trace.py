@@ -86,11 +86,6 @@ def _same_point(a: Located, b: Located, tolerance: float) -> bool:
     return float(np.abs(a.x - b.x).max(initial=0.0)) <= reach
 
 
-def _sides(low: float, high: float) -> tuple[tuple[float, float], tuple[float, float]]:
-    """The two levels of a bound, each with the sign of the side beyond it: (low, -1), (high, +1)."""
-    return (low, -1.0), (high, 1.0)
-
-
 def _stop_rank(kind: str, payload) -> int:
     """Where a kind goes among the points located at one point: what only reports first, then what
     stops the trace (a bound, then a terminal event), the start of a passage (which drops the rest of
@@ -1164,7 +1159,7 @@ class _Run:
                 _, key, located = max(entries, key=lambda item: item[0])
                 found.append(("passage", key, located))
         for coordinate, low, high in self.bounds:
-            for level, outside in _sides(low, high):
+            for level, outside in ((low, -1.0), (high, 1.0)):
                 start_side = (x0[coordinate] - level) * outside  # > 0: outside, 0: on the bound
                 end_side = (x1[coordinate] - level) * outside
                 if start_side > 0.0 or not (end_side > 0.0 or (end_side == 0.0 and start_side < 0.0)):
@@ -1235,7 +1230,7 @@ class _Run:
     def _leaving_through_a_bound(self, x: np.ndarray, t: np.ndarray) -> bool:
         """A start exactly on a bound, heading out of the bounds: the trace ends there at once."""
         for coordinate, low, high in self.bounds:
-            for level, outside in _sides(low, high):
+            for level, outside in ((low, -1.0), (high, 1.0)):
                 if x[coordinate] == level and t[coordinate] * outside > 0.0:
                     located = Located(0.0, x, t, self.residuals[-1], self.iterations[-1], 0.0)
                     self._bound_reached(coordinate, level, len(self.rows) - 1, located)
